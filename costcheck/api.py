@@ -1,0 +1,91 @@
+"""The Python API: three ways to get a :class:`~costcheck.cost.Cost`.
+
+>>> import costcheck
+>>> cost = costcheck.from_expression("(x - y)**2 / 2", x=["x"], y=["y"],
+...                                  domain={"x": {"box": [[0, 1]]}, "y": {"box": [[0, 1]]}})
+>>> d = cost.derivatives()([[0.2]], [[0.7]])
+>>> float(d.dxy[0, 0, 0])
+-1.0
+"""
+
+from __future__ import annotations
+
+from pathlib import Path
+from typing import Callable, Mapping, Sequence
+
+from .cost import Cost
+from .domain import Domain
+from .errors import CostFileError
+from .loader import _region, build_cost, load_cost
+
+
+def load(path: str | Path, **param_overrides: float) -> Cost:
+    """Read a cost file; keyword arguments override its ``params``."""
+    return load_cost(path, param_overrides=param_overrides or None)
+
+
+def from_expression(
+    expr: str,
+    *,
+    x: Sequence[str],
+    y: Sequence[str],
+    domain: Mapping,
+    params: Mapping | None = None,
+    define: Mapping | None = None,
+    sense: str = "cost",
+    id: str = "expression",
+    title: str = "",
+) -> Cost:
+    """Build a cost from an expression string in the cost-file language (same validation)."""
+    data = {"id": id, "x": list(x), "y": list(y), "expr": expr, "domain": dict(domain), "sense": sense}
+    if title:
+        data["title"] = title
+    if params:
+        data["params"] = dict(params)
+    if define:
+        data["define"] = dict(define)
+    return build_cost(data, file=None)
+
+
+def from_function(
+    function: Callable,
+    *,
+    n: int,
+    m: int,
+    domain: Mapping,
+    sense: str = "cost",
+    id: str = "function",
+    title: str = "",
+) -> Cost:
+    """Build a cost from a JAX-traceable ``function(x, y)`` of 1-D arrays of lengths ``n`` and ``m``.
+
+    Only the ``jax`` derivative backend is available for such a cost (it has no
+    symbolic form).  ``domain`` takes the cost-file form ``{"x": {"box": ...}, "y": ...}``;
+    constraints (``where``/``pairs``) need names and are not available here.
+    """
+    if sense not in ("cost", "surplus"):
+        raise CostFileError(f"sense must be 'cost' or 'surplus', got {sense!r}", field="sense")
+    for key in ("x", "y"):
+        if key not in domain:
+            raise CostFileError("a domain needs both 'x' and 'y'", field=f"domain.{key}")
+    extra = set(domain) - {"x", "y"}
+    if extra:
+        raise CostFileError(f"constraints need coordinate names; {sorted(extra)} are not available for a "
+                            "Python-function cost (use from_expression)", field="domain")
+    region_x = _region(domain["x"], n, "x", {}, None)
+    region_y = _region(domain["y"], m, "y", {}, None)
+    if sense == "surplus":
+        def minimised(x_, y_, _s=function):
+            return -_s(x_, y_)
+    else:
+        minimised = function
+    return Cost(
+        id=id,
+        title=title,
+        sense=sense,
+        x_names=tuple(f"x{i + 1}" for i in range(n)),
+        y_names=tuple(f"y{k + 1}" for k in range(m)),
+        domain=Domain(region_x, region_y),
+        expr=None,
+        function=minimised,
+    )

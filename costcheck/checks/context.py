@@ -1,0 +1,60 @@
+"""What every condition check receives: the cost, its evaluators, and the shared sample.
+
+Building the derivative evaluators and evaluating them on the sample is the
+expensive common part; it is done once per cost and handed to each check.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass, field
+from functools import cached_property
+
+import numpy as np
+
+from ..cost import Cost
+from ..derivatives import Derivatives, Evaluator
+from ..derivatives.mp_backend import HighPrecision, high_precision
+from .sampler import PairSample, sample_pairs
+
+
+@dataclass
+class CheckContext:
+    cost: Cost
+    seed: int
+    budget: int
+    backend: str = "sympy"
+    #: evaluators by derivative order, built on first use
+    _evaluators: dict = field(default_factory=dict, repr=False)
+
+    def evaluator(self, order: int = 4) -> Evaluator:
+        """Derivatives up to ``order``; an evaluator of a higher order serves a lower one."""
+        if order not in self._evaluators:
+            self._evaluators[order] = self.cost.derivatives(backend=self.backend, order=order)
+        return self._evaluators[order]
+
+    def rng(self, salt: int) -> np.random.Generator:
+        """An independent, reproducible random stream for one check (``salt`` names the check)."""
+        return np.random.default_rng([self.seed, salt])
+
+    @cached_property
+    def sample(self) -> PairSample:
+        return sample_pairs(self.cost.domain, self.cost.n, self.cost.m, self.budget, self.seed)
+
+    @cached_property
+    def order(self) -> int:
+        # fourth derivatives are only needed for the MTW tensor, which needs n == m
+        return 4 if self.cost.n == self.cost.m else 2
+
+    @cached_property
+    def derivs(self) -> Derivatives:
+        """Derivatives at every sampled pair (NaN where the cost is undefined)."""
+        return self.evaluator(self.order)(self.sample.xs, self.sample.ys)
+
+    @cached_property
+    def defined(self) -> np.ndarray:
+        return self.derivs.defined
+
+    @cached_property
+    def high_precision(self) -> HighPrecision | None:
+        """mpmath evaluator of the same derivatives, for confirming witnesses (None for function costs)."""
+        return high_precision(self.cost, self.order)

@@ -1,0 +1,235 @@
+"""The ``costcheck`` command line.
+
+Exit codes, like a linter's: 0 all fine; 1 an expectation written in a cost file
+was not met; 2 bad input or usage (a one-line message naming the file and the
+field; never a traceback).
+"""
+
+from __future__ import annotations
+
+import argparse
+import json
+import sys
+from typing import Sequence
+
+from rich.console import Console
+
+from . import __version__
+from .errors import EXIT_BAD_INPUT, EXIT_EXPECTATION_FAILED, EXIT_OK, CostcheckError, CostFileError
+
+
+class _Parser(argparse.ArgumentParser):
+    """argparse, but usage errors are one line plus a hint, with exit status 2."""
+
+    def error(self, message: str):  # noqa: D401 - argparse hook
+        sys.stderr.write(f"costcheck: usage error: {message} (try 'costcheck {self.prog.split()[-1]} --help')\n"
+                         if " " in self.prog else f"costcheck: usage error: {message} (try 'costcheck --help')\n")
+        raise SystemExit(EXIT_BAD_INPUT)
+
+
+def _positive_int(text: str) -> int:
+    try:
+        value = int(text)
+    except ValueError:
+        raise argparse.ArgumentTypeError(f"expected a whole number, got {text!r}") from None
+    if value < 1:
+        raise argparse.ArgumentTypeError(f"expected a positive number, got {value}")
+    return value
+
+
+def _build_parser() -> argparse.ArgumentParser:
+    from .checks.runner import CONDITION_MODULES, DEFAULT_SEED
+    from .checks.sampler import DEFAULT_BUDGET
+
+    parser = _Parser(prog="costcheck", description="Check transport costs and matching surpluses for twist, "
+                     "non-degeneracy, MTW, cross-curvature and related conditions, with witnesses.")
+    parser.add_argument("--version", action="version", version=f"costcheck {__version__}")
+    sub = parser.add_subparsers(dest="command", metavar="COMMAND", parser_class=_Parser)
+
+    check = sub.add_parser("check", help="check cost files (files or folders, searched recursively)")
+    check.add_argument("paths", nargs="+", metavar="PATH")
+    check.add_argument("--json", action="store_true", help="print one JSON document instead of tables")
+    check.add_argument("--seed", type=int, default=DEFAULT_SEED, help=f"random seed (default {DEFAULT_SEED})")
+    check.add_argument("--budget", type=_positive_int, default=DEFAULT_BUDGET,
+                       help=f"sampled (x, y) pairs per cost; more is slower and more thorough (default {DEFAULT_BUDGET})")
+    check.add_argument("--backend", choices=["sympy", "jax"], default="sympy",
+                       help="derivative backend (default sympy; jax compiles slower, runs faster on large budgets)")
+    check.add_argument("--only", action="append", choices=list(CONDITION_MODULES), metavar="CONDITION",
+                       help=f"run only this condition (repeatable): {', '.join(CONDITION_MODULES)}")
+
+    show = sub.add_parser("show", help="show a parsed cost file: expression, domain, derivative sizes")
+    show.add_argument("file", metavar="FILE")
+    show.add_argument("--json", action="store_true")
+
+    tensor = sub.add_parser("tensor", help="print the MTW tensor T_ijkl of a cost in closed form")
+    tensor.add_argument("file", metavar="FILE")
+    tensor.add_argument("--latex", action="store_true", help="print LaTeX instead of plain text")
+    tensor.add_argument("--json", action="store_true")
+    tensor.add_argument("--simplify-seconds", type=float, default=10.0,
+                        help="time allowed for simplification, in total (default 10; 0 skips it)")
+    return parser
+
+
+def _cmd_check(args, out: Console, err: Console) -> int:
+    from .checks.runner import run_checks
+    from .loader import find_cost_files, load_cost
+    from .render import json_out, terminal
+
+    try:
+        files = find_cost_files(args.paths)
+    except CostFileError as exc:
+        _error(exc)
+        return EXIT_BAD_INPUT
+    if not files:
+        _error(f"no cost files (*.yaml, *.yml) under {' '.join(args.paths)}")
+        return EXIT_BAD_INPUT
+    reports, errors = [], []
+    seen_ids: dict[str, str] = {}
+    for path in files:
+        try:
+            cost = load_cost(path)
+            if cost.id in seen_ids:
+                raise CostFileError(f"the id '{cost.id}' is already used by {seen_ids[cost.id]}",
+                                    file=str(path), field="id")
+            seen_ids[cost.id] = str(path)
+        except CostFileError as exc:
+            errors.append(exc)
+            _error(exc)
+            continue
+        with err.status(f"checking {cost.id}…", spinner="dots") if err.is_terminal else _Null() as status:
+            def progress(name, _s=status, _id=cost.id):
+                if _s is not None:
+                    _s.update(f"checking {_id}: {name}…")
+            report = run_checks(cost, budget=args.budget, seed=args.seed, backend=args.backend,
+                                conditions=args.only, on_progress=progress)
+        reports.append(report)
+        if not args.json:
+            terminal.render_report(out, report)
+    if errors:
+        code = EXIT_BAD_INPUT
+    elif any(r.mismatches for r in reports):
+        code = EXIT_EXPECTATION_FAILED
+    else:
+        code = EXIT_OK
+    if args.json:
+        options = {"seed": args.seed, "budget": args.budget, "backend": args.backend, "only": args.only}
+        print(json_out.run_to_json(reports, errors, options, code))
+    else:
+        terminal.render_summary(out, reports, errors)
+    return code
+
+
+class _Null:
+    def __enter__(self):
+        return None
+
+    def __exit__(self, *exc):
+        return False
+
+
+def _cmd_show(args, out: Console) -> int:
+    from .loader import load_cost
+    from .derivatives.sympy_backend import symbolic_derivatives
+    import sympy as sp
+
+    cost = load_cost(args.file)
+    order = 4 if cost.n == cost.m else 2
+    derivs = symbolic_derivatives(cost.expr, cost.x_symbols, cost.y_symbols, order)
+    sizes = {}
+    for name, entries in derivs.items():
+        flat = sp.flatten(entries) if isinstance(entries, list) else [entries]
+        sizes[name] = {"entries": len(flat), "operations": int(sum(sp.count_ops(e) for e in flat))}
+    domain = {"x": cost.domain.x.to_json(), "y": cost.domain.y.to_json(), **cost.domain.constraint_texts()}
+    info = {
+        "id": cost.id, "file": cost.file, "title": cost.title, "sense": cost.sense,
+        "x": list(cost.x_names), "y": list(cost.y_names),
+        "params": {k: str(v) for k, v in cost.params.items()},
+        "cost_minimised": str(cost.expr),
+        "domain": domain, "derivative_sizes": sizes,
+        "expect": dict(cost.expect), "source": cost.source,
+    }
+    if args.json:
+        print(json.dumps(info, indent=2, ensure_ascii=False))
+        return EXIT_OK
+    out.print(f"[bold]{cost.id}[/] — {cost.title}  [dim]({cost.file})[/]")
+    out.print(f"sense: {cost.sense}" + ("  (checked as the cost c = -s)" if cost.sense == "surplus" else ""))
+    out.print(f"x = ({', '.join(cost.x_names)}), y = ({', '.join(cost.y_names)}), n = {cost.n}, m = {cost.m}")
+    if cost.params:
+        out.print("params: " + ", ".join(f"{k} = {v}" for k, v in cost.params.items()), markup=False)
+    out.print(f"cost (minimised): {cost.expr}", markup=False, highlight=False)
+    out.print(f"domain x: {cost.domain.x.describe(cost.x_names)}", markup=False)
+    out.print(f"domain y: {cost.domain.y.describe(cost.y_names)}", markup=False)
+    for key, texts in cost.domain.constraint_texts().items():
+        for t in texts:
+            out.print(f"{key}: {t}", markup=False)
+    out.print("derivatives (entries, sympy operations):")
+    for name, s in sizes.items():
+        out.print(f"  {name:6s} {s['entries']:4d} entries, {s['operations']} operations")
+    if cost.expect:
+        out.print("expected: " + ", ".join(f"{k}: {v}" for k, v in cost.expect.items()))
+    if cost.source:
+        out.print(f"source: {cost.source}", markup=False)
+    return EXIT_OK
+
+
+def _cmd_tensor(args, out: Console) -> int:
+    from .loader import load_cost
+    from .symbolic_tensor import mtw_tensor_symbolic
+    import sympy as sp
+
+    cost = load_cost(args.file)
+    components = mtw_tensor_symbolic(cost, simplify_seconds=args.simplify_seconds)
+    label = lambda idx: "".join(str(i + 1) for i in idx)  # noqa: E731
+    if args.json:
+        print(json.dumps({
+            "id": cost.id, "file": cost.file,
+            "convention": "T_ijkl = sum_rs c_ij,r c^r,s c_s,kl - c_ij,kl (cost minimised; symmetric in ij and in kl)",
+            "components": [{"index": label(c.index), "expr": str(c.expr), "latex": sp.latex(c.expr),
+                            "simplified": c.simplified} for c in components],
+        }, indent=2, ensure_ascii=False))
+        return EXIT_OK
+    out.print(f"MTW tensor of {cost.id}: T_ijkl = Σ c_ij,r c^r,s c_s,kl − c_ij,kl "
+              f"(symmetric in ij and in kl; indices 1..{cost.n})", markup=False)
+    for c in components:
+        body = sp.latex(c.expr) if args.latex else str(c.expr)
+        name = f"T_{{{label(c.index)}}}" if args.latex else f"T_{label(c.index)}"
+        note = "" if c.simplified else "   (not simplified within the time limit)"
+        out.print(f"{name} = {body}{note}", markup=False, highlight=False, soft_wrap=True)
+    return EXIT_OK
+
+
+def _error(problem) -> None:
+    """One line on stderr (never wrapped, never a traceback)."""
+    text = " ".join(str(problem).split())
+    sys.stderr.write(f"costcheck: error: {text}\n")
+    sys.stderr.flush()
+
+
+def main(argv: Sequence[str] | None = None) -> int:
+    # tables are wider than 80 columns; outside a terminal (CI logs, pipes) use a fixed width
+    out = Console(highlight=False, width=None if sys.stdout.isatty() else 150)
+    err = Console(stderr=True, highlight=False)
+    parser = _build_parser()
+    args = parser.parse_args(argv)
+    if args.command is None:
+        parser.print_help()
+        return EXIT_BAD_INPUT
+    try:
+        if args.command == "check":
+            return _cmd_check(args, out, err)
+        if args.command == "show":
+            return _cmd_show(args, out)
+        if args.command == "tensor":
+            return _cmd_tensor(args, out)
+    except CostcheckError as exc:
+        _error(exc)
+        return EXIT_BAD_INPUT
+    except KeyboardInterrupt:
+        _error("interrupted")
+        return 130
+    parser.error(f"unknown command {args.command!r}")
+    return EXIT_BAD_INPUT
+
+
+if __name__ == "__main__":
+    raise SystemExit(main())

@@ -1,0 +1,105 @@
+"""Derivative engine: the cost and its mixed derivatives up to order 4, vectorised.
+
+Index conventions follow ``shared/reference/conditions.md``::
+
+    dx[i]          = ∂c/∂x_i                    (N, n)
+    dy[k]          = ∂c/∂y_k                    (N, m)
+    dxy[i, k]      = ∂²c/∂x_i∂y_k   = M         (N, n, m)
+    dxxy[i, j, k]  = c_{ij,k}                   (N, n, n, m)
+    dxyy[i, k, l]  = c_{i,kl}                   (N, n, m, m)
+    dxxyy[i,j,k,l] = c_{ij,kl}                  (N, n, n, m, m)
+
+Two backends compute the same numbers by different routes, so each checks the
+other: ``sympy`` (symbolic differentiation, common subexpressions shared,
+lambdified to numpy) and ``jax`` (forward-mode automatic differentiation of the
+same expression, or of a user's Python function, ``vmap`` + ``jit`` in float64).
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass, fields
+from typing import Callable, Optional
+
+import numpy as np
+
+from ..errors import UsageError
+
+#: Which fields each derivative order adds.
+ORDER_FIELDS = {
+    0: ("value",),
+    1: ("dx", "dy"),
+    2: ("dxy",),
+    3: ("dxxy", "dxyy"),
+    4: ("dxxyy",),
+}
+
+BACKENDS = ("sympy", "jax")
+
+
+def fields_up_to(order: int) -> tuple[str, ...]:
+    return tuple(name for k in range(order + 1) for name in ORDER_FIELDS[k])
+
+
+@dataclass(frozen=True)
+class Derivatives:
+    """Arrays of derivative values at ``N`` pairs; higher orders are ``None`` if not asked for."""
+
+    value: np.ndarray
+    dx: Optional[np.ndarray] = None
+    dy: Optional[np.ndarray] = None
+    dxy: Optional[np.ndarray] = None
+    dxxy: Optional[np.ndarray] = None
+    dxyy: Optional[np.ndarray] = None
+    dxxyy: Optional[np.ndarray] = None
+
+    @property
+    def defined(self) -> np.ndarray:
+        """True at pairs where every computed quantity is finite (inside the cost's domain)."""
+        ok = np.ones(self.value.shape[0], dtype=bool)
+        for f in fields(self):
+            arr = getattr(self, f.name)
+            if arr is not None:
+                ok &= np.all(np.isfinite(arr.reshape(arr.shape[0], -1)), axis=1)
+        return ok
+
+    def take(self, index) -> "Derivatives":
+        """The same derivatives at a subset of the pairs."""
+        return Derivatives(**{f.name: (None if getattr(self, f.name) is None else getattr(self, f.name)[index])
+                              for f in fields(self)})
+
+
+@dataclass(frozen=True)
+class Evaluator:
+    """``evaluator(xs, ys)`` → :class:`Derivatives`, for arrays of shape ``(N, n)`` and ``(N, m)``."""
+
+    n: int
+    m: int
+    order: int
+    backend: str
+    _fn: Callable
+
+    def __call__(self, xs, ys) -> Derivatives:
+        xs = np.atleast_2d(np.asarray(xs, dtype=float))
+        ys = np.atleast_2d(np.asarray(ys, dtype=float))
+        if xs.shape[1] != self.n or ys.shape[1] != self.m or xs.shape[0] != ys.shape[0]:
+            raise UsageError(f"expected x of shape (N, {self.n}) and y of shape (N, {self.m}); "
+                             f"got {xs.shape} and {ys.shape}")
+        with np.errstate(all="ignore"):
+            return self._fn(xs, ys)
+
+
+def make_evaluator(cost, backend: str = "sympy", order: int = 4) -> Evaluator:
+    """Build the evaluator of ``cost`` for derivative orders ``0..order`` with ``backend``."""
+    if order not in ORDER_FIELDS:
+        raise UsageError(f"derivative order must be 0..4, got {order}")
+    if backend == "sympy":
+        if cost.expr is None:
+            raise UsageError(f"cost '{cost.id}' is a Python function with no symbolic form; use backend='jax'")
+        from .sympy_backend import build
+
+        return Evaluator(cost.n, cost.m, order, backend, build(cost.expr, cost.x_symbols, cost.y_symbols, order))
+    if backend == "jax":
+        from .jax_backend import build_from_cost
+
+        return Evaluator(cost.n, cost.m, order, backend, build_from_cost(cost, order))
+    raise UsageError(f"unknown backend '{backend}'; choose one of {', '.join(BACKENDS)}")

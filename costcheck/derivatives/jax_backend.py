@@ -1,0 +1,132 @@
+"""The JAX backend: forward-mode derivatives of one scalar function, ``vmap`` + ``jit``, float64.
+
+The scalar function is either translated from the cost's sympy expression
+(:func:`sympy_to_jax`, a walk over the whitelisted node types, nothing evaluated
+from text) or is a user's own JAX-traceable ``f(x, y)``.
+"""
+
+from __future__ import annotations
+
+from functools import lru_cache
+from typing import Callable, Sequence
+
+import numpy as np
+import sympy as sp
+
+from ..errors import UsageError
+from . import Derivatives, fields_up_to
+
+
+@lru_cache(maxsize=1)
+def _jax():
+    import jax
+
+    # float64 everywhere: the checks compare margins near zero
+    jax.config.update("jax_enable_x64", True)
+    import jax.numpy as jnp
+
+    return jax, jnp
+
+
+def _function_table(jnp):
+    return {
+        sp.exp: jnp.exp, sp.log: jnp.log, sp.sin: jnp.sin, sp.cos: jnp.cos, sp.tan: jnp.tan,
+        sp.sinh: jnp.sinh, sp.cosh: jnp.cosh, sp.tanh: jnp.tanh, sp.asin: jnp.arcsin,
+        sp.acos: jnp.arccos, sp.atan: jnp.arctan, sp.asinh: jnp.arcsinh, sp.acosh: jnp.arccosh,
+        sp.atanh: jnp.arctanh, sp.Abs: jnp.abs, sp.sign: jnp.sign,
+    }
+
+
+def sympy_to_jax(expr: sp.Expr, xs: Sequence[sp.Symbol], ys: Sequence[sp.Symbol]) -> Callable:
+    """A JAX-traceable ``f(x, y)`` computing ``expr`` (x, y are 1-D arrays)."""
+    jax, jnp = _jax()
+    table = _function_table(jnp)
+    x_index = {s: i for i, s in enumerate(xs)}
+    y_index = {s: i for i, s in enumerate(ys)}
+
+    def f(x, y):
+        cache: dict = {}
+
+        def walk(e):
+            if e in cache:
+                return cache[e]
+            if e in x_index:
+                v = x[x_index[e]]
+            elif e in y_index:
+                v = y[y_index[e]]
+            elif e.is_Number or e in (sp.pi, sp.E):
+                v = jnp.asarray(float(e), dtype=jnp.float64)
+            elif e.is_Add:
+                v = walk(e.args[0])
+                for a in e.args[1:]:
+                    v = v + walk(a)
+            elif e.is_Mul:
+                v = walk(e.args[0])
+                for a in e.args[1:]:
+                    v = v * walk(a)
+            elif e.is_Pow:
+                base, exponent = e.args
+                if exponent.is_Integer:
+                    v = jax.lax.integer_pow(walk(base), int(exponent))
+                elif exponent == sp.Rational(1, 2):
+                    v = jnp.sqrt(walk(base))
+                elif exponent == -sp.Rational(1, 2):
+                    v = 1.0 / jnp.sqrt(walk(base))
+                elif base == sp.E:
+                    v = jnp.exp(walk(exponent))
+                else:
+                    v = jnp.power(walk(base), walk(exponent))
+            elif e.func in table and len(e.args) == 1:
+                v = table[e.func](walk(e.args[0]))
+            else:
+                raise UsageError(f"the JAX backend cannot translate {e.func.__name__}")
+            cache[e] = v
+            return v
+
+        return walk(expr)
+
+    return f
+
+
+def build_scalar(f: Callable, order: int) -> Callable:
+    """``(x (n,), y (m,)) -> dict`` of derivatives of the scalar ``f`` up to ``order``."""
+    jax, _ = _jax()
+    grad_x = jax.grad(f, argnums=0)
+    mixed = jax.jacfwd(grad_x, argnums=1)  # M[i, k]
+
+    def one(x, y):
+        out = {"value": f(x, y)}
+        if order >= 1:
+            out["dx"] = grad_x(x, y)
+            out["dy"] = jax.grad(f, argnums=1)(x, y)
+        if order >= 2:
+            out["dxy"] = mixed(x, y)
+        if order >= 3:
+            # jacfwd appends the new index last: d/dx_j of M[i,k] has shape (n, m, n)
+            out["dxxy"] = jax.numpy.moveaxis(jax.jacfwd(mixed, argnums=0)(x, y), 2, 1)
+            out["dxyy"] = jax.jacfwd(mixed, argnums=1)(x, y)
+        if order >= 4:
+            d_mxx = jax.jacfwd(jax.jacfwd(mixed, argnums=0), argnums=1)(x, y)  # [i, k, j, l]
+            out["dxxyy"] = jax.numpy.transpose(d_mxx, (0, 2, 1, 3))
+        return out
+
+    return one
+
+
+def build_from_function(f: Callable, order: int) -> Callable:
+    """A batched evaluator ``(xs, ys) -> Derivatives`` for a JAX-traceable scalar ``f(x, y)``."""
+    jax, jnp = _jax()
+    batched = jax.jit(jax.vmap(build_scalar(f, order)))
+    names = fields_up_to(order)
+
+    def evaluate(x: np.ndarray, y: np.ndarray) -> Derivatives:
+        out = batched(jnp.asarray(x, dtype=jnp.float64), jnp.asarray(y, dtype=jnp.float64))
+        return Derivatives(**{name: np.asarray(out[name], dtype=float) for name in names})
+
+    return evaluate
+
+
+def build_from_cost(cost, order: int) -> Callable:
+    if cost.function is not None:
+        return build_from_function(cost.function, order)
+    return build_from_function(sympy_to_jax(cost.expr, cost.x_symbols, cost.y_symbols), order)

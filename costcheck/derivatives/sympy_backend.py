@@ -1,0 +1,97 @@
+"""The sympy backend: symbolic derivatives, shared subexpressions, one numpy function.
+
+Symmetries are used so each distinct derivative is formed once
+(``c_{ij,k} = c_{ji,k}``, ``c_{i,kl} = c_{i,lk}``, ``c_{ij,kl}`` in both pairs), and
+all entries go through a single ``lambdify(..., cse=True)`` call so common
+subexpressions are evaluated once per point.
+"""
+
+from __future__ import annotations
+
+import itertools
+from typing import Sequence
+
+import numpy as np
+import sympy as sp
+
+from . import Derivatives, fields_up_to
+
+
+def _delta(x, *_):
+    # The derivative of sign(u) is a point mass at u = 0: zero elsewhere, undefined there.
+    return np.where(np.asarray(x) == 0, np.nan, 0.0)
+
+
+def _heaviside(x, *_):
+    x = np.asarray(x, dtype=float)
+    return np.where(x == 0, np.nan, (x > 0).astype(float))
+
+
+_MODULES = [{"DiracDelta": _delta, "Heaviside": _heaviside, "sign": np.sign}, "numpy"]
+
+
+def symbolic_derivatives(expr: sp.Expr, xs: Sequence[sp.Symbol], ys: Sequence[sp.Symbol], order: int) -> dict:
+    """Nested lists of sympy expressions, one entry per field of :class:`Derivatives`."""
+    n, m = len(xs), len(ys)
+    out: dict = {"value": expr}
+    if order >= 1:
+        gx = [sp.diff(expr, xi) for xi in xs]
+        out["dx"] = gx
+        out["dy"] = [sp.diff(expr, yk) for yk in ys]
+    if order >= 2:
+        out["dxy"] = [[sp.diff(gx[i], ys[k]) for k in range(m)] for i in range(n)]
+    if order >= 3:
+        M = out["dxy"]
+        dxxy = [[[None] * m for _ in range(n)] for _ in range(n)]
+        for i, j in itertools.combinations_with_replacement(range(n), 2):
+            for k in range(m):
+                dxxy[i][j][k] = dxxy[j][i][k] = sp.diff(M[i][k], xs[j])
+        dxyy = [[[None] * m for _ in range(m)] for _ in range(n)]
+        for i in range(n):
+            for k, l in itertools.combinations_with_replacement(range(m), 2):
+                dxyy[i][k][l] = dxyy[i][l][k] = sp.diff(M[i][k], ys[l])
+        out["dxxy"], out["dxyy"] = dxxy, dxyy
+    if order >= 4:
+        dxxy = out["dxxy"]
+        dxxyy = [[[[None] * m for _ in range(m)] for _ in range(n)] for _ in range(n)]
+        for i, j in itertools.combinations_with_replacement(range(n), 2):
+            for k, l in itertools.combinations_with_replacement(range(m), 2):
+                d = sp.diff(dxxy[i][j][k], ys[l])
+                for a, b in ((i, j), (j, i)):
+                    dxxyy[a][b][k][l] = dxxyy[a][b][l][k] = d
+        out["dxxyy"] = dxxyy
+    return out
+
+
+def build(expr: sp.Expr, xs: Sequence[sp.Symbol], ys: Sequence[sp.Symbol], order: int):
+    """A function ``(xs (N,n), ys (N,m)) -> Derivatives`` evaluating the symbolic derivatives."""
+    names = fields_up_to(order)
+    sym = symbolic_derivatives(expr, xs, ys, order)
+    shapes = {name: np.shape(np.array(sym[name], dtype=object)) for name in names}
+
+    # one flat list of distinct expressions; each field records where its entries sit in it
+    flat: list[sp.Expr] = []
+    position: dict[sp.Expr, int] = {}
+    layout: dict[str, np.ndarray] = {}
+    for name in names:
+        entries = np.array(sym[name], dtype=object).reshape(-1)
+        idx = []
+        for e in entries:
+            if e not in position:
+                position[e] = len(flat)
+                flat.append(e)
+            idx.append(position[e])
+        layout[name] = np.array(idx, dtype=int)
+
+    fn = sp.lambdify(list(xs) + list(ys), flat, modules=_MODULES, cse=True, dummify=True)
+
+    def evaluate(x: np.ndarray, y: np.ndarray) -> Derivatives:
+        count = x.shape[0]
+        columns = fn(*x.T, *y.T)
+        table = np.empty((len(flat), count))
+        for row, col in enumerate(columns):
+            table[row] = np.broadcast_to(np.asarray(col, dtype=float), (count,))
+        result = {name: table[layout[name]].T.reshape((count,) + shapes[name]) for name in names}
+        return Derivatives(**result)
+
+    return evaluate

@@ -1,0 +1,324 @@
+"""Cost file → validated spec → :class:`~costcheck.cost.Cost`.
+
+Three stages, each with errors that name the file and the field:
+
+1. YAML, read with a *safe* loader that also refuses duplicate keys (PyYAML would
+   silently keep the last one) and aliases (which can blow a small file up in memory);
+2. the JSON Schema of :mod:`costcheck.schema` (shape and types);
+3. meaning: names defined once, helpers without cycles, expressions in the safe
+   language, dimensions that match, boxes that are not empty or inverted.
+"""
+
+from __future__ import annotations
+
+import keyword
+from graphlib import CycleError, TopologicalSorter
+from pathlib import Path
+from typing import Any, Mapping
+
+import jsonschema
+import sympy as sp
+import yaml
+
+from .cost import Cost
+from .domain import Ball, Box, Constraint, Domain
+from .errors import CostFileError
+from .expression import RESERVED_NAMES, Inequality, parse_expression, parse_inequalities, referenced_names
+from .schema import COST_FILE_SCHEMA
+
+MAX_FILE_BYTES = 256 * 1024
+COST_FILE_SUFFIXES = (".yaml", ".yml")
+
+
+# --------------------------------------------------------------------------- YAML
+
+
+class _StrictSafeLoader(yaml.SafeLoader):
+    """PyYAML's safe loader, refusing aliases and duplicate mapping keys."""
+
+    def compose_node(self, parent, index):  # noqa: D401 - PyYAML hook
+        if self.check_event(yaml.AliasEvent):
+            event = self.peek_event()
+            raise yaml.MarkedYAMLError(None, None, "aliases (*name) are not allowed in cost files", event.start_mark)
+        return super().compose_node(parent, index)
+
+    def construct_mapping(self, node, deep=False):
+        seen: set = set()
+        for key_node, _ in node.value:
+            key = self.construct_object(key_node, deep=deep)
+            try:
+                duplicate = key in seen
+            except TypeError:  # Fix: a list or mapping as a key crashed here with TypeError
+                raise yaml.MarkedYAMLError(
+                    None, None, "a key must be a plain value, not a list or mapping", key_node.start_mark
+                ) from None
+            if duplicate:
+                raise yaml.MarkedYAMLError(
+                    None, None, f"the key '{key}' appears twice in one mapping", key_node.start_mark
+                )
+            seen.add(key)
+        return super().construct_mapping(node, deep=deep)
+
+
+def read_yaml(text: str, file: str | None = None) -> Any:
+    try:
+        return yaml.load(text, Loader=_StrictSafeLoader)  # noqa: S506 - a SafeLoader subclass
+    except yaml.MarkedYAMLError as exc:
+        mark = exc.problem_mark
+        where = f" (line {mark.line + 1}, column {mark.column + 1})" if mark else ""
+        problem = exc.problem or exc.context or "unreadable YAML"
+        raise CostFileError(f"bad YAML: {problem}{where}", file=file) from None
+    except yaml.YAMLError as exc:
+        raise CostFileError(f"bad YAML: {exc}", file=file) from None
+    except RecursionError:
+        raise CostFileError("bad YAML: nested too deeply", file=file) from None
+    except ValueError as exc:
+        # Fix: PyYAML's constructors raise plain ValueError for an integer over Python's
+        # 4300-digit limit or an impossible date (2001-02-30); this escaped as a traceback.
+        raise CostFileError(f"bad YAML: a value cannot be read ({exc})", file=file) from None
+
+
+# --------------------------------------------------------------------------- schema
+
+
+def _field_path(parts) -> str:
+    out = ""
+    for part in parts:
+        out += f"[{part}]" if isinstance(part, int) else (f".{part}" if out else str(part))
+    return out
+
+
+def validate_shape(data: Any, file: str | None = None) -> None:
+    """Check ``data`` against the cost-file JSON Schema; raise on the most relevant error."""
+    if not isinstance(data, dict):
+        raise CostFileError("a cost file must be a YAML mapping (key: value lines)", file=file)
+    validator = jsonschema.Draft202012Validator(COST_FILE_SCHEMA)
+    error = jsonschema.exceptions.best_match(validator.iter_errors(data))
+    if error is None:
+        return
+    path = list(error.absolute_path)
+    if error.validator == "additionalProperties":
+        allowed = sorted(error.schema.get("properties", {}))
+        extra = sorted(set(error.instance) - set(allowed)) if isinstance(error.instance, dict) else []
+        message = f"unknown key '{extra[0] if extra else '?'}'; allowed here: {', '.join(allowed)}"
+    elif error.validator == "required":
+        message = error.message.replace("is a required property", "is missing (it is required)")
+    elif error.validator in ("minProperties", "maxProperties") and path and path[-1] in ("x", "y"):
+        message = "give exactly one of 'box' or 'ball'"
+    elif error.validator == "pattern" and path and path[0] in ("x", "y", "params", "define"):
+        message = f"{error.instance!r} is not a valid name (letters, digits and _, not starting with a digit)"
+    elif error.validator == "propertyNames":
+        message = f"not a valid name: {error.message}"
+    else:
+        message = error.message
+    raise CostFileError(message, file=file, field=_field_path(path) or None)
+
+
+# --------------------------------------------------------------------------- meaning
+
+
+def _check_name(name: str, field: str, file: str | None) -> None:
+    if name in RESERVED_NAMES or keyword.iskeyword(name):
+        raise CostFileError(f"'{name}' is reserved and cannot be used as a name", file=file, field=field)
+
+
+def _constant(value: Any, names: Mapping[str, sp.Expr], field: str, file: str | None) -> sp.Expr:
+    """A number, or an expression that must reduce to a real number."""
+    try:
+        expr = parse_expression(value, names)
+    except CostFileError as exc:
+        raise exc.located(file=file, field_prefix=field) from None
+    if expr.free_symbols:
+        raise CostFileError(f"{value!r} must be a constant (it mentions {sorted(map(str, expr.free_symbols))})",
+                            file=file, field=field)
+    number = complex(sp.N(expr))
+    if abs(number.imag) > 0 or number.real != number.real or abs(number.real) == float("inf"):
+        raise CostFileError(f"{value!r} is not a finite real number", file=file, field=field)
+    return expr
+
+
+def _region(spec: Mapping, dim: int, side: str, names: Mapping[str, sp.Expr], file: str | None):
+    field = f"domain.{side}"
+    if "box" in spec:
+        rows = spec["box"]
+        if len(rows) != dim:
+            raise CostFileError(
+                f"the box has {len(rows)} intervals but '{side}' has {dim} coordinates", file=file, field=f"{field}.box"
+            )
+        lower, upper = [], []
+        for i, (lo, hi) in enumerate(rows):
+            where = f"{field}.box[{i}]"
+            a = float(_constant(lo, names, where, file))
+            b = float(_constant(hi, names, where, file))
+            if not a < b:
+                kind = "empty (low equals high)" if a == b else "inverted (low above high)"
+                raise CostFileError(f"the interval [{a:g}, {b:g}] is {kind}", file=file, field=where)
+            lower.append(a)
+            upper.append(b)
+        return Box(tuple(lower), tuple(upper))
+    ball = spec["ball"]
+    if len(ball["center"]) != dim:
+        raise CostFileError(
+            f"the ball's center has {len(ball['center'])} coordinates but '{side}' has {dim}",
+            file=file, field=f"{field}.ball.center",
+        )
+    center = tuple(float(_constant(v, names, f"{field}.ball.center[{i}]", file)) for i, v in enumerate(ball["center"]))
+    radius = float(_constant(ball["radius"], names, f"{field}.ball.radius", file))
+    if not radius > 0:
+        raise CostFileError(f"the radius must be positive, got {radius:g}", file=file, field=f"{field}.ball.radius")
+    return Ball(center, radius)
+
+
+def _helpers(define: Mapping[str, Any], base: Mapping[str, sp.Expr], file: str | None) -> dict[str, sp.Expr]:
+    """Expand ``define`` in dependency order, refusing cycles."""
+    graph = {}
+    for name, text in define.items():
+        try:
+            graph[name] = {n for n in referenced_names(text) if n in define}
+        except CostFileError as exc:
+            raise exc.located(file=file, field_prefix=f"define.{name}") from None
+    try:
+        order = list(TopologicalSorter(graph).static_order())
+    except CycleError as exc:
+        cycle = " -> ".join(exc.args[1])
+        raise CostFileError(f"helper definitions refer to each other in a cycle: {cycle}", file=file, field="define") from None
+    names = dict(base)
+    for name in order:
+        try:
+            names[name] = parse_expression(define[name], names)
+        except CostFileError as exc:
+            raise exc.located(file=file, field_prefix=f"define.{name}") from None
+    return {name: names[name] for name in define}
+
+
+def _constraints(texts, names, field, file) -> list[Inequality]:
+    out: list[Inequality] = []
+    for i, text in enumerate(texts):
+        try:
+            out.extend(parse_inequalities(text, names))
+        except CostFileError as exc:
+            raise exc.located(file=file, field_prefix=f"{field}[{i}]") from None
+    return out
+
+
+def build_cost(data: Mapping, file: str | None = None, *, param_overrides: Mapping[str, float] | None = None) -> Cost:
+    """Turn a parsed cost-file mapping into a :class:`Cost`, or raise :class:`CostFileError`."""
+    validate_shape(data, file)
+    x_names, y_names = list(data["x"]), list(data["y"])
+    params_in = dict(data.get("params") or {})
+    define = dict(data.get("define") or {})
+
+    # every name is defined exactly once across coordinates, parameters and helpers
+    owners: dict[str, str] = {}
+    for group, names in (("x", x_names), ("y", y_names), ("params", list(params_in)), ("define", list(define))):
+        for name in names:
+            field = group if group in ("x", "y") else f"{group}.{name}"
+            _check_name(name, field, file)
+            if name in owners:
+                raise CostFileError(f"the name '{name}' is defined twice (in '{owners[name]}' and '{group}')",
+                                    file=file, field=field)
+            owners[name] = group
+
+    x_syms = [sp.Symbol(n, real=True) for n in x_names]
+    y_syms = [sp.Symbol(n, real=True) for n in y_names]
+
+    params: dict[str, sp.Expr] = {}
+    for name, value in params_in.items():
+        if param_overrides and name in param_overrides:
+            value = param_overrides[name]
+        params[name] = _constant(value, params, f"params.{name}", file)
+    if param_overrides:
+        unknown = sorted(set(param_overrides) - set(params_in))
+        if unknown:
+            raise CostFileError(f"no parameter named '{unknown[0]}' (parameters: {', '.join(params_in) or 'none'})",
+                                file=file, field="params")
+
+    base: dict[str, sp.Expr] = {**params, **dict(zip(x_names, x_syms)), **dict(zip(y_names, y_syms))}
+    names = {**base, **_helpers(define, base, file)}
+
+    try:
+        written = parse_expression(data["expr"], names)
+    except CostFileError as exc:
+        raise exc.located(file=file, field_prefix="expr") from None
+    sense = data.get("sense", "cost")
+    expr = -written if sense == "surplus" else written
+    x_set, y_set = set(x_syms), set(y_syms)
+    stray = expr.free_symbols - x_set - y_set
+    if stray:
+        raise CostFileError(f"the expression has unresolved symbols {sorted(map(str, stray))}", file=file, field="expr")
+
+    dom = data["domain"]
+    constants = dict(params)
+    region_x = _region(dom["x"], len(x_names), "x", constants, file)
+    region_y = _region(dom["y"], len(y_names), "y", constants, file)
+
+    where_x, where_y = [], []
+    for i, text in enumerate(dom.get("where") or []):
+        for ineq in _constraints([text], names, "domain.where", file):
+            used = ineq.g.free_symbols
+            field = f"domain.where[{i}]"
+            if not used:
+                raise CostFileError(f"the constraint {text!r} mentions no coordinate", file=file, field=field)
+            if used & x_set and used & y_set:
+                raise CostFileError(f"the constraint {text!r} mentions both x and y names; put it under 'pairs'",
+                                    file=file, field=field)
+            if used <= x_set:
+                where_x.append(Constraint.build(ineq, x_syms))
+            else:
+                where_y.append(Constraint.build(ineq, y_syms))
+    pairs = []
+    for i, text in enumerate(dom.get("pairs") or []):
+        for ineq in _constraints([text], names, "domain.pairs", file):
+            if not ineq.g.free_symbols:
+                raise CostFileError(f"the constraint {text!r} mentions no coordinate", file=file, field=f"domain.pairs[{i}]")
+            pairs.append(Constraint.build(ineq, x_syms + y_syms))
+
+    return Cost(
+        id=data["id"],
+        title=data.get("title", ""),
+        sense=sense,
+        x_names=tuple(x_names),
+        y_names=tuple(y_names),
+        params=params,
+        expr=expr,
+        written_expr=written,
+        domain=Domain(region_x, region_y, tuple(where_x), tuple(where_y), tuple(pairs)),
+        expect=dict(data.get("expect") or {}),
+        source=data.get("source"),
+        file=file,
+        raw=data,
+    )
+
+
+def load_cost(path: str | Path, *, param_overrides: Mapping[str, float] | None = None) -> Cost:
+    """Read and validate one cost file."""
+    path = Path(path)
+    file = str(path)
+    try:
+        size = path.stat().st_size
+        if size > MAX_FILE_BYTES:
+            raise CostFileError(f"the file is {size} bytes; cost files are limited to {MAX_FILE_BYTES}", file=file)
+        text = path.read_text(encoding="utf-8")
+    except FileNotFoundError:
+        raise CostFileError("no such file", file=file) from None
+    except IsADirectoryError:
+        raise CostFileError("is a folder, not a cost file", file=file) from None
+    except UnicodeDecodeError:
+        raise CostFileError("not UTF-8 text", file=file) from None
+    except OSError as exc:
+        raise CostFileError(f"cannot read: {exc.strerror}", file=file) from None
+    return build_cost(read_yaml(text, file), file, param_overrides=param_overrides)
+
+
+def find_cost_files(paths) -> list[Path]:
+    """Expand files and folders (recursively) into cost files, in a stable order."""
+    found: list[Path] = []
+    for raw in paths:
+        path = Path(raw)
+        if path.is_dir():
+            found.extend(sorted(p for p in path.rglob("*") if p.suffix in COST_FILE_SUFFIXES and p.is_file()))
+        elif path.exists():
+            found.append(path)
+        else:
+            raise CostFileError("no such file or folder", file=str(path))
+    return found

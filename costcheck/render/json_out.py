@@ -1,0 +1,69 @@
+"""Machine-readable output: one JSON document per run.
+
+Shape (documented in the README)::
+
+    {"tool": "costcheck", "version": "...", "options": {...},
+     "costs": [{"id", "file", "title", "sense", "n", "m", "seconds",
+                "checks": {"twist": {...}, "nondegenerate": {...}, "mtw": {...}, "nncc": {...}},
+                "expect": {...}, "mismatches": [{"condition", "expected", "got"}]}],
+     "errors": [{"file", "field", "message"}],
+     "summary": {"costs", "mismatches", "errors", "exit_code"}}
+"""
+
+from __future__ import annotations
+
+import json
+import math
+
+from .. import __version__
+from ..checks.runner import CostReport
+from ..errors import CostFileError
+
+
+def _clean(value):
+    """JSON has no NaN or infinity: write them as null rather than emit invalid JSON."""
+    if isinstance(value, float) and not math.isfinite(value):
+        return None
+    if isinstance(value, dict):
+        return {k: _clean(v) for k, v in value.items()}
+    if isinstance(value, (list, tuple)):
+        return [_clean(v) for v in value]
+    return value
+
+
+def cost_to_json(report: CostReport) -> dict:
+    cost = report.cost
+    return {
+        "id": cost.id,
+        "file": cost.file,
+        "title": cost.title,
+        "sense": cost.sense,
+        "n": cost.n,
+        "m": cost.m,
+        "seconds": round(report.seconds, 3),
+        "checks": {name: v.to_json(cost.x_names, cost.y_names) for name, v in report.verdicts.items()},
+        "expect": dict(cost.expect),
+        "mismatches": [{"condition": mm.condition, "expected": mm.expected, "got": mm.got}
+                       for mm in report.mismatches],
+    }
+
+
+def error_to_json(error: CostFileError) -> dict:
+    return {"file": error.file, "field": error.field, "message": error.message}
+
+
+def run_to_json(reports: list[CostReport], errors: list[CostFileError], options: dict, exit_code: int) -> str:
+    document = {
+        "tool": "costcheck",
+        "version": __version__,
+        "options": options,
+        "costs": [cost_to_json(r) for r in reports],
+        "errors": [error_to_json(e) for e in errors],
+        "summary": {
+            "costs": len(reports),
+            "mismatches": sum(len(r.mismatches) for r in reports),
+            "errors": len(errors),
+            "exit_code": exit_code,
+        },
+    }
+    return json.dumps(_clean(document), indent=2, ensure_ascii=False)

@@ -1,0 +1,105 @@
+"""The JSON Schema of a cost file: the single description both the validator and editors use.
+
+The loader validates every file against :data:`COST_FILE_SCHEMA` before it reads any
+value, so a file that passes has the right shape; what the schema cannot say
+(expressions that parse, names defined once, dimensions that match) the loader
+checks afterwards.
+"""
+
+from __future__ import annotations
+
+IDENTIFIER = r"^[A-Za-z_][A-Za-z0-9_]*$"
+
+#: Verdict words per condition, as a cost file's ``expect`` writes them.
+VERDICT_WORDS: dict[str, list[str]] = {
+    "twist": ["holds", "fails"],
+    "nondegenerate": ["holds", "fails"],
+    "mtw": ["strong", "weak", "fails"],
+    "nncc": ["holds", "fails"],
+}
+
+_number_or_expression = {
+    "description": "a number, or a constant expression such as 'pi/2'",
+    "anyOf": [{"type": "number"}, {"type": "string", "minLength": 1}],
+}
+
+_names = {
+    "type": "array",
+    "items": {"type": "string", "pattern": IDENTIFIER},
+    "minItems": 1,
+    "maxItems": 8,
+    "uniqueItems": True,
+}
+
+_side_domain = {
+    "type": "object",
+    "description": "exactly one of: box (one [low, high] per coordinate) or ball",
+    "properties": {
+        "box": {
+            "type": "array",
+            "items": {"type": "array", "items": _number_or_expression, "minItems": 2, "maxItems": 2},
+            "minItems": 1,
+        },
+        "ball": {
+            "type": "object",
+            "properties": {
+                "center": {"type": "array", "items": _number_or_expression, "minItems": 1},
+                "radius": _number_or_expression,
+            },
+            "required": ["center", "radius"],
+            "additionalProperties": False,
+        },
+    },
+    "minProperties": 1,
+    "maxProperties": 1,
+    "additionalProperties": False,
+}
+
+_constraints = {"type": "array", "items": {"type": "string", "minLength": 1}}
+
+COST_FILE_SCHEMA: dict = {
+    "$schema": "https://json-schema.org/draft/2020-12/schema",
+    "title": "costcheck cost file",
+    "description": "One transport cost (or matching surplus), its domain and its expected verdicts.",
+    "type": "object",
+    "required": ["id", "x", "y", "expr", "domain"],
+    "additionalProperties": False,
+    "properties": {
+        "id": {"type": "string", "pattern": r"^[A-Za-z0-9][A-Za-z0-9._-]*$", "maxLength": 100},
+        "title": {"type": "string"},
+        "description": {"type": "string"},
+        "sense": {"enum": ["cost", "surplus"], "default": "cost"},
+        "x": _names,
+        "y": _names,
+        "params": {
+            "type": "object",
+            "propertyNames": {"pattern": IDENTIFIER},
+            "additionalProperties": _number_or_expression,
+        },
+        "define": {
+            "type": "object",
+            "propertyNames": {"pattern": IDENTIFIER},
+            "additionalProperties": _number_or_expression,
+        },
+        "expr": _number_or_expression,
+        "domain": {
+            "type": "object",
+            "required": ["x", "y"],
+            "additionalProperties": False,
+            "properties": {
+                "x": _side_domain,
+                "y": _side_domain,
+                "where": _constraints,
+                "pairs": _constraints,
+            },
+        },
+        "expect": {
+            "type": "object",
+            "additionalProperties": False,
+            "properties": {name: {"enum": words} for name, words in VERDICT_WORDS.items()},
+        },
+        "source": {"type": "string"},
+        "notes": {"type": "string"},
+        "tags": {"type": "array", "items": {"type": "string"}},
+    },
+}
