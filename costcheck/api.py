@@ -13,10 +13,13 @@ from __future__ import annotations
 from pathlib import Path
 from typing import Callable, Mapping, Sequence
 
+import jsonschema
+
 from .cost import Cost
 from .domain import Domain
 from .errors import CostFileError
 from .loader import _region, build_cost, load_cost
+from .schema import SIDE_DOMAIN_SCHEMA
 
 
 def load(path: str | Path, **param_overrides: float) -> Cost:
@@ -72,6 +75,12 @@ def from_function(
     if extra:
         raise CostFileError(f"constraints need coordinate names; {sorted(extra)} are not available for a "
                             "Python-function cost (use from_expression)", field="domain")
+    for key in ("x", "y"):
+        error = jsonschema.exceptions.best_match(jsonschema.Draft202012Validator(SIDE_DOMAIN_SCHEMA)
+                                                 .iter_errors(domain[key]))
+        if error is not None:
+            raise CostFileError(f"{error.message} (expected {{'box': [[low, high], ...]}} or "
+                                f"{{'ball': {{'center': [...], 'radius': r}}}})", field=f"domain.{key}")
     region_x = _region(domain["x"], n, "x", {}, None)
     region_y = _region(domain["y"], m, "y", {}, None)
     if sense == "surplus":

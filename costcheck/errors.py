@@ -31,7 +31,7 @@ class CostFileError(CostcheckError):
         field = self.field
         if field_prefix:
             field = field_prefix if not field else f"{field_prefix}.{field}"
-        return CostFileError(self.message, file=file or self.file, field=field)
+        return type(self)(self.message, file=file or self.file, field=field)
 
     def __str__(self) -> str:
         where = []

@@ -240,6 +240,9 @@ def build_cost(data: Mapping, file: str | None = None, *, param_overrides: Mappi
         written = parse_expression(data["expr"], names)
     except CostFileError as exc:
         raise exc.located(file=file, field_prefix="expr") from None
+    if written.has(sp.zoo, sp.nan, sp.oo, -sp.oo):
+        raise CostFileError("the expression is undefined (a division by zero, log(0) or similar "
+                            "between constants)", file=file, field="expr")
     sense = data.get("sense", "cost")
     expr = -written if sense == "surplus" else written
     x_set, y_set = set(x_syms), set(y_syms)
@@ -316,7 +319,12 @@ def find_cost_files(paths) -> list[Path]:
     for raw in paths:
         path = Path(raw)
         if path.is_dir():
-            found.extend(sorted(p for p in path.rglob("*") if p.suffix in COST_FILE_SUFFIXES and p.is_file()))
+            found.extend(sorted(
+                p for p in path.rglob("*")
+                if p.suffix.lower() in COST_FILE_SUFFIXES and p.is_file()
+                # hidden files and folders (.git, editor swap files) are not part of a catalog
+                and not any(part.startswith(".") for part in p.relative_to(path).parts)
+            ))
         elif path.exists():
             found.append(path)
         else:

@@ -31,7 +31,7 @@ _names = {
     "uniqueItems": True,
 }
 
-_side_domain = {
+SIDE_DOMAIN_SCHEMA = _side_domain = {
     "type": "object",
     "description": "exactly one of: box (one [low, high] per coordinate) or ball",
     "properties": {

@@ -59,7 +59,7 @@ class Derivatives:
         for f in fields(self):
             arr = getattr(self, f.name)
             if arr is not None:
-                ok &= np.all(np.isfinite(arr.reshape(arr.shape[0], -1)), axis=1)
+                ok &= np.isfinite(arr).reshape(arr.shape[0], -1).all(axis=1) if arr.size else ok
         return ok
 
     def take(self, index) -> "Derivatives":
@@ -81,11 +81,22 @@ class Evaluator:
     def __call__(self, xs, ys) -> Derivatives:
         xs = np.atleast_2d(np.asarray(xs, dtype=float))
         ys = np.atleast_2d(np.asarray(ys, dtype=float))
-        if xs.shape[1] != self.n or ys.shape[1] != self.m or xs.shape[0] != ys.shape[0]:
+        # ndim check: an (N, n, k) array used to pass the shape test and then fail deep
+        # inside a backend with a TypeError/ValueError instead of a UsageError
+        if (xs.ndim != 2 or ys.ndim != 2
+                or xs.shape[1] != self.n or ys.shape[1] != self.m or xs.shape[0] != ys.shape[0]):
             raise UsageError(f"expected x of shape (N, {self.n}) and y of shape (N, {self.m}); "
                              f"got {xs.shape} and {ys.shape}")
+        if xs.shape[0] == 0:
+            return self._empty()
         with np.errstate(all="ignore"):
             return self._fn(xs, ys)
+
+    def _empty(self) -> Derivatives:
+        n, m = self.n, self.m
+        shapes = {"value": (), "dx": (n,), "dy": (m,), "dxy": (n, m), "dxxy": (n, n, m),
+                  "dxyy": (n, m, m), "dxxyy": (n, n, m, m)}
+        return Derivatives(**{name: np.empty((0,) + shapes[name]) for name in fields_up_to(self.order)})
 
 
 def make_evaluator(cost, backend: str = "sympy", order: int = 4) -> Evaluator:

@@ -120,8 +120,15 @@ def build_from_function(f: Callable, order: int) -> Callable:
     names = fields_up_to(order)
 
     def evaluate(x: np.ndarray, y: np.ndarray) -> Derivatives:
+        # jit compiles once per input shape; padding to a power of two bounds the number of
+        # compilations when callers ask for many different batch sizes (refinement steps)
+        count = x.shape[0]
+        size = 1 << max(0, (count - 1).bit_length())
+        if size != count:
+            x = np.concatenate([x, np.repeat(x[:1], size - count, axis=0)])
+            y = np.concatenate([y, np.repeat(y[:1], size - count, axis=0)])
         out = batched(jnp.asarray(x, dtype=jnp.float64), jnp.asarray(y, dtype=jnp.float64))
-        return Derivatives(**{name: np.asarray(out[name], dtype=float) for name in names})
+        return Derivatives(**{name: np.asarray(out[name], dtype=float)[:count] for name in names})
 
     return evaluate
 
