@@ -28,12 +28,43 @@ def _jax():
     return jax, jnp
 
 
+@lru_cache(maxsize=1)
+def _kinked():
+    # Fix: jnp.abs has derivative 1 at 0 and jnp.sign derivative 0 everywhere, so at a kink
+    # (|x1 - y1| on the diagonal) this backend reported finite derivatives and
+    # ``defined == True`` where the sympy backend (sign(0) = 0, DiracDelta -> NaN at 0,
+    # see sympy_backend._delta) reports NaN.  Same convention here: |u|' = sign(u) with
+    # sign(0) = 0, and sign'(u) = 0 off u = 0, undefined (NaN) at u = 0.
+    jax, jnp = _jax()
+
+    @jax.custom_jvp
+    def sign(u):
+        return jnp.sign(u)
+
+    @sign.defjvp
+    def _sign_jvp(primals, tangents):
+        (u,), (t,) = primals, tangents
+        return jnp.sign(u), jnp.where(u == 0, jnp.nan, 0.0) * t
+
+    @jax.custom_jvp
+    def abs_(u):
+        return jnp.abs(u)
+
+    @abs_.defjvp
+    def _abs_jvp(primals, tangents):
+        (u,), (t,) = primals, tangents
+        return abs_(u), sign(u) * t
+
+    return abs_, sign
+
+
 def _function_table(jnp):
+    abs_, sign = _kinked()
     return {
         sp.exp: jnp.exp, sp.log: jnp.log, sp.sin: jnp.sin, sp.cos: jnp.cos, sp.tan: jnp.tan,
         sp.sinh: jnp.sinh, sp.cosh: jnp.cosh, sp.tanh: jnp.tanh, sp.asin: jnp.arcsin,
         sp.acos: jnp.arccos, sp.atan: jnp.arctan, sp.asinh: jnp.arcsinh, sp.acosh: jnp.arccosh,
-        sp.atanh: jnp.arctanh, sp.Abs: jnp.abs, sp.sign: jnp.sign,
+        sp.atanh: jnp.arctanh, sp.Abs: abs_, sp.sign: sign,
     }
 
 

@@ -28,7 +28,7 @@ class HighPrecision:
         self._shapes = {k: np.shape(np.array(sym[k], dtype=object)) for k in self.names}
         flat = [e for k in self.names for e in np.array(sym[k], dtype=object).reshape(-1)]
         self._sizes = [int(np.prod(self._shapes[k], dtype=int)) for k in self.names]
-        self._fn = sp.lambdify(list(xs) + list(ys), flat, modules="mpmath", dummify=True)
+        self._fn = sp.lambdify(list(xs) + list(ys), flat, modules="mpmath", dummify=True, cse=True)
 
     def __call__(self, x, y, dps: int = 50) -> dict:
         with mpmath.workdps(dps):

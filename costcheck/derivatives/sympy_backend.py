@@ -9,6 +9,7 @@ subexpressions are evaluated once per point.
 from __future__ import annotations
 
 import itertools
+from functools import lru_cache
 from typing import Sequence
 
 import numpy as np
@@ -31,7 +32,17 @@ _MODULES = [{"DiracDelta": _delta, "Heaviside": _heaviside, "sign": np.sign}, "n
 
 
 def symbolic_derivatives(expr: sp.Expr, xs: Sequence[sp.Symbol], ys: Sequence[sp.Symbol], order: int) -> dict:
-    """Nested lists of sympy expressions, one entry per field of :class:`Derivatives`."""
+    """Nested lists of sympy expressions, one entry per field of :class:`Derivatives`.
+
+    Cached: the numeric, high-precision and closed-form steps all start from the same
+    derivatives, and differentiating a chart of the sphere four times takes seconds.
+    Callers must not modify the returned lists.
+    """
+    return _symbolic_derivatives(expr, tuple(xs), tuple(ys), order)
+
+
+@lru_cache(maxsize=64)
+def _symbolic_derivatives(expr, xs, ys, order) -> dict:
     n, m = len(xs), len(ys)
     out: dict = {"value": expr}
     if order >= 1:
@@ -65,6 +76,11 @@ def symbolic_derivatives(expr: sp.Expr, xs: Sequence[sp.Symbol], ys: Sequence[sp
 
 def build(expr: sp.Expr, xs: Sequence[sp.Symbol], ys: Sequence[sp.Symbol], order: int):
     """A function ``(xs (N,n), ys (N,m)) -> Derivatives`` evaluating the symbolic derivatives."""
+    return _build(expr, tuple(xs), tuple(ys), order)
+
+
+@lru_cache(maxsize=64)
+def _build(expr, xs, ys, order):
     names = fields_up_to(order)
     sym = symbolic_derivatives(expr, xs, ys, order)
     shapes = {name: np.shape(np.array(sym[name], dtype=object)) for name in names}

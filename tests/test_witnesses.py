@@ -1,0 +1,134 @@
+"""Every witness of a failing catalog verdict, re-evaluated independently of the search.
+
+The re-evaluation here shares no code with the checks: it differentiates the cost's
+sympy expression directly, substitutes the witness coordinates as exact rationals (the
+binary values of the printed floats) and evaluates with ``evalf`` at 40 digits.  The
+quantities are the reference's definitions (``shared/reference/conditions.md``):
+
+- twist: ``D_x c(x, y) = D_x c(x, y')`` with ``y != y'``;
+- non-degeneracy: ``det D²_xy c(x, y) = 0``;
+- MTW / NNCC: ``S(ξ, η) = Σ T_ijkl ξ_i ξ_j η'_k η'_l < 0``, ``η' = M⁻¹ η``
+  (Ma–Trudinger–Wang 2005; Kim–McCann 2010), with ``ξ · η = 0`` for MTW.
+"""
+
+from __future__ import annotations
+
+from functools import lru_cache
+from pathlib import Path
+
+import numpy as np
+import pytest
+import sympy as sp
+
+import costcheck
+from costcheck.checks.runner import run_checks
+
+CATALOG = Path(__file__).resolve().parent.parent / "catalog"
+DIGITS = 40
+
+
+def failing_cases():
+    cases = []
+    for path in sorted(CATALOG.rglob("*.yaml")):
+        cost = costcheck.load(path)
+        for condition, verdict in cost.expect.items():
+            if verdict == "fails":
+                cases.append(pytest.param(path, condition, id=f"{path.relative_to(CATALOG)}::{condition}"))
+    return cases
+
+
+def exact(values):
+    return [sp.Rational(float(v)) for v in values]
+
+
+@lru_cache(maxsize=None)
+def _report(path: Path, condition: str):
+    return run_checks(costcheck.load(path), budget=1024, conditions=[condition])
+
+
+def _at(cost, expr, x, y):
+    subs = dict(zip(cost.x_symbols, exact(x))) | dict(zip(cost.y_symbols, exact(y)))
+    return sp.N(expr.subs(subs), DIGITS)
+
+
+def _grad_x(cost):
+    return [sp.diff(cost.expr, xi) for xi in cost.x_symbols]
+
+
+def _mixed(cost):
+    return sp.Matrix([[sp.diff(cost.expr, xi, yk) for yk in cost.y_symbols] for xi in cost.x_symbols])
+
+
+def _s_value(cost, x, y, xi, eta):
+    """S(ξ, η) from the definition, in sympy, at one point."""
+    n = cost.n
+    X, Y = cost.x_symbols, cost.y_symbols
+    subs = dict(zip(X, exact(x))) | dict(zip(Y, exact(y)))
+    partials: dict = {(): cost.expr}
+
+    def partial(wrt):
+        # differentiate one variable at a time, reusing lower orders (x's before y's, sorted)
+        key = tuple(sorted(wrt, key=lambda s: (s in Y, s.name)))
+        if key not in partials:
+            partials[key] = sp.diff(partial(key[:-1]), key[-1])
+        return partials[key]
+
+    at = lambda *wrt: partial(wrt).evalf(DIGITS, subs=subs)  # noqa: E731
+    Minv = sp.Matrix([[at(X[i], Y[k]) for k in range(n)] for i in range(n)]).inv()
+    c_ij_r = {(i, j, r): at(X[i], X[j], Y[r]) for i in range(n) for j in range(n) for r in range(n)}
+    c_s_kl = {(s, k, l): at(X[s], Y[k], Y[l]) for s in range(n) for k in range(n) for l in range(n)}
+    eta_p = Minv * sp.Matrix(exact(eta))
+    xi_v = exact(xi)
+    total = sp.Integer(0)
+    for i in range(n):
+        for j in range(n):
+            for k in range(n):
+                for l in range(n):
+                    first = sum(c_ij_r[i, j, r] * Minv[r, s] * c_s_kl[s, k, l] for r in range(n) for s in range(n))
+                    total += (first - at(X[i], X[j], Y[k], Y[l])) * xi_v[i] * xi_v[j] * eta_p[k] * eta_p[l]
+    return sp.N(total, DIGITS)
+
+
+@pytest.mark.parametrize("path, condition", failing_cases())
+def test_failing_witness_reevaluated(path, condition):
+    report = _report(path, condition)
+    cost = report.cost
+    verdict = report.verdicts[condition]
+    # the file's source publishes a failure (see its `source` field); the check must agree
+    assert verdict.verdict == "fails", f"{path}: {condition} {verdict.verdict}; source: {cost.source}"
+    w = verdict.witness
+    assert w is not None, f"{path}: a failure must carry a witness"
+    assert cost.domain.contains_pairs(np.array([w.x], dtype=float), np.array([w.y], dtype=float))[0]
+    if condition == "twist":
+        y_prime = w.vectors["y_prime"]
+        gap = max(abs(float(a) - float(b)) for a, b in zip(w.y, y_prime))
+        assert gap > 1e-6, "y and y' must differ"
+        g = _grad_x(cost)
+        diff = [_at(cost, gi, w.x, w.y) - _at(cost, gi, w.x, y_prime) for gi in g]
+        scale = max(abs(_at(cost, gi, w.x, w.y)) for gi in g) + 1
+        assert max(abs(d) for d in diff) <= 1e-8 * scale
+    elif condition == "nondegenerate":
+        M = _mixed(cost)
+        subs = dict(zip(cost.x_symbols, exact(w.x))) | dict(zip(cost.y_symbols, exact(w.y)))
+        Mv = M.subs(subs).evalf(DIGITS)
+        # |det| is small only relative to the size M has elsewhere in the domain (at the zero
+        # itself every entry may be tiny); take that size from the centres of the two regions
+        lx, ux = cost.domain.x.bounds()
+        ly, uy = cost.domain.y.bounds()
+        centre = dict(zip(cost.x_symbols, exact((lx + ux) / 2))) | dict(zip(cost.y_symbols, exact((ly + uy) / 2)))
+        corner = dict(zip(cost.x_symbols, exact(lx))) | dict(zip(cost.y_symbols, exact(uy)))
+        scale = max(abs(v) for point in (centre, corner, subs) for v in M.subs(point).evalf(DIGITS)
+                    if v.is_finite) + sp.Rational(1, 10**30)
+        if cost.n == cost.m:
+            det = Mv.det()
+            assert abs(det) <= 1e-8 * scale**cost.n
+        else:
+            singular = min(sp.Matrix(Mv.T * Mv).eigenvals(multiple=True), key=lambda v: abs(v))
+            assert abs(singular) <= 1e-8 * scale**2
+    else:
+        xi, eta = w.vectors["xi"], w.vectors["eta"]
+        if condition == "mtw":
+            dot = sum(float(a) * float(b) for a, b in zip(xi, eta))
+            assert abs(dot) < 1e-8, "MTW witnesses need ξ · η = 0"
+        s = _s_value(cost, w.x, w.y, xi, eta)
+        assert s < 0, f"S(ξ, η) = {s} at the witness should be negative"
