@@ -7,10 +7,13 @@ The pipeline, one module a step::
 Start with :func:`load`, :func:`from_expression` or :func:`from_function`.
 """
 
-from .api import from_expression, from_function, load
+from .api import check, from_expression, from_function, load, mtw_tensor
 from .cost import Cost
 from .errors import CostFileError, CostcheckError, UsageError
 
 __version__ = "0.1.0"
 
-__all__ = ["Cost", "CostFileError", "CostcheckError", "UsageError", "from_expression", "from_function", "load", "__version__"]
+__all__ = [
+    "Cost", "CostFileError", "CostcheckError", "UsageError", "check", "from_expression", "from_function", "load",
+    "mtw_tensor", "__version__",
+]

@@ -98,3 +98,24 @@ def from_function(
         expr=None,
         function=minimised,
     )
+
+
+def check(cost: Cost, *, budget: int | None = None, seed: int | None = None, backend: str = "sympy",
+          conditions: Sequence[str] | None = None):
+    """Run the condition checks on ``cost``; returns a :class:`~costcheck.checks.runner.CostReport`.
+
+    ``report.verdicts[name]`` is a :class:`~costcheck.verdict.Verdict` (verdict word, evidence,
+    worst value, witness); ``report.mismatches`` lists expectations of a file that were not met.
+    """
+    from .checks.runner import DEFAULT_SEED, run_checks
+    from .checks.sampler import DEFAULT_BUDGET
+
+    return run_checks(cost, budget=budget or DEFAULT_BUDGET, seed=DEFAULT_SEED if seed is None else seed,
+                      backend=backend, conditions=conditions)
+
+
+def mtw_tensor(cost: Cost, simplify_seconds: float = 10.0):
+    """The MTW tensor ``T_ijkl`` in closed form: a list of components ``(index, sympy expression, simplified)``."""
+    from .symbolic_tensor import mtw_tensor_symbolic
+
+    return mtw_tensor_symbolic(cost, simplify_seconds=simplify_seconds)

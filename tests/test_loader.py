@@ -7,7 +7,6 @@ problem has one) and what is wrong.
 from __future__ import annotations
 
 import math
-import textwrap
 
 import numpy as np
 import pytest

@@ -27,7 +27,7 @@ class CheckContext:
     _evaluators: dict = field(default_factory=dict, repr=False)
 
     def evaluator(self, order: int = 4) -> Evaluator:
-        """Derivatives up to ``order``; an evaluator of a higher order serves a lower one."""
+        """Derivatives up to ``order``, one evaluator per order, built once and kept."""
         if order not in self._evaluators:
             self._evaluators[order] = self.cost.derivatives(backend=self.backend, order=order)
         return self._evaluators[order]

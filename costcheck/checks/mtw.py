@@ -301,32 +301,8 @@ def check(ctx) -> Verdict:
                "smallest_raw": best.raw, "sampled_minimum": s.sample_min}
 
     if best.rel < -tol:
-        conf = confirm_minimum(ctx, s, orthogonal=True)
-        rel_conf = conf.value / best.normaliser if best.normaliser > 0 else 0.0
-        if conf.negative and rel_conf < -tol:
-            kind_text = "in high precision" if conf.high_precision else "in float64 only"
-            summary = (f"A3w fails: at {where(best)} (ξ · η = 0) S(ξ, η) = {conf.value:.6g} ± {conf.error:.2g}, "
-                       f"confirmed {kind_text}; scale-free margin {rel_conf:.4g} (tolerance {tol:g})")
-            if not conf.high_precision:
-                notes.append("the witness is confirmed in float64 only (no high-precision evaluator for a "
-                             "Python-function cost)")
-            return Verdict(CONDITION, "fails",
-                           Evidence("refuted", summary, samples=s.samples, resolution=s.resolution,
-                                    details={**details, "scale_free_value": rel_conf}),
-                           value=best.rel, value_meaning=meaning,
-                           witness=witness(best, conf.value, conf.error,
-                                           conf.text + f"; scale-free value {rel_conf:.6g}"),
-                           notes=tuple(notes))
-        notes.append(f"float64 found a scale-free margin {best.rel:.3g} below -{tol:g} at {where(best)}, but the "
-                     f"high-precision re-evaluation gives S = {conf.value:.3g} ± {conf.error:.2g} "
-                     f"(scale-free {rel_conf:.3g}), not negative beyond its error and the tolerance; "
-                     "reported as weak")
-        summary = (f"no confirmed negative margin among {coverage(s)}; the one float64 candidate did not survive "
-                   "high-precision re-evaluation: evidence, not proof")
-        return Verdict(CONDITION, "weak", Evidence("sampled", summary, samples=s.samples, resolution=s.resolution,
-                                                   details=details),
-                       value=rel_conf, value_meaning=meaning,
-                       witness=witness(best, conf.value, conf.error, conf.text), notes=tuple(notes))
+        return refuted_or_unconfirmed(ctx, s, condition=CONDITION, orthogonal=True, failure="A3w fails",
+                                      fallback="weak", meaning=meaning, details=details, notes=notes)
 
     if best.rel <= tol:
         text = "float64 evaluation at the smallest margin found; not a failure witness"
@@ -350,3 +326,41 @@ def check(ctx) -> Verdict:
     return Verdict(CONDITION, "strong", Evidence("sampled", summary, samples=s.samples, resolution=s.resolution,
                                                  details=details),
                    value=best.rel, value_meaning=meaning, notes=tuple(notes))
+
+
+def refuted_or_unconfirmed(ctx, s: Search, *, condition: str, orthogonal: bool, failure: str, fallback: str,
+                           meaning: str, details: dict, notes: list[str]) -> Verdict:
+    """The verdict for a float64 minimum below ``-TOLERANCE``: confirmed, or not.
+
+    Confirmed (the high-precision value is negative beyond its error and the scale-free value
+    beyond the tolerance): ``fails`` with the witness.  Otherwise the float64 value was a
+    rounding artefact and the verdict is ``fallback``, with a note that says so.
+    """
+    tol = TOLERANCE
+    best = s.best
+    conf = confirm_minimum(ctx, s, orthogonal=orthogonal)
+    rel_conf = conf.value / best.normaliser if best.normaliser > 0 else 0.0
+    orth = " (ξ · η = 0)" if orthogonal else ""
+    if conf.negative and rel_conf < -tol:
+        kind_text = "in high precision" if conf.high_precision else "in float64 only"
+        summary = (f"{failure}: at {where(best)}{orth} S(ξ, η) = {conf.value:.6g} ± {conf.error:.2g}, "
+                   f"confirmed {kind_text}; scale-free margin {rel_conf:.4g} (tolerance {tol:g})")
+        if not conf.high_precision:
+            notes.append("the witness is confirmed in float64 only (no high-precision evaluator for a "
+                         "Python-function cost)")
+        return Verdict(condition, "fails",
+                       Evidence("refuted", summary, samples=s.samples, resolution=s.resolution,
+                                details={**details, "scale_free_value": rel_conf}),
+                       value=best.rel, value_meaning=meaning,
+                       witness=witness(best, conf.value, conf.error, conf.text + f"; scale-free value {rel_conf:.6g}"),
+                       notes=tuple(notes))
+    notes.append(f"float64 found a scale-free margin {best.rel:.3g} below -{tol:g} at {where(best)}, but the "
+                 f"high-precision re-evaluation gives S = {conf.value:.3g} ± {conf.error:.2g} "
+                 f"(scale-free {rel_conf:.3g}), not negative beyond its error and the tolerance; "
+                 f"reported as {fallback}")
+    summary = (f"no confirmed negative margin among {coverage(s)}; the one float64 candidate did not survive "
+               "high-precision re-evaluation: evidence, not proof")
+    return Verdict(condition, fallback, Evidence("sampled", summary, samples=s.samples, resolution=s.resolution,
+                                                 details=details),
+                   value=rel_conf, value_meaning=meaning,
+                   witness=witness(best, conf.value, conf.error, conf.text), notes=tuple(notes))

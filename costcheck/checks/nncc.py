@@ -17,8 +17,8 @@ from __future__ import annotations
 
 from ..verdict import Evidence, Verdict, not_applicable, undecided
 from . import tensor
-from .mtw import (SCALE_TEXT, TOLERANCE, confirm_minimum, coverage, fmt, location, search_minimum,
-                  skipped_notes, where, witness)
+from .mtw import (SCALE_TEXT, TOLERANCE, coverage, fmt, location, refuted_or_unconfirmed, search_minimum,
+                  skipped_notes)
 
 CONDITION = "nncc"
 
@@ -41,32 +41,8 @@ def check(ctx) -> Verdict:
                "smallest_raw": best.raw, "sampled_minimum": s.sample_min}
 
     if best.rel < -tol:
-        conf = confirm_minimum(ctx, s, orthogonal=False)
-        rel_conf = conf.value / best.normaliser if best.normaliser > 0 else 0.0
-        if conf.negative and rel_conf < -tol:
-            kind_text = "in high precision" if conf.high_precision else "in float64 only"
-            summary = (f"NNCC fails: at {where(best)} S(ξ, η) = {conf.value:.6g} ± {conf.error:.2g}, confirmed "
-                       f"{kind_text}; scale-free margin {rel_conf:.4g} (tolerance {tol:g})")
-            if not conf.high_precision:
-                notes.append("the witness is confirmed in float64 only (no high-precision evaluator for a "
-                             "Python-function cost)")
-            return Verdict(CONDITION, "fails",
-                           Evidence("refuted", summary, samples=s.samples, resolution=s.resolution,
-                                    details={**details, "scale_free_value": rel_conf}),
-                           value=best.rel, value_meaning=meaning,
-                           witness=witness(best, conf.value, conf.error,
-                                           conf.text + f"; scale-free value {rel_conf:.6g}"),
-                           notes=tuple(notes))
-        notes.append(f"float64 found a scale-free margin {best.rel:.3g} below -{tol:g} at {where(best)}, but the "
-                     f"high-precision re-evaluation gives S = {conf.value:.3g} ± {conf.error:.2g} "
-                     f"(scale-free {rel_conf:.3g}), not negative beyond its error and the tolerance; "
-                     "reported as holding")
-        summary = (f"no confirmed negative cross-curvature among {coverage(s)}; the one float64 candidate did not "
-                   "survive high-precision re-evaluation: evidence, not proof")
-        return Verdict(CONDITION, "holds", Evidence("sampled", summary, samples=s.samples, resolution=s.resolution,
-                                                    details=details),
-                       value=rel_conf, value_meaning=meaning,
-                       witness=witness(best, conf.value, conf.error, conf.text), notes=tuple(notes))
+        return refuted_or_unconfirmed(ctx, s, condition=CONDITION, orthogonal=False, failure="NNCC fails",
+                                      fallback="holds", meaning=meaning, details=details, notes=notes)
 
     summary = (f"no pair with a scale-free cross-curvature margin below -{tol:g} among {coverage(s)}; the "
                f"smallest, {best.rel:.4g}, is at x = {fmt(best.x)}, y = {fmt(best.y)}: evidence, not proof")

@@ -445,7 +445,7 @@ def _where(cost, z):
 
 def check(ctx) -> Verdict:
     st = _Setup(ctx)
-    cost, n = st.cost, st.n
+    cost = st.cost
     mask = ctx.defined
     xs, ys = ctx.sample.xs[mask], ctx.sample.ys[mask]
     Z = np.concatenate([xs, ys], axis=1)

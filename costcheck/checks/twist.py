@@ -172,7 +172,7 @@ def _confirm_collision(st: _Setup, x, y, yp, scale: float, extra: str = "", brac
     ``"boundary"`` (the refinement left the domain or closed in on an open boundary, or
     ``y'`` merged with ``y``) and ``"unresolved"``.
     """
-    n, m = st.n, st.m
+    n = st.n
     x, y, yp = np.asarray(x, float), np.asarray(y, float), np.asarray(yp, float)
     exact = _exact_collision(st, x, y, yp, extra)
     if exact is not None:

@@ -18,6 +18,18 @@ from . import fields_up_to
 from .sympy_backend import symbolic_derivatives
 
 
+def _mp_delta(u, *_):
+    # derivative of sign(u) (from abs): zero away from u = 0, undefined (NaN) at the kink
+    return mpmath.nan if u == 0 else mpmath.mpf(0)
+
+
+def _mp_heaviside(u, *_):
+    return mpmath.nan if u == 0 else (mpmath.mpf(1) if u > 0 else mpmath.mpf(0))
+
+
+_MP_KINKS = {"DiracDelta": _mp_delta, "Heaviside": _mp_heaviside, "sign": mpmath.sign}
+
+
 class HighPrecision:
     """``hp(x, y, dps)`` → dict of field name → nested lists of ``mpmath.mpf``."""
 
@@ -28,7 +40,7 @@ class HighPrecision:
         self._shapes = {k: np.shape(np.array(sym[k], dtype=object)) for k in self.names}
         flat = [e for k in self.names for e in np.array(sym[k], dtype=object).reshape(-1)]
         self._sizes = [int(np.prod(self._shapes[k], dtype=int)) for k in self.names]
-        self._fn = sp.lambdify(list(xs) + list(ys), flat, modules="mpmath", dummify=True, cse=True)
+        self._fn = sp.lambdify(list(xs) + list(ys), flat, modules=[_MP_KINKS, "mpmath"], dummify=True, cse=True)
 
     def __call__(self, x, y, dps: int = 50) -> dict:
         with mpmath.workdps(dps):
