@@ -399,3 +399,39 @@ def test_exchanging_x_and_y_preserves_the_A3w_sign(expr, seed):
     a, b = tensor.a3w_margin(d), tensor.a3w_margin(ds)
     clear = np.isfinite(a.rel) & np.isfinite(b.rel) & (np.abs(a.rel) > 1e-6)
     assert np.all(np.sign(a.rel[clear]) == np.sign(b.rel[clear]))
+
+
+# componentwise diffeomorphisms that keep [-0.9, 0.9] inside the box where the generated costs are smooth
+CHARTS = st.sampled_from([
+    ("atan({})", np.arctan, lambda u: 1 / (1 + u**2)),
+    ("tanh({})", np.tanh, lambda u: 1 - np.tanh(u) ** 2),
+    ("sinh({})/1.1", lambda u: np.sinh(u) / 1.1, lambda u: np.cosh(u) / 1.1),
+    ("({0} + sin({0})/2)/1.5", lambda u: (u + np.sin(u) / 2) / 1.5, lambda u: (1 + np.cos(u) / 2) / 1.5),
+])
+
+
+@PROPERTY
+@given(expr=cost_expressions(2, 2, max_depth=1), phi=st.tuples(CHARTS, CHARTS), psi=st.tuples(CHARTS, CHARTS),
+       seed=st.integers(0, 2**16))
+def test_changes_of_coordinates_transform_S_as_a_tensor(expr, phi, psi, seed):
+    us, vs, xi, eta = _points(seed)
+    expr = COUPLED.format(expr)
+    cost = cost2(expr)
+    names = {"x1": phi[0][0], "x2": phi[1][0], "y1": psi[0][0], "y2": psi[1][0]}
+    moved = cost2(re.sub(r"\b([xy]\d)\b", lambda m: "(" + names[m[1]].format(m[1]) + ")", expr))  # c̃(u, v) = c(φ(u), ψ(v))
+    xs = np.column_stack([phi[i][1](us[:, i]) for i in range(2)])
+    ys = np.column_stack([psi[i][1](vs[:, i]) for i in range(2)])
+    J = np.column_stack([phi[i][2](us[:, i]) for i in range(2)])  # Dφ(u) is diagonal for componentwise charts
+    # Kim–McCann 2010 (general covariance); MTW 2005: S is a tensor, ξ a tangent vector and η a covector on
+    # the x side, so S̃_(u,v)(ξ̃, η̃) = S_(x,y)(Dφ ξ̃, Dφ⁻ᵀ η̃); ψ enters only through η' = M⁻¹η
+    S_moved = _S(moved, us, vs, xi, eta)
+    S_here = _S(cost, xs, ys, J * xi, eta / J)
+    ok = np.isfinite(S_moved) & np.isfinite(S_here)
+    assert ok.any()
+    norm = tensor.a3w_margin(cost.derivatives(order=4)(xs, ys)).normaliser
+    size = (1 + np.sum((J * xi) ** 2, 1)) * (1 + np.sum((eta / J) ** 2, 1))
+    assert np.all(np.abs(S_moved[ok] - S_here[ok]) <= 1e-7 * (1 + norm[ok]) * size[ok])
+    # the map (ξ̃, η̃) -> (Dφ ξ̃, Dφ⁻ᵀ η̃) keeps ξ · η, so the A3w sign (the verdict) is unchanged too
+    a, b = tensor.a3w_margin(moved.derivatives(order=4)(us, vs)), tensor.a3w_margin(cost.derivatives(order=4)(xs, ys))
+    clear = np.isfinite(a.rel) & np.isfinite(b.rel) & (np.abs(b.rel) > 1e-6)
+    assert np.all(np.sign(a.rel[clear]) == np.sign(b.rel[clear]))
