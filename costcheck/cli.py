@@ -67,6 +67,26 @@ def _build_parser() -> argparse.ArgumentParser:
     tensor.add_argument("--json", action="store_true")
     tensor.add_argument("--simplify-seconds", type=float, default=10.0,
                         help="time allowed for simplification, in total (default 10; 0 skips it)")
+
+    sweep = sub.add_parser("sweep", help="check a cost over a range (or grid) of parameter values and "
+                           "locate where verdicts change")
+    sweep.add_argument("file", metavar="FILE")
+    sweep.add_argument("--vary", action="append", metavar="NAME=SPEC", required=True,
+                       help="NAME=start:stop:count (inclusive) or NAME=v1,v2,...; twice for a grid")
+    sweep.add_argument("--only", action="append", choices=list(CONDITION_MODULES), metavar="CONDITION",
+                       help=f"run only this condition (repeatable): {', '.join(CONDITION_MODULES)}")
+    sweep.add_argument("--json", action="store_true", help="print one JSON document instead of tables")
+    sweep.add_argument("--seed", type=int, default=DEFAULT_SEED, help=f"random seed (default {DEFAULT_SEED})")
+    sweep.add_argument("--budget", type=_positive_int, default=DEFAULT_BUDGET,
+                       help=f"sampled (x, y) pairs per value (default {DEFAULT_BUDGET})")
+    sweep.add_argument("--workers", type=_positive_int, default=None,
+                       help="local worker processes (default: the number of CPUs; 1 runs in this process)")
+    sweep.add_argument("--scheduler", metavar="ADDRESS", default=None,
+                       help="run on a Dask distributed scheduler at ADDRESS instead of local processes")
+    sweep.add_argument("--tolerance", type=float, default=1e-3,
+                       help="bisect verdict boundaries to this width (default 1e-3)")
+    sweep.add_argument("--no-bisect", action="store_true", help="report grid changes only, no bisection")
+    sweep.add_argument("--plots", metavar="DIR", default=None, help="write PNG and SVG pictures into DIR")
     return parser
 
 
@@ -198,6 +218,52 @@ def _cmd_tensor(args, out: Console) -> int:
     return EXIT_OK
 
 
+def _cmd_sweep(args, out: Console, err: Console) -> int:
+    from .loader import load_cost
+    from .sweep import report
+    from .sweep.engine import run_sweep
+    from .sweep.grid import SweepSpecError, parse_axes
+
+    try:
+        cost = load_cost(args.file)
+        axes = parse_axes(args.vary, dict(cost.params))
+        if not args.tolerance > 0:
+            raise SweepSpecError(f"--tolerance must be positive, got {args.tolerance}")
+    except CostcheckError as exc:
+        _error(exc)
+        return EXIT_BAD_INPUT
+    total = 1
+    for a in axes:
+        total *= len(a.values)
+    progress = None
+    if err.is_terminal and total > 4:
+        from rich.progress import Progress
+        progress = Progress(console=err, transient=True)
+    task = None
+    with progress if progress is not None else _Null():
+        if progress is not None:
+            task = progress.add_task("sweeping", total=total)
+
+        def on_progress(done, _total, _p=progress, _t=task):
+            if _p is not None:
+                _p.update(_t, completed=done)
+                if done >= _total:
+                    _p.update(_t, description="bisecting boundaries")
+        result = run_sweep(args.file, axes, budget=args.budget, seed=args.seed, conditions=args.only,
+                           workers=args.workers, scheduler=args.scheduler, tolerance=args.tolerance,
+                           bisect=not args.no_bisect, on_progress=on_progress)
+    if args.plots:
+        from .sweep.plots import write_plots
+        files = write_plots(result, args.plots)
+        if not args.json:
+            err.print(f"wrote {len(files)} pictures into {args.plots}", markup=False)
+    if args.json:
+        print(report.to_json(result, EXIT_OK))
+    else:
+        report.render(out, result)
+    return EXIT_OK
+
+
 def _error(problem) -> None:
     """One line on stderr (never wrapped, never a traceback)."""
     text = " ".join(str(problem).split())
@@ -221,6 +287,8 @@ def main(argv: Sequence[str] | None = None) -> int:
             return _cmd_show(args, out)
         if args.command == "tensor":
             return _cmd_tensor(args, out)
+        if args.command == "sweep":
+            return _cmd_sweep(args, out, err)
     except CostcheckError as exc:
         _error(exc)
         return EXIT_BAD_INPUT

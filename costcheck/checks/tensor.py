@@ -49,8 +49,10 @@ SINGULAR_RCOND = 1e-12
 #: directions of ξ sampled on the half-sphere for ``n >= 3`` (then polished by :func:`sphere_descent`)
 DEFAULT_DIRECTIONS = 96
 
-#: pairs processed together for ``n >= 3`` (bounds the memory of the (N, D, n, n) arrays)
-_CHUNK = 256
+#: pairs processed together for ``n >= 3`` (bounds the memory of the (N, D, n, n) arrays: about
+#: 15 MB each at 2048 pairs × 96 directions for n = 3; larger chunks amortise numpy's per-call overhead
+#: in the descent loop, and every pair is computed independently, so the results do not depend on it)
+_CHUNK = 2048
 
 _J = np.array([[0.0, -1.0], [1.0, 0.0]])
 
@@ -102,7 +104,12 @@ def mtw_tensor(derivs) -> tuple[np.ndarray, np.ndarray]:
 
 
 def _tensor(derivs, inv, valid):
-    first = np.einsum("nijs,nskl->nijkl", np.einsum("nijr,nrs->nijs", derivs.dxxy, inv), derivs.dxyy)
+    # c_{ij,r} c^{r,s} c_{s,kl} as two batched matrix products ((n², n) @ (n, n) @ (n, n²)):
+    # the same contractions as the einsum "nijr,nrs,nskl->nijkl", several times faster
+    dxxy = np.asarray(derivs.dxxy, dtype=float)
+    N, n, m = dxxy.shape[0], dxxy.shape[1], dxxy.shape[3]
+    first = ((dxxy.reshape(N, n * n, m) @ inv) @ np.asarray(derivs.dxyy, dtype=float).reshape(N, m, m * m))
+    first = first.reshape(N, n, n, m, m)
     fourth = np.asarray(derivs.dxxyy, dtype=float)
     T = first - fourth
     N = T.shape[0]
@@ -134,7 +141,10 @@ _QUARTIC_GROUPS = [[t for t in itertools.product((0, 1), repeat=4) if sum(t) == 
 def quartic_coefficients(T: np.ndarray, inv: np.ndarray) -> np.ndarray:
     """``p (N, 5)`` with ``S(θ) = sum_q p_q cos^{4-q}θ sin^qθ`` for ξ = (cos θ, sin θ), η = (-sin θ, cos θ)."""
     B = inv @ _J  # η' = M^{-1} J u with u = (cos θ, sin θ)
-    U = np.einsum("nijkl,nka,nlb->nijab", T, B, B)
+    N = T.shape[0]
+    # U_{ijab} = sum_kl T_{ijkl} B_{ka} B_{lb}, as two batched products (same sums as the einsum)
+    V = (T.reshape(N, 8, 2) @ B).reshape(N, 4, 2, 2)            # [ij, k, b]
+    U = (np.swapaxes(B, 1, 2)[:, None] @ V).reshape(N, 2, 2, 2, 2)  # [ij, a, b]
     return np.stack([sum(U[(slice(None),) + t] for t in group) for group in _QUARTIC_GROUPS], axis=1)
 
 
@@ -218,7 +228,10 @@ def eta_form_tensor(T: np.ndarray, inv: np.ndarray) -> np.ndarray:
 
     ``Q_ξ = sum_ij G_{ij··} ξ_i ξ_j`` is then a quadratic matrix polynomial in ξ.
     """
-    return np.einsum("nka,nijkb->nijab", inv, np.einsum("nijkl,nlb->nijkb", T, inv))
+    N, n = T.shape[0], T.shape[1]
+    # (M^{-T} T_{ij··} M^{-1})_{ab} for every (i, j): batched matrix products, the einsum's sums
+    G = np.swapaxes(inv, 1, 2)[:, None] @ T.reshape(N, n * n, n, n) @ inv[:, None]
+    return G.reshape(T.shape)
 
 
 def _forms(G, xi):
@@ -317,8 +330,11 @@ def form_min(G, xi, orthogonal: bool, exact: bool = False, vectors: bool = True)
 
 # --------------------------------------------------------------------------- margins
 
-def _prepare(derivs):
-    """``(T, inv, G, normaliser, valid)``; at invalid pairs T, G are 0 and inv is the identity."""
+def _prepare(derivs, need_g: bool = True):
+    """``(T, inv, G, normaliser, valid)``; at invalid pairs T, G are 0 and inv is the identity.
+
+    ``need_g=False`` skips ``G`` (returned as ``None``) for callers that do not use it.
+    """
     inv, inv_norm, valid = mixed_inverse(derivs.dxy)
     T, scale = _tensor(derivs, inv, valid)
     valid = valid & np.isfinite(scale)
@@ -326,7 +342,7 @@ def _prepare(derivs):
     T = np.where(valid[:, None, None, None, None], T, 0.0)
     inv = np.where(valid[:, None, None], inv, np.eye(n))
     normaliser = np.where(valid, scale * inv_norm**2, np.nan)
-    return T, inv, eta_form_tensor(T, inv), normaliser, valid
+    return T, inv, (eta_form_tensor(T, inv) if need_g else None), normaliser, valid
 
 
 def _finish(raw, xi, eta, normaliser, valid) -> Margins:
@@ -415,8 +431,9 @@ def a3w_margin(derivs, *, directions: int = DEFAULT_DIRECTIONS, polish: int = 20
     quasi-uniform ξ, then ``polish`` steps of :func:`sphere_descent` from each pair's 3 best directions.  ``n = 1``: the
     condition is empty (ξ^⊥ = {0}); every margin is reported as 0.
     """
-    T, inv, G, normaliser, valid = _prepare(derivs)
-    N, n = T.shape[0], T.shape[1]
+    n = np.shape(derivs.dxy)[1]
+    T, inv, G, normaliser, valid = _prepare(derivs, need_g=n >= 3)  # the exact n = 2 path needs no G
+    N = T.shape[0]
     if n == 1:
         return _finish(np.zeros(N), np.ones((N, 1)), np.zeros((N, 1)), normaliser, valid)
     if n == 2:
@@ -508,7 +525,7 @@ def margin_at(derivs, xi: np.ndarray, orthogonal: bool) -> Margins:
 
 def form_at(derivs, xi: np.ndarray, eta: np.ndarray) -> np.ndarray:
     """``S(ξ, η)`` per pair at given vectors (N, n) each, exactly as given (no normalisation)."""
-    T, inv, _, _, valid = _prepare(derivs)
+    T, inv, _, _, valid = _prepare(derivs, need_g=False)
     return np.where(valid, mtw_form(T, inv, np.asarray(xi, float), np.asarray(eta, float)), np.nan)
 
 

@@ -17,12 +17,44 @@ from ..errors import UsageError
 from . import Derivatives, fields_up_to
 
 
+def _compilation_cache_dir() -> str | None:
+    """Where compiled XLA programs persist between runs: ``$COSTCHECK_JAX_CACHE`` if set (``0`` or
+    empty turns the cache off), else ``$XDG_CACHE_HOME/costcheck/jax`` (``~/.cache/costcheck/jax``)."""
+    import os
+
+    chosen = os.environ.get("COSTCHECK_JAX_CACHE")
+    if chosen is not None:
+        return None if chosen.strip() in ("", "0") else chosen
+    base = os.environ.get("XDG_CACHE_HOME") or os.path.join(os.path.expanduser("~"), ".cache")
+    return os.path.join(base, "costcheck", "jax")
+
+
+def _enable_compilation_cache(jax) -> None:
+    # JAX's persistent cache is keyed by the program, the JAX/XLA versions and the flags (x64
+    # included), so an entry is only reused for the identical computation; an unusable
+    # directory just leaves the cache off (compilation then happens every run, as before)
+    import os
+
+    path = _compilation_cache_dir()
+    if path is None or jax.config.jax_compilation_cache_dir:  # off, or the user chose one already
+        return
+    try:
+        os.makedirs(path, exist_ok=True)
+        if not os.access(path, os.W_OK):
+            return
+        jax.config.update("jax_compilation_cache_dir", path)
+        jax.config.update("jax_persistent_cache_min_compile_time_secs", 0.2)
+    except (OSError, AttributeError, ValueError):
+        return
+
+
 @lru_cache(maxsize=1)
 def _jax():
     import jax
 
     # float64 everywhere: the checks compare margins near zero
     jax.config.update("jax_enable_x64", True)
+    _enable_compilation_cache(jax)
     import jax.numpy as jnp
 
     return jax, jnp

@@ -1,0 +1,268 @@
+"""``python -m costcheck.bench``: throughput, wall-time and memory figures, printed as one JSON object.
+
+Every figure is measured in the same run (nothing is copied from earlier runs):
+
+* ``margin``: MTW (A3w) margin throughput in (x, y) pairs per second — derivative evaluation
+  plus :func:`costcheck.checks.tensor.a3w_margin` (the orthogonal-pair minimum) — per cost and
+  backend; ``build_s`` (evaluator construction, symbolic differentiation, JAX tracing and
+  compilation, first call) is reported separately and excluded from the throughput;
+* ``naive``: the same margin computed the way a user would write it — every derivative entry
+  lambdified separately (no common subexpressions), a Python loop over points, ``T`` and ``S``
+  per point in numpy, a grid of 64 directions for ξ — and the ratio ``speedup`` of the sympy
+  path over it;
+* ``cli``: wall time of ``costcheck check`` on one 2-D cost and on ``catalog/`` (subprocesses,
+  interpreter start included) and the peak resident memory of the catalog check
+  (``getrusage(RUSAGE_CHILDREN).ru_maxrss``, MB).
+
+Progress goes to stderr; stdout carries only the JSON object.
+"""
+
+from __future__ import annotations
+
+import argparse
+import json
+import os
+import platform
+import subprocess
+import sys
+import time
+from pathlib import Path
+
+import numpy as np
+
+ROOT = Path(__file__).resolve().parent.parent
+CATALOG = ROOT / "catalog"
+
+COSTS = {
+    "default": {2: ["euclidean/power-0.5.yaml", "sphere/sphere-dist-sq.yaml"],
+                3: ["euclidean/power-0.5-3d.yaml", "euclidean/sq-euclid-3d.yaml"]},
+    "small": {2: ["euclidean/power-0.5.yaml"], 3: ["euclidean/sq-euclid-3d.yaml"]},
+}
+#: pairs per throughput measurement, and points for the (slow) naive reference
+SIZES = {
+    "default": {"pairs": {2: 200_000, 3: 5_000}, "naive": {2: 200, 3: 40}, "single_budget": None},
+    "small": {"pairs": {2: 2_000, 3: 100}, "naive": {2: 10, 3: 4}, "single_budget": 256},
+}
+SINGLE_COST = "euclidean/power-0.5.yaml"
+NAIVE_GRID = 64
+
+TARGETS = {"n2_pairs_per_s": 2e6, "n2_speedup_vs_naive": 200.0, "n3_pairs_per_s": 2e5,
+           "single_cost_check_s": 5.0, "catalog_check_s": 60.0, "catalog_peak_mb": 2048.0}
+
+
+def _log(message: str) -> None:
+    print(f"[bench] {message}", file=sys.stderr, flush=True)
+
+
+def _pairs(cost, count: int, seed: int = 1):
+    from .checks.sampler import sample_pairs
+
+    s = sample_pairs(cost.domain, cost.n, cost.m, count, seed)
+    return s.xs, s.ys
+
+
+# --------------------------------------------------------------------------- vectorised margin
+
+def measure_margin(cost, backend: str, xs, ys) -> dict:
+    from .checks import tensor
+
+    started = time.perf_counter()
+    evaluator = cost.derivatives(backend=backend, order=4)
+    first = evaluator(xs, ys)  # JAX compiles for this batch shape here
+    tensor.a3w_margin(first)
+    warm = time.perf_counter() - started
+    t0 = time.perf_counter()
+    d = evaluator(xs, ys)
+    t1 = time.perf_counter()
+    m = tensor.a3w_margin(d)
+    t2 = time.perf_counter()
+    total = t2 - t0
+    return {"pairs": int(xs.shape[0]), "pairs_per_s": xs.shape[0] / total,
+            "derivatives_pairs_per_s": xs.shape[0] / (t1 - t0), "margin_pairs_per_s": xs.shape[0] / (t2 - t1),
+            "seconds": total, "build_s": max(warm - total, 0.0),
+            "valid_fraction": float(np.mean(m.valid)), "min_rel_margin": float(np.nanmin(m.rel))}
+
+
+# --------------------------------------------------------------------------- naive reference
+
+def _naive_functions(cost):
+    """Every derivative entry lambdified on its own, no cse: what a user would write."""
+    import sympy as sp
+
+    from .derivatives.sympy_backend import _MODULES, symbolic_derivatives
+
+    sym = symbolic_derivatives(cost.expr, cost.x_symbols, cost.y_symbols, 4)
+    args = list(cost.x_symbols) + list(cost.y_symbols)
+    out = {}
+    for name in ("dxy", "dxxy", "dxyy", "dxxyy"):
+        entries = np.array(sym[name], dtype=object)
+        out[name] = (entries.shape, [sp.lambdify(args, e, modules=_MODULES) for e in entries.reshape(-1)])
+    return out
+
+
+def _naive_directions(n: int):
+    if n == 2:
+        t = np.arange(NAIVE_GRID) * np.pi / NAIVE_GRID
+        return np.stack([np.cos(t), np.sin(t)], axis=1)
+    from .checks.tensor import sphere_directions
+
+    return sphere_directions(n, NAIVE_GRID)
+
+
+def naive_margin(functions, xs, ys) -> np.ndarray:
+    """Per point: min over the ξ grid of the A3w form (η ⊥ ξ: the rotated ξ for n = 2, else eigvalsh)."""
+    n = xs.shape[1]
+    dirs = _naive_directions(n)
+    out = np.empty(xs.shape[0])
+    for p in range(xs.shape[0]):
+        args = list(xs[p]) + list(ys[p])
+        d = {name: np.array([float(f(*args)) for f in fs]).reshape(shape) for name, (shape, fs) in functions.items()}
+        inv = np.linalg.inv(d["dxy"])
+        T = np.einsum("ijr,rs,skl->ijkl", d["dxxy"], inv, d["dxyy"]) - d["dxxyy"]
+        best = np.inf
+        for xi in dirs:
+            if n == 2:
+                eta_p = inv @ np.array([-xi[1], xi[0]])
+                S = np.einsum("ijkl,i,j,k,l->", T, xi, xi, eta_p, eta_p)
+            else:
+                basis = np.linalg.svd(xi[None, :])[2][1:].T  # orthonormal basis of ξ^⊥
+                Q = inv.T @ np.einsum("ijkl,i,j->kl", T, xi, xi) @ inv
+                R = basis.T @ Q @ basis
+                S = np.linalg.eigvalsh(0.5 * (R + R.T))[0]
+            best = min(best, S)
+        out[p] = best
+    return out
+
+
+def measure_naive(cost, xs, ys) -> dict:
+    started = time.perf_counter()
+    functions = _naive_functions(cost)
+    build = time.perf_counter() - started
+    t0 = time.perf_counter()
+    naive_margin(functions, xs, ys)
+    seconds = time.perf_counter() - t0
+    return {"pairs": int(xs.shape[0]), "pairs_per_s": xs.shape[0] / seconds, "seconds": seconds, "build_s": build,
+            "grid": NAIVE_GRID}
+
+
+# --------------------------------------------------------------------------- command line
+
+#: a tiny launcher: a child forked from this (large) process would start with its resident set,
+#: and ru_maxrss would report that, not the check's own peak
+_LAUNCHER = ("import json, resource, subprocess, sys, time\n"
+             "t = time.perf_counter()\n"
+             "rc = subprocess.run(sys.argv[1:], stdout=subprocess.DEVNULL).returncode\n"
+             "s = time.perf_counter() - t\n"
+             "print(json.dumps({'rc': rc, 'inner_s': s, "
+             "'maxrss': resource.getrusage(resource.RUSAGE_CHILDREN).ru_maxrss}))\n")
+
+
+def _run_cli(args: list[str]) -> dict:
+    """``costcheck check ARGS`` in a fresh interpreter: wall time (interpreter start included) and peak memory."""
+    t0 = time.perf_counter()
+    proc = subprocess.run([sys.executable, "-c", _LAUNCHER, sys.executable, "-m", "costcheck", "check", *args],
+                          cwd=ROOT, capture_output=True, text=True)
+    outer = time.perf_counter() - t0
+    info = json.loads(proc.stdout.strip().splitlines()[-1])
+    scale = 1 / 1024 if sys.platform != "darwin" else 1 / 2**20  # ru_maxrss: KiB on Linux, bytes on macOS
+    # ``seconds`` is the check's own subprocess (interpreter start included), timed by the launcher
+    return {"seconds": info["inner_s"], "exit_code": info["rc"], "peak_mb": info["maxrss"] * scale,
+            "outer_seconds": outer, "args": args}
+
+
+def run(size: str = "default", backends=("sympy", "jax"), skip_catalog: bool = False) -> dict:
+    import costcheck
+
+    cfg = SIZES[size]
+    result: dict = {"tool": "costcheck.bench", "size": size, "backends": list(backends),
+                    "machine": {"cpus": os.cpu_count(), "python": platform.python_version(),
+                                "numpy": np.__version__, "platform": platform.platform()},
+                    "margin": {}, "naive": {}, "cli": {}, "targets": {}}
+    per_n: dict = {}
+    for n, paths in COSTS[size].items():
+        for rel in paths:
+            cost = costcheck.load(CATALOG / rel)
+            xs, ys = _pairs(cost, cfg["pairs"][n])
+            key = cost.id
+            result["margin"][key] = {"n": n, "file": f"catalog/{rel}"}
+            for backend in backends:
+                _log(f"margin {key} ({xs.shape[0]} pairs, {backend})")
+                fig = measure_margin(cost, backend, xs, ys)
+                result["margin"][key][backend] = fig
+                per_n.setdefault(n, []).append(fig["pairs_per_s"])
+            if "sympy" in backends:
+                k = cfg["naive"][n]
+                _log(f"naive {key} ({k} pairs)")
+                fig = measure_naive(cost, xs[:k], ys[:k])
+                fig["speedup"] = result["margin"][key]["sympy"]["pairs_per_s"] / fig["pairs_per_s"]
+                result["naive"][key] = fig
+    single = [f"catalog/{SINGLE_COST}"]
+    if cfg["single_budget"]:
+        single += ["--budget", str(cfg["single_budget"])]
+    _log(f"costcheck check {' '.join(single)}")
+    result["cli"]["single_cost"] = _run_cli(single)
+    if not skip_catalog:
+        _log("costcheck check catalog/")
+        cat = _run_cli(["catalog/"])
+        result["cli"]["catalog"] = cat
+        result["cli"]["catalog_peak_mb"] = cat["peak_mb"]
+
+    t = result["targets"]
+    worst = {n: min(v) for n, v in per_n.items()}
+    if 2 in worst:
+        t["n2_pairs_per_s"] = {"measured": worst[2], "target": TARGETS["n2_pairs_per_s"]}
+    if 3 in worst:
+        t["n3_pairs_per_s"] = {"measured": worst[3], "target": TARGETS["n3_pairs_per_s"]}
+    speedups = [v["speedup"] for k, v in result["naive"].items() if result["margin"][k]["n"] == 2]
+    if speedups:
+        t["n2_speedup_vs_naive"] = {"measured": min(speedups), "target": TARGETS["n2_speedup_vs_naive"]}
+    t["single_cost_check_s"] = {"measured": result["cli"]["single_cost"]["seconds"],
+                                "target": TARGETS["single_cost_check_s"], "lower_is_better": True}
+    if not skip_catalog:
+        t["catalog_check_s"] = {"measured": cat["seconds"], "target": TARGETS["catalog_check_s"],
+                                "lower_is_better": True}
+        t["catalog_peak_mb"] = {"measured": cat["peak_mb"], "target": TARGETS["catalog_peak_mb"],
+                                "lower_is_better": True}
+    limits = {
+        "n2_pairs_per_s": "bottleneck (cProfile): batched LAPACK eigvals of the 4x4 companion matrices "
+                          "(~6 us/pair, about half of a3w_margin), then numpy passes over (N,2,2,2,2) "
+                          "temporaries and the derivative evaluation (sphere chart: ~6 us/pair); the "
+                          "arithmetic is ~2e3 flops/pair, so the fp64 peak of 2 AVX2-FMA cores "
+                          "(~8e10 flop/s) would allow ~4e7 pairs/s: the limit is numpy's "
+                          "memory-bound, per-call style, not the machine; reaching 2e6 needs a fused "
+                          "compiled kernel (e.g. one jitted JAX function for derivatives + margin)",
+        "n3_pairs_per_s": "bottleneck (cProfile): sphere_descent/form_min (96 directions, then 3 starts "
+                          "x 20 descent steps x 5 eigen-evaluations per pair: ~2e5 flops/pair), numpy "
+                          "per-call overhead on small chunks; fp64 peak (~8e10 flop/s) gives ~4e5 "
+                          "pairs/s at 100% efficiency, so 2e5 is at the physical edge even for a "
+                          "fused kernel",
+        "n2_speedup_vs_naive": "follows from n2_pairs_per_s: the naive per-point loop runs at "
+                               "~1e2-1e3 pairs/s",
+    }
+    for name, text in limits.items():
+        if name in t and t[name]["measured"] < t[name]["target"]:
+            t[name]["bottleneck"] = text
+    for v in t.values():
+        v["met"] = bool(v["measured"] <= v["target"]) if v.get("lower_is_better") else bool(v["measured"] >= v["target"])
+    if size != "default":
+        result["note"] = "tiny sizes: a smoke test, not comparable with the targets"
+    return result
+
+
+def main(argv=None) -> int:
+    parser = argparse.ArgumentParser(prog="python -m costcheck.bench", description=__doc__.splitlines()[0])
+    parser.add_argument("--size", choices=sorted(SIZES), default="default")
+    parser.add_argument("--backends", default="sympy,jax", help="comma-separated (default sympy,jax)")
+    parser.add_argument("--skip-catalog", action="store_true", help="do not time `costcheck check catalog/`")
+    args = parser.parse_args(argv)
+    backends = tuple(b for b in args.backends.split(",") if b)
+    for b in backends:
+        if b not in ("sympy", "jax"):
+            parser.error(f"unknown backend {b!r}")
+    result = run(args.size, backends, args.skip_catalog)
+    print(json.dumps(result, indent=1))
+    return 0
+
+
+if __name__ == "__main__":
+    raise SystemExit(main())

@@ -1,0 +1,152 @@
+"""Evaluate sweep points: in process, on a local process pool, or on a Dask scheduler.
+
+Each point is evaluated by :func:`evaluate_point`, a top-level function of plain
+arguments returning plain data, so that it pickles for a process pool and for
+``dask.distributed.Client.map`` alike.  A cost that cannot be built at a value (for
+example ``-(1/p)|x-y|^p`` at ``p = 0``, a division by zero) gets the verdict ``error``
+for every condition, with the message.
+"""
+
+from __future__ import annotations
+
+import os
+import time
+from concurrent.futures import ProcessPoolExecutor
+from dataclasses import dataclass, field
+import multiprocessing
+from typing import Callable, Sequence
+
+from .grid import Axis, SweepSpecError, plan
+
+ERROR = "error"
+
+
+def evaluate_point(path: str, params: dict, budget: int, seed: int, conditions: Sequence[str] | None) -> dict:
+    """Check the cost at ``params``; ``{condition: {verdict, code, kind, value, witness, summary}}``."""
+    from ..api import load
+    from ..checks.runner import CONDITION_MODULES, run_checks
+    from ..errors import CostcheckError
+
+    names = list(conditions or CONDITION_MODULES)
+    try:
+        cost = load(path, **params)
+        report = run_checks(cost, budget=budget, seed=seed, conditions=names)
+    except CostcheckError as exc:
+        message = " ".join(str(exc).split())
+        return {n: {"verdict": ERROR, "code": None, "kind": ERROR, "value": None, "witness": None,
+                    "summary": message} for n in names}
+    out = {}
+    for name, v in report.verdicts.items():
+        out[name] = {"verdict": v.verdict, "code": v.code, "kind": v.evidence.kind,
+                     "value": None if v.value is None else float(v.value),
+                     "witness": None if v.witness is None else v.witness.to_json(cost.x_names, cost.y_names),
+                     "summary": v.evidence.summary}
+    return out
+
+
+class Executor:
+    """Maps :func:`evaluate_point` over many parameter dicts; the three back ends share this."""
+
+    def __init__(self, path: str, budget: int, seed: int, workers: int | None = None,
+                 scheduler: str | None = None, client=None):
+        self.path, self.budget, self.seed = str(path), budget, seed
+        self.workers = workers or os.cpu_count() or 1
+        self._pool = None
+        self._client = client
+        self._own_client = False
+        if scheduler is not None and client is None:
+            try:
+                from dask.distributed import Client
+            except ImportError:
+                raise SweepSpecError("--scheduler needs dask.distributed, which is not installed "
+                                     "(pip install 'dask[distributed]')") from None
+            try:
+                self._client = Client(scheduler)
+            except Exception as exc:  # noqa: BLE001 - any connection problem is a usage error here
+                raise SweepSpecError(f"--scheduler {scheduler!r}: cannot connect ({' '.join(str(exc).split())})") from None
+            self._own_client = True
+        elif self._client is None and self.workers > 1:
+            # spawn, not fork: the parent may hold threads (JAX, BLAS) that fork would copy badly
+            self._pool = ProcessPoolExecutor(self.workers, mp_context=multiprocessing.get_context("spawn"))
+
+    def map(self, points: list[dict], conditions: Sequence[str] | None) -> list[dict]:
+        n = len(points)
+        args = ([self.path] * n, points, [self.budget] * n, [self.seed] * n, [conditions] * n)
+        if self._client is not None:
+            futures = self._client.map(evaluate_point, *args, pure=False)
+            return self._client.gather(futures)
+        if self._pool is not None:
+            return list(self._pool.map(evaluate_point, *args))
+        return [evaluate_point(*a) for a in zip(*args)]
+
+    def close(self):
+        if self._pool is not None:
+            self._pool.shutdown()
+        if self._own_client:
+            self._client.close()
+
+
+@dataclass
+class SweepResult:
+    file: str
+    axes: list[Axis]
+    conditions: list[str]
+    points: list[dict]                 # [{name: value}]
+    results: list[dict]                # parallel to points: {condition: {...}}
+    boundaries: list[dict] = field(default_factory=list)
+    isolated: list[dict] = field(default_factory=list)
+    options: dict = field(default_factory=dict)
+    seconds: float = 0.0
+
+    def verdict(self, index: int, condition: str) -> str:
+        return self.results[index][condition]["verdict"]
+
+    def to_json(self) -> dict:
+        return {
+            "file": self.file,
+            "axes": [{"name": a.name, "values": list(a.values)} for a in self.axes],
+            "conditions": self.conditions,
+            "options": self.options,
+            "points": [{"params": p, "checks": r} for p, r in zip(self.points, self.results)],
+            "boundaries": self.boundaries,
+            "isolated": self.isolated,
+            "seconds": round(self.seconds, 3),
+        }
+
+
+def run_sweep(path, axes: list[Axis], *, budget: int, seed: int, conditions: Sequence[str] | None = None,
+              workers: int | None = None, scheduler: str | None = None, client=None,
+              tolerance: float = 1e-3, bisect: bool = True,
+              on_progress: Callable[[int, int], None] | None = None) -> SweepResult:
+    """Check every grid point, then (for one axis, or along each line of a grid) bisect verdict changes."""
+    from ..api import load
+    from ..checks.runner import CONDITION_MODULES
+    from .boundaries import find_boundaries
+
+    if tolerance <= 0:
+        raise SweepSpecError(f"--tolerance must be positive, got {tolerance}")
+    names = list(conditions or CONDITION_MODULES)
+    base = load(path)                      # raises CostFileError for a bad file
+    for a in axes:
+        if a.name not in base.params:
+            known = ", ".join(base.params) or "none"
+            raise SweepSpecError(f"--vary: the cost has no parameter named {a.name!r} (parameters: {known})")
+    started = time.perf_counter()
+    points = plan(axes)
+    executor = Executor(path, budget, seed, workers=workers, scheduler=scheduler, client=client)
+    try:
+        results: list[dict] = []
+        chunk = max(1, executor.workers * 2)
+        for i in range(0, len(points), chunk):
+            results.extend(executor.map(points[i:i + chunk], names))
+            if on_progress:
+                on_progress(len(results), len(points))
+        result = SweepResult(str(path), axes, names, points, results,
+                             options={"budget": budget, "seed": seed, "tolerance": tolerance,
+                                      "only": list(conditions) if conditions else None})
+        # without bisection, grid changes and isolated values are still reported (infinite tolerance)
+        result.boundaries, result.isolated = find_boundaries(result, executor, tolerance if bisect else float("inf"))
+    finally:
+        executor.close()
+    result.seconds = time.perf_counter() - started
+    return result

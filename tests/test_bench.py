@@ -1,0 +1,29 @@
+"""The benchmark runs at its tiny size and prints one JSON object of positive figures (no timed assertions)."""
+
+import json
+import subprocess
+import sys
+from pathlib import Path
+
+ROOT = Path(__file__).resolve().parent.parent
+
+
+def test_bench_small_prints_one_json_object_with_positive_figures():
+    proc = subprocess.run([sys.executable, "-m", "costcheck.bench", "--size", "small", "--skip-catalog",
+                           "--backends", "sympy"], cwd=ROOT, capture_output=True, text=True, timeout=300)
+    assert proc.returncode == 0, proc.stderr
+    out = json.loads(proc.stdout)  # stdout is exactly one JSON document
+    assert {"margin", "naive", "cli", "targets", "size", "machine"} <= set(out)
+    assert out["size"] == "small"
+    ns = {fig["n"] for fig in out["margin"].values()}
+    assert ns == {2, 3}
+    for key, fig in out["margin"].items():
+        s = fig["sympy"]
+        for name in ("pairs_per_s", "derivatives_pairs_per_s", "margin_pairs_per_s", "seconds"):
+            assert s[name] > 0, (key, name)
+        assert s["build_s"] >= 0
+        assert out["naive"][key]["pairs_per_s"] > 0 and out["naive"][key]["speedup"] > 0
+    single = out["cli"]["single_cost"]
+    assert single["exit_code"] == 0 and single["seconds"] > 0 and single["peak_mb"] > 0
+    for name in ("n2_pairs_per_s", "n3_pairs_per_s", "n2_speedup_vs_naive", "single_cost_check_s"):
+        assert out["targets"][name]["measured"] > 0 and isinstance(out["targets"][name]["met"], bool)
