@@ -27,9 +27,20 @@ class CheckContext:
     _evaluators: dict = field(default_factory=dict, repr=False)
 
     def evaluator(self, order: int = 4) -> Evaluator:
-        """Derivatives up to ``order``, one evaluator per order, built once and kept."""
-        if order not in self._evaluators:
-            self._evaluators[order] = self.cost.derivatives(backend=self.backend, order=order)
+        """Derivatives up to at least ``order``, built once and kept.
+
+        With sympy a low-order evaluator is cheap to build and much cheaper to call, so each
+        order gets its own.  With a JIT backend every new evaluator is a new compilation, so an
+        existing one of a higher order is re-used, and a new one is built at the context's order.
+        """
+        if order in self._evaluators:
+            return self._evaluators[order]
+        if self.backend != "sympy":
+            higher = [k for k in self._evaluators if k >= order]
+            if higher:
+                return self._evaluators[min(higher)]
+            order = max(order, self.order)
+        self._evaluators[order] = self.cost.derivatives(backend=self.backend, order=order)
         return self._evaluators[order]
 
     def rng(self, salt: int) -> np.random.Generator:

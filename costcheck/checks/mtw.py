@@ -67,7 +67,7 @@ class Minimum:
 
 @dataclass(frozen=True)
 class Search:
-    #: the padded evaluator the search used (reuse it: no new compilation)
+    #: the evaluator the search used (reuse it: no new compilation)
     evaluate: object
     samples: int
     resolution: float
@@ -94,37 +94,6 @@ def _separated_starts(points: np.ndarray, order: np.ndarray, count: int, spacing
     return chosen
 
 
-def padded_evaluator(ctx, size: int):
-    """The order-4 evaluator, always called on exactly ``size`` pairs (rows repeated as padding).
-
-    A JIT-compiled backend compiles once per batch size; a fixed size keeps the local searches to
-    one compilation.  Calls with more than ``size`` pairs are split.
-    """
-    evaluator = ctx.evaluator(4)
-    if ctx.backend == "sympy":  # numpy code: any length costs the same to set up
-        return evaluator
-
-    def evaluate(xs, ys):
-        count = xs.shape[0]
-        if count == 0:
-            return evaluator(xs, ys)
-        parts = []
-        for start in range(0, count, size):
-            bx, by = xs[start:start + size], ys[start:start + size]
-            k = bx.shape[0]
-            if k < size:
-                bx = np.concatenate([bx, np.repeat(bx[:1], size - k, axis=0)])
-                by = np.concatenate([by, np.repeat(by[:1], size - k, axis=0)])
-            parts.append(evaluator(bx, by).take(slice(0, k)))
-        if len(parts) == 1:
-            return parts[0]
-        return type(parts[0])(**{name: (None if getattr(parts[0], name) is None else
-                                        np.concatenate([getattr(p, name) for p in parts]))
-                                 for name in parts[0].__dataclass_fields__})
-
-    return evaluate
-
-
 def search_minimum(ctx, margin_fn, orthogonal: bool, *, starts: int = STARTS,
                    iterations: int = ITERATIONS) -> Search | None:
     """Smallest scale-free margin over the sample, then local searches from the worst samples."""
@@ -138,7 +107,7 @@ def search_minimum(ctx, margin_fn, orthogonal: bool, *, starts: int = STARTS,
         return None
     rel = np.where(valid, margins.rel, np.inf)
     # every batch of the search has at most starts · (2 · 2n) points
-    evaluator = padded_evaluator(ctx, 1 << max(0, (starts * 4 * n - 1).bit_length()))
+    evaluator = ctx.evaluator(4)  # the JAX backend pads batch sizes, so the search compiles once
     domain = cost.domain
 
     def objective(Z):

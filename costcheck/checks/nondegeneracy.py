@@ -82,7 +82,7 @@ class _Setup:
         self.n, self.m = ctx.cost.n, ctx.cost.m
         self.k = min(self.n, self.m)
         self.d = self.n + self.m
-        self.ev = refine.evaluator(ctx, 2)
+        self.ev = ctx.evaluator(2)
         lo_x, hi_x = self.domain.x.bounds()
         lo_y, hi_y = self.domain.y.bounds()
         self.width = np.concatenate([hi_x - lo_x, hi_y - lo_y])
@@ -98,7 +98,7 @@ class _Setup:
         """``A`` (rows ≥ columns: ``M`` or ``Mᵀ``) at each row of ``Z`` and the usable mask."""
         Z = np.atleast_2d(Z)
         xs, ys = Z[:, : self.n], Z[:, self.n:]
-        der = refine.evaluate(self.ev, xs, ys)
+        der = self.ev(xs, ys)
         ok = refine.usable(self.domain, der, xs, ys)
         A = der.dxy if self.n >= self.m else np.transpose(der.dxy, (0, 2, 1))
         return A, ok

@@ -2,9 +2,8 @@
 
 Three kinds of help live here:
 
-- **evaluation** at new points: re-using the context's evaluators (padding batches to a
-  few fixed sizes so a JIT-compiled backend is not recompiled for every new length),
-  masks of "inside the domain and defined", segments between pairs;
+- **evaluation** at new points: masks of "inside the domain and defined", segments
+  between pairs (evaluators come from the context; the JAX backend pads batch sizes itself);
 - **high-precision confirmation** with mpmath: minimum-norm Newton refinement of a
   float witness to many digits (so a residual that is zero in exact arithmetic shows
   up as zero to the working precision), Newton refinement to a critical point (for
@@ -44,44 +43,6 @@ HP_ERRORS = (ArithmeticError, ValueError, TypeError, NameError)
 
 
 # --------------------------------------------------------------------------- evaluation
-
-
-def evaluator(ctx, order: int):
-    """An evaluator of at least ``order``.
-
-    With the sympy backend a low-order evaluator is cheap to build and much cheaper to
-    call, so it is built (and cached in the context, shared between checks).  With a
-    JIT backend every new evaluator is a new compilation, so an existing one of a
-    higher order is re-used.
-    """
-    if ctx.backend == "sympy":
-        return ctx.evaluator(order)
-    existing = getattr(ctx, "_evaluators", {})
-    for k in sorted(existing):
-        if k >= order:
-            return existing[k]
-    return ctx.evaluator(max(order, ctx.order))
-
-
-def _bucket(count: int) -> int:
-    size = 8
-    while size < count:
-        size *= 4
-    return size
-
-
-def evaluate(ev, xs, ys) -> Derivatives:
-    """``ev(xs, ys)``; with a JIT backend the batch is padded to one of a few fixed lengths."""
-    xs = np.atleast_2d(np.asarray(xs, dtype=float))
-    ys = np.atleast_2d(np.asarray(ys, dtype=float))
-    count = xs.shape[0]
-    if ev.backend == "sympy" or count == 0:
-        return ev(xs, ys)
-    size = _bucket(count)
-    if size != count:
-        xs = np.concatenate([xs, np.repeat(xs[:1], size - count, axis=0)])
-        ys = np.concatenate([ys, np.repeat(ys[:1], size - count, axis=0)])
-    return ev(xs, ys).take(slice(0, count))
 
 
 def usable(domain, derivs: Derivatives, xs, ys) -> np.ndarray:
@@ -142,7 +103,7 @@ def segment_is_usable(ctx, ev, z0: np.ndarray, z1: np.ndarray, count: int = 65) 
     n = ctx.cost.n
     t = np.linspace(0.0, 1.0, count)[:, None]
     z = (1 - t) * z0 + t * z1
-    d = evaluate(ev, z[:, :n], z[:, n:])
+    d = ev(z[:, :n], z[:, n:])
     return bool(usable(ctx.cost.domain, d, z[:, :n], z[:, n:]).all())
 
 

@@ -84,7 +84,7 @@ class _Setup:
         self.cost = ctx.cost
         self.domain = ctx.cost.domain
         self.n, self.m = ctx.cost.n, ctx.cost.m
-        self.ev = refine.evaluator(ctx, 2)
+        self.ev = ctx.evaluator(2)
         self.diam_y = refine.region_diameter(self.domain.y) or 1.0
         lo_x, hi_x = self.domain.x.bounds()
         self.width_x = np.where(hi_x - lo_x > 0, hi_x - lo_x, 1.0)
@@ -94,7 +94,7 @@ class _Setup:
         self.decimals = False
 
     def derivs(self, xs, ys):
-        d = refine.evaluate(self.ev, xs, ys)
+        d = self.ev(xs, ys)
         return d, refine.usable(self.domain, d, xs, ys)
 
     @property

@@ -43,15 +43,19 @@ def symbolic_derivatives(expr: sp.Expr, xs: Sequence[sp.Symbol], ys: Sequence[sp
 
 @lru_cache(maxsize=64)
 def _symbolic_derivatives(expr, xs, ys, order) -> dict:
+    # each order extends the cached one below it, so asking for order 2 and then 4
+    # (twist, then MTW) differentiates every entry once
     n, m = len(xs), len(ys)
-    out: dict = {"value": expr}
-    if order >= 1:
-        gx = [sp.diff(expr, xi) for xi in xs]
-        out["dx"] = gx
+    if order == 0:
+        return {"value": expr}
+    out = dict(_symbolic_derivatives(expr, xs, ys, order - 1))
+    if order == 1:
+        out["dx"] = [sp.diff(expr, xi) for xi in xs]
         out["dy"] = [sp.diff(expr, yk) for yk in ys]
-    if order >= 2:
+    elif order == 2:
+        gx = out["dx"]
         out["dxy"] = [[sp.diff(gx[i], ys[k]) for k in range(m)] for i in range(n)]
-    if order >= 3:
+    elif order == 3:
         M = out["dxy"]
         dxxy = [[[None] * m for _ in range(n)] for _ in range(n)]
         for i, j in itertools.combinations_with_replacement(range(n), 2):
@@ -62,7 +66,7 @@ def _symbolic_derivatives(expr, xs, ys, order) -> dict:
             for k, l in itertools.combinations_with_replacement(range(m), 2):
                 dxyy[i][k][l] = dxyy[i][l][k] = sp.diff(M[i][k], ys[l])
         out["dxxy"], out["dxyy"] = dxxy, dxyy
-    if order >= 4:
+    else:
         dxxy = out["dxxy"]
         dxxyy = [[[[None] * m for _ in range(m)] for _ in range(n)] for _ in range(n)]
         for i, j in itertools.combinations_with_replacement(range(n), 2):
