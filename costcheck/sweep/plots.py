@@ -7,16 +7,8 @@ from __future__ import annotations
 
 from pathlib import Path
 
-#: verdict → (colour, hatch); lightness rises from bad to good so grey prints stay ordered
-STYLE = {
-    "fails": ("#8b1a1a", "xx"),
-    "error": ("#222222", "oo"),
-    "undecided": ("#7a7a7a", ".."),
-    "not-applicable": ("#b0b0b0", "--"),
-    "weak": ("#e0a030", "//"),
-    "holds": ("#9ad39a", ""),
-    "strong": ("#cdeccd", ""),
-}
+from ..plots import VERDICT_STYLE as STYLE
+from ..plots import save_figure
 
 
 def _style(verdict):
@@ -24,19 +16,14 @@ def _style(verdict):
 
 
 def _save(fig, directory: Path, stem: str) -> list[str]:
-    written = []
-    for ext in ("png", "svg"):
-        path = directory / f"{stem}.{ext}"
-        fig.savefig(path, dpi=120, bbox_inches="tight")
-        written.append(str(path))
-    return written
+    return [str(path) for path in save_figure(fig, directory, stem)]
 
 
 def write_plots(result, directory) -> list[str]:
-    import matplotlib
-    matplotlib.use("Agg")
-    import matplotlib.pyplot as plt
     from matplotlib.patches import Patch
+
+    from ..plots import pyplot
+    plt = pyplot()
 
     directory = Path(directory)
     directory.mkdir(parents=True, exist_ok=True)
@@ -69,7 +56,6 @@ def write_plots(result, directory) -> list[str]:
                            for v in STYLE if v in seen], loc="upper center", bbox_to_anchor=(0.5, -0.35),
                   ncol=len(seen), frameon=False)
         written += _save(fig, directory, "verdict-strip")
-        plt.close(fig)
         if "mtw" in conds:
             fig, ax = plt.subplots(figsize=(8, 4))
             pts = [(x, result.results[i]["mtw"]["value"]) for i, x in enumerate(xs)
@@ -85,7 +71,6 @@ def write_plots(result, directory) -> list[str]:
             ax.set_yscale("symlog", linthresh=1e-4)
             ax.set_title("minimum MTW margin found")
             written += _save(fig, directory, "mtw-margin")
-            plt.close(fig)
     else:
         a0, a1 = result.axes
         n0, n1 = len(a0.values), len(a1.values)
@@ -105,5 +90,4 @@ def write_plots(result, directory) -> list[str]:
             ax.legend(handles=[Patch(facecolor=_style(v)[0], hatch=_style(v)[1], edgecolor="black", label=v)
                                for v in STYLE if v in seen], loc="upper left", bbox_to_anchor=(1.02, 1))
             written += _save(fig, directory, f"phase-{cond}")
-            plt.close(fig)
     return written
