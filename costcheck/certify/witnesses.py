@@ -111,6 +111,10 @@ def _twist(cost, w, method):
     n = cost.n
     x, y, yp = (np.asarray(v, dtype=float) for v in (w.x, w.y, w.vectors["y_prime"]))
     fields = FieldEnclosures(cost, ("dx", "dxy"))
+    if cost.m > cost.n:
+        return _more_targets_than_sources(cost, fields, x, y)
+    if cost.m != cost.n:
+        return None, "the existence test for a collision needs n = m"
     target = fields.at_balls(_point(list(x) + list(y)))
     if target is None:
         return None, "D_x c(x, y) has no enclosure"
@@ -139,6 +143,22 @@ def _twist(cost, w, method):
         if found is not None:
             return arb(0), found
     return None, "no box around y' passed the existence test (the collision may be degenerate)"
+
+
+def _more_targets_than_sources(cost, fields, x, y):
+    # invariance of domain (Brouwer 1912): no continuous injective map from an open subset of R^m
+    # into R^n with n < m, so twist fails as soon as y ↦ D_x c(x, y) is continuous on an open box
+    locator = Locator(cost.domain, cost.n)
+    lo_y, hi_y = cost.domain.y.bounds()
+    for rel in (1e-3, 1e-5, 1e-7):
+        half = rel * np.maximum(hi_y - lo_y, 1e-300)
+        lo, hi = y - half, y + half
+        if locator.classify(np.concatenate([x, lo]), np.concatenate([x, hi])) != "inside":
+            continue
+        if fields.at_balls(_point(x) + [balls.from_bounds(a, b) for a, b in zip(lo, hi)]) is not None:
+            return arb(0), (f"m = {cost.m} > n = {cost.n} and D_x c(x, ·) is enclosed (so continuous) on an open box "
+                            "of y inside the domain: by invariance of domain no such map is injective")
+    return None, "no open box around y with D_x c enclosed inside the domain"
 
 
 def _krawczyk(fields, target, x, lo, hi, yp):
