@@ -101,8 +101,11 @@ def from_function(
 
 
 def check(cost: Cost, *, budget: int | None = None, seed: int | None = None, backend: str = "sympy",
-          conditions: Sequence[str] | None = None):
+          conditions: Sequence[str] | None = None, prove: bool | dict = False):
     """Run the condition checks on ``cost``; returns a :class:`~costcheck.checks.runner.CostReport`.
+
+    ``prove=True`` (or a dict of :class:`~costcheck.certify.ProofOptions` fields such as
+    ``{"seconds": 60}``) also tries to prove each sampled "holds" on the whole domain.
 
     ``report.verdicts[name]`` is a :class:`~costcheck.verdict.Verdict` (verdict word, evidence,
     worst value, witness); ``report.mismatches`` lists expectations of a file that were not met.
@@ -110,8 +113,12 @@ def check(cost: Cost, *, budget: int | None = None, seed: int | None = None, bac
     from .checks.runner import DEFAULT_SEED, run_checks
     from .checks.sampler import DEFAULT_BUDGET
 
+    options = None
+    if prove:
+        from .certify import ProofOptions
+        options = ProofOptions(**prove) if isinstance(prove, dict) else ProofOptions()
     return run_checks(cost, budget=budget or DEFAULT_BUDGET, seed=DEFAULT_SEED if seed is None else seed,
-                      backend=backend, conditions=conditions)
+                      backend=backend, conditions=conditions, prove=options)
 
 
 def mtw_tensor(cost: Cost, simplify_seconds: float = 10.0):

@@ -37,6 +37,16 @@ def _positive_int(text: str) -> int:
     return value
 
 
+def _positive_float(text: str) -> float:
+    try:
+        value = float(text)
+    except ValueError:
+        raise argparse.ArgumentTypeError(f"expected a number, got {text!r}") from None
+    if not value > 0:
+        raise argparse.ArgumentTypeError(f"expected a positive number, got {text}")
+    return value
+
+
 def _build_parser() -> argparse.ArgumentParser:
     from .checks.runner import CONDITION_MODULES, DEFAULT_SEED
     from .checks.sampler import DEFAULT_BUDGET
@@ -56,6 +66,13 @@ def _build_parser() -> argparse.ArgumentParser:
                        help="derivative backend (default sympy; jax compiles slower, runs faster on large budgets)")
     check.add_argument("--only", action="append", choices=list(CONDITION_MODULES), metavar="CONDITION",
                        help=f"run only this condition (repeatable): {', '.join(CONDITION_MODULES)}")
+    check.add_argument("--prove", action="store_true",
+                       help="try to prove sampled 'holds' verdicts on the whole domain (ball arithmetic, branch and "
+                            "bound; MTW identities); a failed attempt reports the coverage reached")
+    check.add_argument("--prove-seconds", type=_positive_float, default=20.0, metavar="S",
+                       help="time for each condition's proof attempt (default 20)")
+    check.add_argument("--prove-cells", type=_positive_int, default=20000, metavar="N",
+                       help="cells (boxes) for each condition's proof attempt (default 20000)")
 
     show = sub.add_parser("show", help="show a parsed cost file: expression, domain, derivative sizes")
     show.add_argument("file", metavar="FILE")
@@ -103,6 +120,10 @@ def _cmd_check(args, out: Console, err: Console) -> int:
     if not files:
         _error(f"no cost files (*.yaml, *.yml) under {' '.join(args.paths)}")
         return EXIT_BAD_INPUT
+    prove = None
+    if args.prove:
+        from .certify import ProofOptions
+        prove = ProofOptions(seconds=args.prove_seconds, cells=args.prove_cells)
     reports, errors = [], []
     seen_ids: dict[str, str] = {}
     for path in files:
@@ -121,7 +142,7 @@ def _cmd_check(args, out: Console, err: Console) -> int:
                 if _s is not None:
                     _s.update(f"checking {_id}: {name}…")
             report = run_checks(cost, budget=args.budget, seed=args.seed, backend=args.backend,
-                                conditions=args.only, on_progress=progress)
+                                conditions=args.only, on_progress=progress, prove=prove)
         reports.append(report)
         if not args.json:
             terminal.render_report(out, report)
@@ -132,7 +153,8 @@ def _cmd_check(args, out: Console, err: Console) -> int:
     else:
         code = EXIT_OK
     if args.json:
-        options = {"seed": args.seed, "budget": args.budget, "backend": args.backend, "only": args.only}
+        options = {"seed": args.seed, "budget": args.budget, "backend": args.backend, "only": args.only,
+                   "prove": None if prove is None else prove.to_json()}
         print(json_out.run_to_json(reports, errors, options, code))
     else:
         terminal.render_summary(out, reports, errors)

@@ -35,19 +35,25 @@ class TensorComponent:
     simplified: bool
 
 
-def _simplify_worker(exprs, queue):
+#: the rewriting a caller may ask for: general simplification, or rational-function normal form
+#: (``cancel`` is exact and fast for rational expressions, where ``simplify`` may take minutes)
+SIMPLIFIERS = {"simplify": sp.simplify, "cancel": sp.cancel}
+
+
+def _simplify_worker(exprs, queue, method="simplify"):
     for index, expr in enumerate(exprs):
-        queue.put((index, sp.simplify(expr)))
+        queue.put((index, SIMPLIFIERS[method](expr)))
 
 
-def simplify_all_bounded(exprs: list[sp.Expr], seconds: float = SIMPLIFY_SECONDS) -> list[tuple[sp.Expr, bool]]:
+def simplify_all_bounded(exprs: list[sp.Expr], seconds: float = SIMPLIFY_SECONDS,
+                         method: str = "simplify") -> list[tuple[sp.Expr, bool]]:
     """Simplify each expression in a child process, keeping those done within ``seconds`` in total."""
     results = [(e, False) for e in exprs]
     if not exprs or seconds <= 0:
         return results
     ctx = multiprocessing.get_context("fork")
     queue = ctx.Queue()
-    proc = ctx.Process(target=_simplify_worker, args=(exprs, queue), daemon=True)
+    proc = ctx.Process(target=_simplify_worker, args=(exprs, queue, method), daemon=True)
     proc.start()
     deadline = time.monotonic() + seconds
     done = 0
@@ -69,7 +75,8 @@ def simplify_all_bounded(exprs: list[sp.Expr], seconds: float = SIMPLIFY_SECONDS
     return results
 
 
-def mtw_tensor_symbolic(cost: Cost, simplify_seconds: float = SIMPLIFY_SECONDS) -> list[TensorComponent]:
+def mtw_tensor_symbolic(cost: Cost, simplify_seconds: float = SIMPLIFY_SECONDS,
+                        method: str = "simplify") -> list[TensorComponent]:
     """The independent components ``T_{ijkl}`` (``i <= j``, ``k <= l``) of a cost with ``n == m``."""
     if cost.expr is None:
         raise UsageError(f"cost '{cost.id}' has no symbolic form (it is a Python function)")
@@ -88,5 +95,5 @@ def mtw_tensor_symbolic(cost: Cost, simplify_seconds: float = SIMPLIFY_SECONDS) 
             first = sum(d["dxxy"][i][j][r] * Minv[r, s] * d["dxyy"][s][k][l] for r in range(n) for s in range(n))
             indices.append((i, j, k, l))
             exprs.append(first - d["dxxyy"][i][j][k][l])
-    simplified = simplify_all_bounded(exprs, simplify_seconds)
+    simplified = simplify_all_bounded(exprs, simplify_seconds, method)
     return [TensorComponent(index, expr, ok) for index, (expr, ok) in zip(indices, simplified)]

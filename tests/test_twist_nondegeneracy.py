@@ -120,7 +120,11 @@ def test_quadratic_and_bilinear_costs_twist_and_nondegenerate(expr):
 def test_distance_cost_fails_twist_with_collinear_witness():
     cost, v = cached(f"sqrt{R2}", X2, Y2, OFF_DIAGONAL)
     tw = v["twist"]
-    assert tw.verdict == "fails" and tw.evidence.kind == "refuted"  # elementary: D_x c = (x-y)/|x-y|
+    assert tw.verdict == "fails"  # elementary: D_x c = (x-y)/|x-y|
+    # the collisions form a continuum (the whole ray), so no box isolates one for the Krawczyk test:
+    # rigorous only when snapped to an exact point; otherwise honestly "sampled", NOT certified
+    assert (tw.evidence.kind == "refuted" and "enclosure" in tw.evidence.details) or (
+        tw.evidence.kind == "sampled" and "NOT certified" in tw.evidence.summary)
     x, y, yp = check_collision_independently(cost, tw)
     # elementary: the unit vector (x - y)/|x - y| only sees the direction, so y' lies on the ray from x through y
     u, up = (x - y) / np.linalg.norm(x - y), (x - yp) / np.linalg.norm(x - yp)
@@ -188,8 +192,10 @@ def test_double_zero_without_sign_change_found_and_confirmed():
     # elementary: M = diag(-3 x1², -1), so det M = 3 x1² ≥ 0: a zero (x1 = 0) with no sign change
     assert sp.simplify(M.det() - 3 * cost.x_symbols[0] ** 2) == 0
     nd = v["nondegenerate"]
-    assert nd.verdict == "fails" and nd.evidence.kind == "refuted"
+    assert nd.verdict == "fails"
     assert nd.evidence.details["method"] in ("exact", "high precision")
+    # a zero without a sign change is rigorous only when exact; seen in high precision it is "sampled"
+    assert nd.evidence.kind == ("refuted" if nd.evidence.details["method"] == "exact" else "sampled")
     x, y, _ = check_degenerate_independently(cost, nd)
     assert abs(x[0]) < 1e-6
     # twist fails too, at x1 = 0 where D_x c = (0, -y2) forgets y1 (elementary)

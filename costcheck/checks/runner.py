@@ -61,8 +61,16 @@ def run_checks(
     backend: str = "sympy",
     conditions: Sequence[str] | None = None,
     on_progress: Callable[[str], None] | None = None,
+    prove=None,
 ) -> CostReport:
-    """All (or the named) condition checks of ``cost``, reproducible for a given ``seed``."""
+    """All (or the named) condition checks of ``cost``, reproducible for a given ``seed``.
+
+    Every failure witness goes through :func:`costcheck.certify.certify_refutation`; with
+    ``prove`` (a :class:`costcheck.certify.ProofOptions`) sampled "holds" verdicts are also
+    offered to :func:`costcheck.certify.strengthen`.
+    """
+    from ..certify import certify_refutation, strengthen
+
     started = time.perf_counter()
     ctx = CheckContext(cost=cost, seed=seed, budget=budget, backend=backend)
     verdicts: dict[str, Verdict] = {}
@@ -74,6 +82,13 @@ def run_checks(
             verdicts[name] = undecided(name, "no sampled pair lies where the cost is defined (inside the domain "
                                              "and with finite derivatives); check the expression and the domain")
             continue
-        verdicts[name] = module.check(ctx)
-    return CostReport(cost, verdicts, time.perf_counter() - started,
-                      {"budget": budget, "seed": seed, "backend": backend})
+        verdict = certify_refutation(ctx, module.check(ctx))
+        if prove is not None:
+            if on_progress:
+                on_progress(f"{name}: proof")
+            verdict = strengthen(ctx, verdict, prove)
+        verdicts[name] = verdict
+    options = {"budget": budget, "seed": seed, "backend": backend}
+    if prove is not None:
+        options["prove"] = prove.to_json()
+    return CostReport(cost, verdicts, time.perf_counter() - started, options)

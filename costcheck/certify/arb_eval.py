@@ -1,0 +1,272 @@
+"""Rigorous evaluation of sympy expressions over boxes: our own sympy → ``arb`` compiler.
+
+Every node of the whitelisted expression language (``costcheck.expression``) and of its
+derivatives maps to a ball operation that returns an enclosure of the exact value over the
+input balls, or "no enclosure" (a non-finite ball) where the function may be undefined —
+the box then stays undecided.  Numbers enter exactly: integers and rationals as exact
+balls, ``pi`` and ``E`` as arb's enclosures, a binary float as its exact value.
+
+The compiled form is a straight-line program of ball operations built from the sympy tree
+alone (node types we know, constants by index): nothing is generated as source text and
+nothing from a cost file is executed.  Common subexpressions are shared (``sympy.cse``).
+
+Over a box the plain ("natural") enclosure grows with the expression's size, because each
+occurrence of a variable ranges independently.  :meth:`BallFunction.over_box` therefore also
+runs the program in forward-mode differentiation over the box and uses the mean-value form
+``f(B) ⊂ f(m) + ∇f(B)·(B − m)`` (Moore, Kearfott and Cloud, *Introduction to Interval
+Analysis*, SIAM 2009, §6.4), intersected with the natural enclosure: both contain the range.
+"""
+
+from __future__ import annotations
+
+from functools import lru_cache
+from typing import Sequence
+
+import sympy as sp
+from flint import arb
+
+from . import balls
+
+
+class Unsupported(ValueError):
+    """The expression uses something we have no sound ball version of."""
+
+
+def _method(name):
+    return lambda b: getattr(b, name)() if b.is_finite() else balls.NAN
+
+
+def _sum(*terms):
+    total = terms[0]
+    for t in terms[1:]:
+        total = total + t
+    return total
+
+
+def _product(*factors):
+    total = factors[0]
+    for f in factors[1:]:
+        total = total * f
+    return total
+
+
+def _reciprocal(b):
+    return 1 / b
+
+
+def _real_power(base, exponent):
+    # x**y = exp(y log x), defined for x > 0 (the real branch the numeric backends take)
+    if not (base.is_finite() and exponent.is_finite()):
+        return balls.NAN
+    return (exponent * base.log()).exp()
+
+
+def _one_over_root(b):
+    return balls.rpow(b, -1, 2)
+
+
+#: operation name → (value function, derivative function (x, value) for one-argument operations)
+_UNARY = {
+    "exp": (_method("exp"), lambda x, v: v),
+    "log": (_method("log"), lambda x, v: 1 / x),
+    "sin": (_method("sin"), lambda x, v: x.cos()),
+    "cos": (_method("cos"), lambda x, v: -x.sin()),
+    "tan": (_method("tan"), lambda x, v: 1 + v * v),
+    "sinh": (_method("sinh"), lambda x, v: x.cosh()),
+    "cosh": (_method("cosh"), lambda x, v: x.sinh()),
+    "tanh": (_method("tanh"), lambda x, v: 1 - v * v),
+    "asin": (_method("asin"), lambda x, v: _one_over_root(1 - balls.ipow(x, 2))),
+    "acos": (_method("acos"), lambda x, v: -_one_over_root(1 - balls.ipow(x, 2))),
+    "atan": (_method("atan"), lambda x, v: 1 / (1 + balls.ipow(x, 2))),
+    "asinh": (_method("asinh"), lambda x, v: _one_over_root(balls.ipow(x, 2) + 1)),
+    "acosh": (_method("acosh"), lambda x, v: _one_over_root((x - 1) * (x + 1))),
+    "atanh": (_method("atanh"), lambda x, v: 1 / (1 - balls.ipow(x, 2))),
+    "sec": (_method("sec"), lambda x, v: v * x.tan()),
+    "csc": (_method("csc"), lambda x, v: -v * x.cot()),
+    "cot": (_method("cot"), lambda x, v: -(1 + v * v)),
+    "abs": (balls.ball_abs, lambda x, v: balls.sign(x)),
+    "sign": (balls.sign, lambda x, v: balls.point_mass(x)),
+    "delta": (balls.point_mass, lambda x, v: balls.point_mass(x)),
+    "step": (balls.step, lambda x, v: balls.point_mass(x)),
+    "reciprocal": (_reciprocal, lambda x, v: -(v * v)),
+}
+
+_SYMPY_UNARY = {
+    sp.exp: "exp", sp.log: "log", sp.sin: "sin", sp.cos: "cos", sp.tan: "tan",
+    sp.sinh: "sinh", sp.cosh: "cosh", sp.tanh: "tanh", sp.asin: "asin", sp.acos: "acos",
+    sp.atan: "atan", sp.asinh: "asinh", sp.acosh: "acosh", sp.atanh: "atanh",
+    sp.sec: "sec", sp.csc: "csc", sp.cot: "cot", sp.Abs: "abs", sp.sign: "sign",
+    sp.DiracDelta: "delta", sp.Heaviside: "step",
+}
+
+
+class _Program:
+    """A straight-line program over registers: inputs first, then one slot per step.
+
+    A step is ``(operation name, argument slots, literal arguments)``, built from the sympy
+    tree alone, so nothing but sympy structure decides what runs.
+    """
+
+    def __init__(self, symbols):
+        self.slots: dict = {s: i for i, s in enumerate(symbols)}
+        self.constants: list = []
+        self.steps: list = []
+        self.width = len(symbols)
+
+    def _new(self, op, args, extra=()) -> int:
+        self.steps.append((op, tuple(args), tuple(extra)))
+        return self.width + len(self.steps) - 1
+
+    def slot(self, e: sp.Expr) -> int:
+        if e not in self.slots:
+            self.slots[e] = self._build(e)
+        return self.slots[e]
+
+    def _build(self, e: sp.Expr) -> int:
+        if e.is_Integer or e.is_Rational or e.is_Float or e in (sp.pi, sp.E):
+            self.constants.append(e)
+            return self._new("constant", (), (len(self.constants) - 1,))
+        if e.is_Add:
+            return self._new("sum", [self.slot(a) for a in e.args])
+        if e.is_Mul:
+            return self._new("product", [self.slot(a) for a in e.args])
+        if e.is_Pow:
+            base, exponent = e.args
+            if exponent.is_Integer:
+                if exponent == -1:
+                    return self._new("reciprocal", [self.slot(base)])
+                return self._new("ipow", [self.slot(base)], (int(exponent),))
+            if exponent.is_Rational:
+                return self._new("rpow", [self.slot(base)], (int(exponent.p), int(exponent.q)))
+            if base == sp.E:
+                return self._new("exp", [self.slot(exponent)])
+            return self._new("power", [self.slot(base), self.slot(exponent)])
+        op = _SYMPY_UNARY.get(e.func)
+        if op is not None and (len(e.args) == 1 or op == "delta"):
+            # DiracDelta(u, k), a derivative of the point mass, is zero away from u = 0 too
+            return self._new(op, [self.slot(e.args[0])])
+        raise Unsupported(f"no ball arithmetic for {type(e).__name__}")
+
+
+def _ball_constant(value: sp.Expr) -> arb:
+    if value is sp.pi:
+        return arb.pi()
+    if value is sp.E:
+        return arb(1).exp()
+    if value.is_Integer:
+        return arb(int(value))
+    rational = sp.Rational(value)  # a Float's exact binary value; a Rational itself
+    return arb(int(rational.p)) / int(rational.q)
+
+
+def _value(op, args, extra, K):
+    if op == "constant":
+        return K[extra[0]]
+    if op == "sum":
+        return _sum(*args)
+    if op == "product":
+        return _product(*args)
+    if op == "ipow":
+        return balls.ipow(args[0], extra[0])
+    if op == "rpow":
+        return balls.rpow(args[0], *extra)
+    if op == "power":
+        return _real_power(*args)
+    return _UNARY[op][0](args[0])
+
+
+def _partials(op, args, extra, value) -> list:
+    """∂(step)/∂(each argument), as balls, at the argument balls."""
+    if op == "sum":
+        return [arb(1)] * len(args)
+    if op == "product":
+        out = []
+        for i in range(len(args)):
+            out.append(_product(*(args[:i] + args[i + 1:])) if len(args) > 1 else arb(1))
+        return out
+    if op == "ipow":
+        k = extra[0]
+        return [k * balls.ipow(args[0], k - 1)]
+    if op == "rpow":
+        p, q = extra
+        return [(arb(p) / q) * balls.rpow(args[0], p - q, q)]
+    if op == "power":
+        base, exponent = args
+        return [exponent * value / base, base.log() * value if base.is_finite() else balls.NAN]
+    return [_UNARY[op][1](args[0], value)]
+
+
+class BallFunction:
+    """Enclosures of several expressions at once, sharing their subexpressions."""
+
+    def __init__(self, exprs: Sequence[sp.Expr], symbols: Sequence[sp.Symbol]):
+        program = _Program(symbols)
+        replacements, reduced = sp.cse(list(exprs), symbols=sp.numbered_symbols("_t"))
+        for name, value in replacements:
+            program.slots[name] = program.slot(value)
+        self._outputs = [program.slot(e) for e in reduced]
+        self._steps = program.steps
+        self._constants = program.constants
+        self.size = len(exprs)
+        self.symbols = tuple(symbols)
+
+    @property
+    def operations(self) -> int:
+        return len(self._steps)
+
+    def _constants_now(self):
+        # rebuilt per call so they follow the caller's working precision
+        return [_ball_constant(c) for c in self._constants]
+
+    def __call__(self, values: Sequence[arb]) -> list[arb]:
+        """Natural enclosures of the expressions over the input balls."""
+        K = self._constants_now()
+        registers = list(values)
+        try:
+            for op, args, extra in self._steps:
+                registers.append(_value(op, [registers[a] for a in args], extra, K))
+        except (ZeroDivisionError, ValueError, OverflowError):
+            return [balls.NAN] * self.size
+        return [registers[i] for i in self._outputs]
+
+    def with_gradients(self, values: Sequence[arb]) -> tuple[list[arb], list[list[arb]]]:
+        """Natural enclosures of the expressions and of their gradients over the input balls."""
+        K = self._constants_now()
+        d = len(values)
+        registers = list(values)
+        grads = [[arb(1) if i == j else arb(0) for j in range(d)] for i in range(d)]
+        try:
+            for op, args, extra in self._steps:
+                arg_values = [registers[a] for a in args]
+                value = _value(op, arg_values, extra, K)
+                registers.append(value)
+                if op == "constant":
+                    grads.append([arb(0)] * d)
+                    continue
+                partials = _partials(op, arg_values, extra, value)
+                grads.append([_sum(*(p * grads[a][j] for p, a in zip(partials, args))) for j in range(d)])
+        except (ZeroDivisionError, ValueError, OverflowError):
+            nan = balls.NAN
+            return [nan] * self.size, [[nan] * d for _ in range(self.size)]
+        return [registers[i] for i in self._outputs], [grads[i] for i in self._outputs]
+
+    def over_box(self, lo: Sequence[float], hi: Sequence[float]) -> list[arb]:
+        """Enclosures over the box ``[lo, hi]``: natural ∩ mean-value form."""
+        box = [balls.from_bounds(a, b) for a, b in zip(lo, hi)]
+        natural, gradients = self.with_gradients(box)
+        middle = [0.5 * (a + b) for a, b in zip(lo, hi)]
+        at_middle = self([arb(m) for m in middle])
+        offsets = [arb(0, max(m - a, b - m) * (1 + 2 ** -50)) for a, b, m in zip(lo, hi, middle)]
+        out = []
+        for nat, mid, grad in zip(natural, at_middle, gradients):
+            if not mid.is_finite() or not all(g.is_finite() for g in grad):
+                out.append(nat)
+                continue
+            mean_value = mid + _sum(*(g * o for g, o in zip(grad, offsets)))
+            out.append(mean_value.intersection(nat) if nat.is_finite() else mean_value)
+        return out
+
+
+@lru_cache(maxsize=128)
+def compile_exprs(exprs: tuple, symbols: tuple) -> BallFunction:
+    return BallFunction(exprs, symbols)

@@ -1,0 +1,69 @@
+"""Enclosures of a cost's derivative fields over a cell, from its symbolic derivatives.
+
+The fields and their index layout are those of :class:`costcheck.derivatives.Derivatives`
+(``dxy[i][k] = ∂²c/∂x_i∂y_k`` and so on); the values are ``arb`` balls.
+"""
+
+from __future__ import annotations
+
+from typing import Sequence
+
+import numpy as np
+
+from ..derivatives import ORDER_FIELDS
+from ..derivatives.sympy_backend import symbolic_derivatives
+from flint import arb
+
+from . import balls
+from .arb_eval import compile_exprs
+from .dual import Dual
+
+
+class FieldEnclosures:
+    """``enclose(cell) -> {field: nested lists of balls}`` for the named derivative fields."""
+
+    def __init__(self, cost, fields: Sequence[str]):
+        order = max(k for k, names in ORDER_FIELDS.items() if set(names) & set(fields))
+        sym = symbolic_derivatives(cost.expr, cost.x_symbols, cost.y_symbols, order)
+        self.fields = tuple(fields)
+        self._shapes = {}
+        flat, self._layout = [], {}
+        position: dict = {}
+        for name in self.fields:
+            arr = np.array(sym[name], dtype=object)
+            self._shapes[name] = arr.shape
+            idx = []
+            for e in arr.reshape(-1):
+                if e not in position:
+                    position[e] = len(flat)
+                    flat.append(e)
+                idx.append(position[e])
+            self._layout[name] = idx
+        self.function = compile_exprs(tuple(flat), tuple(cost.x_symbols) + tuple(cost.y_symbols))
+
+    def at_balls(self, cell: Sequence) -> dict | None:
+        """Enclosures at the given input balls (natural form; for points and thin balls)."""
+        return self._arrange(self.function(cell))
+
+    def _arrange(self, values) -> dict | None:
+        if not all(v.is_finite() for v in values):
+            return None
+        out = {}
+        for name in self.fields:
+            entries = [values[i] for i in self._layout[name]]
+            out[name] = np.array(entries, dtype=object).reshape(self._shapes[name]).tolist()
+        return out
+
+    def duals_on_cell(self, lo, hi):
+        """``(fields as duals over the cell, fields at its middle, offsets B − m)``; Nones where undefined."""
+        box = [balls.from_bounds(a, b) for a, b in zip(lo, hi)]
+        values, grads = self.function.with_gradients(box)
+        middle = [0.5 * (a + b) for a, b in zip(lo, hi)]
+        offsets = [arb(0, max(m - a, b - m) * (1 + 2 ** -50)) for a, b, m in zip(lo, hi, middle)]
+        over = self._arrange([Dual(v, g) for v, g in zip(values, grads)])
+        mid = self._arrange(self.function([arb(m) for m in middle]))
+        return over, mid, offsets
+
+    def on_cell(self, lo, hi) -> dict | None:
+        """Enclosures over the box ``[lo, hi]`` (None when some derivative has none there)."""
+        return self._arrange(self.function.over_box(lo, hi))

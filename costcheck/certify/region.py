@@ -1,0 +1,95 @@
+"""Boxes of ``(x, y)`` space and where they lie relative to a cost's domain, rigorously.
+
+A proof covers the domain with boxes (cells).  A cell is *outside* only when ball
+arithmetic shows that no point of it satisfies the domain's description (box or ball on each
+side, ``where`` and ``pairs`` constraints); otherwise it must be proved, and proving the
+condition on the whole cell proves it on the part inside.  The declared bounds were read
+into binary floats; where that rounded a decimal (``0.1``), the starting box is widened by one
+unit in the last place so it contains the domain as written.
+"""
+
+from __future__ import annotations
+
+import math
+from dataclasses import dataclass
+from fractions import Fraction
+
+import numpy as np
+
+from ..domain import Ball, Box, Domain
+from . import balls
+from .arb_eval import compile_exprs
+
+
+def _outward(value: float, direction: float) -> float:
+    # a float that is not exactly the decimal it prints as was rounded from that decimal
+    exact = Fraction(repr(value)) == Fraction(value)
+    return value if exact else math.nextafter(value, direction)
+
+
+def bounding_box(domain: Domain) -> tuple[np.ndarray, np.ndarray]:
+    """A float box containing the whole declared domain (x coordinates, then y)."""
+    lows, highs = [], []
+    for region in (domain.x, domain.y):
+        if isinstance(region, Box):
+            lows += [_outward(v, -math.inf) for v in region.lower]
+            highs += [_outward(v, math.inf) for v in region.upper]
+        else:
+            r = _outward(region.radius, math.inf)
+            lows += [math.nextafter(_outward(c, -math.inf) - r, -math.inf) for c in region.center]
+            highs += [math.nextafter(_outward(c, math.inf) + r, math.inf) for c in region.center]
+    return np.array(lows), np.array(highs)
+
+
+@dataclass(frozen=True)
+class _Test:
+    """One rigorous membership test: a ball value that must be ≥ 0 (> 0 when strict)."""
+
+    columns: tuple[int, ...]
+    function: object
+    strict: bool
+
+
+class Locator:
+    """Classifies cells as ``outside``, ``inside`` or ``boundary`` of the domain."""
+
+    def __init__(self, domain: Domain, n: int):
+        self.tests: list[_Test] = []
+        for region, offset in ((domain.x, 0), (domain.y, n)):
+            if isinstance(region, Ball):
+                self.tests.append(_Test(tuple(range(offset, offset + region.dim)), ("ball", region), False))
+        groups = ((domain.where_x, 0), (domain.where_y, n), (domain.pairs, None))
+        for constraints, offset in groups:
+            for c in constraints:
+                cols = (tuple(range(len(c.symbols))) if offset is None
+                        else tuple(range(offset, offset + len(c.symbols))))
+                fn = compile_exprs((c.inequality.g,), tuple(c.symbols))
+                self.tests.append(_Test(cols, fn, c.inequality.strict))
+
+    @staticmethod
+    def _ball_margin(region: Ball, cell) -> object:
+        # r² − |p − centre|², which is ≥ 0 exactly inside the ball
+        total = balls.arb(0)
+        for c, b in zip(region.center, cell):
+            centre = balls.arb(c) if _outward(c, math.inf) == c else balls.arb(c, math.ulp(c))
+            total = total + balls.ipow(b - centre, 2)
+        r = balls.arb(_outward(region.radius, math.inf))
+        return r * r - total
+
+    def classify(self, lo: np.ndarray, hi: np.ndarray) -> str:
+        cell = [balls.from_bounds(a, b) for a, b in zip(lo, hi)]
+        status = "inside"
+        for test in self.tests:
+            values = [cell[i] for i in test.columns]
+            if isinstance(test.function, tuple):
+                g = self._ball_margin(test.function[1], values)
+            else:
+                g = test.function(values)[0]
+            if not g.is_finite():
+                status = "boundary"
+                continue
+            if g.upper() < 0 or (test.strict and g.upper() <= 0):
+                return "outside"
+            if not (g.lower() > 0 or (not test.strict and g.lower() >= 0)):
+                status = "boundary"
+        return status

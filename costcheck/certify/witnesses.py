@@ -1,0 +1,222 @@
+"""Rigorous confirmation of failure witnesses: a refutation is only as good as its enclosure.
+
+Each condition's witness is re-evaluated in ball arithmetic (arb, 128 bits) at the exact
+binary values the report prints:
+
+- **MTW / NNCC**: ``S(ξ, η)`` at ``(x, y, ξ, η)`` — for A3w with ``η`` replaced by its exact
+  projection orthogonal to ``ξ`` (a ball vector) — must be enclosed below 0.
+- **Non-degeneracy**, sign change: ``det M`` enclosed with opposite signs at the bracket's ends,
+  and ``M`` enclosed (finite) on boxes covering the segment between them, each inside the
+  domain: ``det M`` is then continuous there and vanishes in between (intermediate value
+  theorem).  An exact zero (sympy, exact arithmetic) is already rigorous.
+- **Twist**: ``y'`` with ``D_x c(x, y') = D_x c(x, y)``: for ``n = 1`` a certified sign change of
+  ``c_x(x, ·) − c_x(x, y)`` on a short interval around ``y'`` not containing ``y``; for ``n ≥ 2``
+  the Krawczyk test (Krawczyk, Computing 4, 1969; Moore–Kearfott–Cloud 2009, §8.2): a box
+  ``B ∌ y`` around ``y'`` with ``K(B) ⊂ int B`` contains exactly one solution.
+
+A witness that cannot be certified this way is not called refuted: the verdict keeps "fails"
+with evidence "sampled" and says why.
+"""
+
+from __future__ import annotations
+
+import dataclasses
+
+import numpy as np
+from flint import arb
+
+from ..verdict import Evidence, Verdict
+from . import balls, quantities
+from .enclosures import FieldEnclosures
+from .region import Locator
+
+BITS = 128
+_TENSOR_FIELDS = ("dxy", "dxxy", "dxyy", "dxxyy")
+
+
+def _point(values) -> list:
+    return [arb(float(v)) for v in values]
+
+
+def _mtw(cost, w, orthogonal: bool):
+    f = FieldEnclosures(cost, _TENSOR_FIELDS).at_balls(_point(list(w.x) + list(w.y)))
+    if f is None:
+        return None, "a derivative has no enclosure at the witness"
+    inv = quantities.inverse(f["dxy"])
+    if inv is None:
+        return None, "det M is not surely non-zero at the witness"
+    xi, eta = _point(w.vectors["xi"]), _point(w.vectors["eta"])
+    if orthogonal:
+        dot = sum((a * b for a, b in zip(xi, eta)), arb(0))
+        norm = sum((a * a for a in xi), arb(0))
+        eta = [e - dot / norm * a for e, a in zip(eta, xi)]
+    S = quantities.form_at(quantities.mtw_tensor(f, inv), inv, xi, eta)
+    what = "S(ξ, η⊥)" if orthogonal else "S(ξ, η)"
+    if balls.negative(S):
+        return S, f"{what} enclosed in {balls.text(S)} (arb, {BITS} bits), which lies below 0"
+    return None, f"{what} enclosed in {balls.text(S)}, which does not exclude 0"
+
+
+def _segment_continuous(cost, fields, a: np.ndarray, b: np.ndarray, pieces: int = 64) -> bool:
+    locator = Locator(cost.domain, cost.n)
+    ends = [a + (b - a) * t for t in np.linspace(0.0, 1.0, pieces + 1)]
+    ends[0], ends[-1] = a, b
+    for p, q in zip(ends, ends[1:]):
+        lo, hi = np.minimum(p, q), np.maximum(p, q)
+        if locator.classify(lo, hi) != "inside":
+            return False
+        if fields.at_balls([balls.from_bounds(u, v) for u, v in zip(lo, hi)]) is None:
+            return False
+    return True
+
+
+def _det_of(cost, fields, z):
+    f = fields.at_balls(_point(z))
+    if f is None:
+        return None
+    M = f["dxy"]
+    n, m = cost.n, cost.m
+    if n == m:
+        return quantities.det(M)
+    G = quantities.gram(M) if n > m else quantities.gram(quantities.transpose(M))
+    return quantities.det(G)
+
+
+def _nondegenerate(cost, w, method):
+    if method == "exact":
+        return arb(0), "exact zero (sympy, exact arithmetic)"
+    if method != "sign change":
+        return None, "a zero without a sign change can be seen in high precision but not enclosed away from 0"
+    v = w.vectors
+    a = np.array(list(v["bracket_a_x"]) + list(v["bracket_a_y"]), dtype=float)
+    b = np.array(list(v["bracket_b_x"]) + list(v["bracket_b_y"]), dtype=float)
+    fields = FieldEnclosures(cost, ("dxy",))
+    da, db = _det_of(cost, fields, a), _det_of(cost, fields, b)
+    if da is None or db is None or not (balls.excludes_zero(da) and balls.excludes_zero(db)):
+        return None, "the determinant at the bracket ends is not enclosed away from 0"
+    if balls.positive(da) == balls.positive(db):
+        return None, "the enclosed determinants at the bracket ends have the same sign"
+    if not _segment_continuous(cost, fields, a, b):
+        return None, "M could not be enclosed on the whole segment inside the domain"
+    return da, (f"det M enclosed in {balls.text(da)} at bracket end a and {balls.text(db)} at b (arb, {BITS} bits); "
+                "M is enclosed on 64 boxes covering the segment, all inside the domain, so det M vanishes "
+                "between a and b")
+
+
+def _twist(cost, w, method):
+    if method == "exact":
+        return arb(0), "exact collision (sympy, exact arithmetic)"
+    if method != "high precision":
+        return None, "no symbolic form to enclose (the collision was seen in float64 only)"
+    n = cost.n
+    x, y, yp = (np.asarray(v, dtype=float) for v in (w.x, w.y, w.vectors["y_prime"]))
+    fields = FieldEnclosures(cost, ("dx", "dxy"))
+    if cost.m > cost.n:
+        return _more_targets_than_sources(cost, fields, x, y)
+    if cost.m != cost.n:
+        return None, "the existence test for a collision needs n = m"
+    target = fields.at_balls(_point(list(x) + list(y)))
+    if target is None:
+        return None, "D_x c(x, y) has no enclosure"
+    locator = Locator(cost.domain, n)
+    scale = float(np.max(np.abs(yp - y))) or 1.0
+    for rel in (1e-12, 1e-10, 1e-8, 1e-6, 1e-4):
+        delta = rel * scale
+        lo, hi = yp - delta, yp + delta
+        if np.all(np.abs(yp - y) <= delta):
+            continue
+        z_lo, z_hi = np.concatenate([x, lo]), np.concatenate([x, hi])
+        if locator.classify(z_lo, z_hi) != "inside":
+            continue
+        if n == 1:
+            ga, gb = (fields.at_balls(_point([x[0], t])) for t in (lo[0], hi[0]))
+            over = fields.at_balls([arb(x[0]), balls.from_bounds(lo[0], hi[0])])
+            if ga is None or gb is None or over is None:
+                continue
+            fa, fb = ga["dx"][0] - target["dx"][0], gb["dx"][0] - target["dx"][0]
+            if balls.excludes_zero(fa) and balls.excludes_zero(fb) and balls.positive(fa) != balls.positive(fb):
+                return fa, (f"c_x(x, t) − c_x(x, y) enclosed in {balls.text(fa)} at t = {lo[0]!r} and "
+                            f"{balls.text(fb)} at t = {hi[0]!r} (arb, {BITS} bits), continuous between: a collision "
+                            "partner of y lies in that interval")
+            continue
+        found = _krawczyk(fields, target, x, lo, hi, yp)
+        if found is not None:
+            return arb(0), found
+    return None, "no box around y' passed the existence test (the collision may be degenerate)"
+
+
+def _more_targets_than_sources(cost, fields, x, y):
+    # invariance of domain (Brouwer 1912): no continuous injective map from an open subset of R^m
+    # into R^n with n < m, so twist fails as soon as y ↦ D_x c(x, y) is continuous on an open box
+    locator = Locator(cost.domain, cost.n)
+    lo_y, hi_y = cost.domain.y.bounds()
+    for rel in (1e-3, 1e-5, 1e-7):
+        half = rel * np.maximum(hi_y - lo_y, 1e-300)
+        lo, hi = y - half, y + half
+        if locator.classify(np.concatenate([x, lo]), np.concatenate([x, hi])) != "inside":
+            continue
+        if fields.at_balls(_point(x) + [balls.from_bounds(a, b) for a, b in zip(lo, hi)]) is not None:
+            return arb(0), (f"m = {cost.m} > n = {cost.n} and D_x c(x, ·) is enclosed (so continuous) on an open box "
+                            "of y inside the domain: by invariance of domain no such map is injective")
+    return None, "no open box around y with D_x c enclosed inside the domain"
+
+
+def _krawczyk(fields, target, x, lo, hi, yp):
+    n = len(x)
+    m_point = fields.at_balls(_point(list(x) + list(yp)))
+    box = fields.at_balls(_point(x) + [balls.from_bounds(a, b) for a, b in zip(lo, hi)])
+    if m_point is None or box is None:
+        return None
+    J_mid = np.array([[float(m_point["dxy"][i][k].mid()) for k in range(n)] for i in range(n)])
+    try:
+        Y = np.linalg.inv(J_mid)
+    except np.linalg.LinAlgError:
+        return None
+    Yb = [[arb(float(v)) for v in row] for row in Y]
+    G = [m_point["dx"][i] - target["dx"][i] for i in range(n)]
+    J = box["dxy"]
+    radius = [balls.from_bounds(a - c, b - c) for a, b, c in zip(lo, hi, yp)]
+    for k in range(n):
+        value = arb(yp[k]) - sum((Yb[k][i] * G[i] for i in range(n)), arb(0))
+        for j in range(n):
+            coefficient = (1 if k == j else 0) - sum((Yb[k][i] * J[i][j] for i in range(n)), arb(0))
+            value = value + coefficient * radius[j]
+        if not (value.lower() > lo[k] and value.upper() < hi[k]):
+            return None
+    return (f"Krawczyk test passed on the box y' ± {float(np.max(hi - yp)):.3g} (arb, {BITS} bits): it holds exactly "
+            "one solution of D_x c(x, y') = D_x c(x, y), and the box excludes y")
+
+
+def certify_refutation(ctx, verdict: Verdict) -> Verdict:
+    """A ``refuted`` verdict whose witness passes its enclosure test, or the same verdict marked ``sampled``."""
+    if verdict.evidence.kind != "refuted" or verdict.witness is None:
+        return verdict
+    cost, w = ctx.cost, verdict.witness
+    method = verdict.evidence.details.get("method", "")
+    with balls.precision(BITS):
+        try:
+            if cost.expr is None:
+                enclosure, text = None, "a Python-function cost has no symbolic form to enclose"
+            elif verdict.condition in ("mtw", "nncc"):
+                enclosure, text = _mtw(cost, w, orthogonal=verdict.condition == "mtw")
+            elif verdict.condition == "nondegenerate":
+                enclosure, text = _nondegenerate(cost, w, method)
+            elif verdict.condition == "twist":
+                enclosure, text = _twist(cost, w, method)
+            else:
+                return verdict
+        except (ValueError, ArithmeticError) as exc:  # an arithmetic failure is reported, not raised
+            enclosure, text = None, f"ball evaluation failed ({exc})"
+        interval = None if enclosure is None else [balls.lower(enclosure), balls.upper(enclosure)]
+    if enclosure is not None:
+        details = {**verdict.evidence.details, "enclosure": {"interval": interval, "text": text, "bits": BITS}}
+        witness = dataclasses.replace(w, confirmation=f"{w.confirmation}  Certified: {text}.")
+        evidence = dataclasses.replace(verdict.evidence, summary=f"{verdict.evidence.summary}; certified by ball "
+                                       "arithmetic", details=details)
+        return dataclasses.replace(verdict, evidence=evidence, witness=witness)
+    evidence = Evidence("sampled", f"{verdict.evidence.summary} — NOT certified: {text}; treat the failure as "
+                        "strong numerical evidence, not a proof", samples=verdict.evidence.samples,
+                        resolution=verdict.evidence.resolution,
+                        details={**verdict.evidence.details, "certification": text})
+    return dataclasses.replace(verdict, evidence=evidence,
+                               notes=verdict.notes + (f"the failure witness could not be certified: {text}",))
