@@ -93,7 +93,8 @@ def strengthen(ctx, verdict: Verdict, options: ProofOptions) -> Verdict:
     proof = {"method": method, **outcome.to_json(_names(ctx.cost)), "budget": options.to_json()}
     if outcome.proved:
         summary = (f"proved on the whole domain: {_WHAT[verdict.condition]} ({outcome.proved_cells} cells proved, "
-                   f"{outcome.outside_cells} outside the domain; {outcome.seconds:.1f} s; ball arithmetic, arb); "
+                   f"{outcome.outside_cells} outside the domain, over {outcome.space}; {outcome.seconds:.1f} s; "
+                   "ball arithmetic, arb); "
                    f"certified lower bound {outcome.bound:.3g}")
         return dataclasses.replace(verdict, evidence=Evidence("proved", summary, old.samples, old.resolution,
                                                               {**old.details, "proof": proof}))

@@ -39,15 +39,20 @@ class Outcome:
     bound: float | None
     stuck: list = field(default_factory=list)
     exhausted: str = ""
+    #: what the cells cover and their coordinates' names (set by the caller)
+    space: str = ""
+    names: list = field(default_factory=list)
 
-    def to_json(self, names) -> dict:
+    def to_json(self, names=None) -> dict:
+        names = self.names or names
         def box(lo, hi):
             return {name: [float(a), float(b)] for name, a, b in zip(names, lo, hi)}
         return {"proved": self.proved, "coverage": self.coverage, "cells": self.cells,
                 "proved_cells": self.proved_cells, "outside_cells": self.outside_cells,
                 "seconds": round(self.seconds, 3), "lower_bound": self.bound,
                 "undecided_cells": [box(lo, hi) for lo, hi in self.stuck[:5]],
-                "undecided_cell_count": len(self.stuck), "stopped_by": self.exhausted or None}
+                "undecided_cell_count": len(self.stuck), "stopped_by": self.exhausted or None,
+                "space": self.space or None}
 
 
 def branch_and_bound(lo: np.ndarray, hi: np.ndarray, classify: Callable[[np.ndarray, np.ndarray], str],

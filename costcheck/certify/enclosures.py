@@ -10,9 +10,10 @@ from typing import Sequence
 
 import numpy as np
 
+from flint import arb
+
 from ..derivatives import ORDER_FIELDS
 from ..derivatives.sympy_backend import symbolic_derivatives
-from flint import arb
 
 from . import balls
 from .arb_eval import compile_exprs
@@ -22,7 +23,9 @@ from .dual import Dual
 class FieldEnclosures:
     """``enclose(cell) -> {field: nested lists of balls}`` for the named derivative fields."""
 
-    def __init__(self, cost, fields: Sequence[str]):
+    def __init__(self, cost, fields: Sequence[str], substitution: dict | None = None,
+                 symbols: Sequence | None = None):
+        """``substitution`` rewrites the derivatives into other variables ``symbols`` (default: x, then y)."""
         order = max(k for k, names in ORDER_FIELDS.items() if set(names) & set(fields))
         sym = symbolic_derivatives(cost.expr, cost.x_symbols, cost.y_symbols, order)
         self.fields = tuple(fields)
@@ -34,12 +37,15 @@ class FieldEnclosures:
             self._shapes[name] = arr.shape
             idx = []
             for e in arr.reshape(-1):
+                if substitution:
+                    e = e.xreplace(substitution)
                 if e not in position:
                     position[e] = len(flat)
                     flat.append(e)
                 idx.append(position[e])
             self._layout[name] = idx
-        self.function = compile_exprs(tuple(flat), tuple(cost.x_symbols) + tuple(cost.y_symbols))
+        variables = tuple(symbols) if symbols is not None else tuple(cost.x_symbols) + tuple(cost.y_symbols)
+        self.function = compile_exprs(tuple(flat), variables)
 
     def at_balls(self, cell: Sequence) -> dict | None:
         """Enclosures at the given input balls (natural form; for points and thin balls)."""

@@ -26,8 +26,7 @@ from flint import arb
 from . import balls, quantities
 from .branch_bound import Budget, Outcome, branch_and_bound
 from .dual import Dual, tighten
-from .enclosures import FieldEnclosures
-from .region import Locator, bounding_box
+from .space import space_for
 
 
 def _run(cost, fields, coefficients, decide, budget: Budget) -> Outcome:
@@ -37,12 +36,10 @@ def _run(cost, fields, coefficients, decide, budget: Budget) -> Outcome:
     (a determinant, a quartic's coefficients); it runs on dual numbers over the cell and on
     balls at the cell's middle, and each number is enclosed by the mean-value form.
     """
-    enclosures = FieldEnclosures(cost, fields)
-    locator = Locator(cost.domain, cost.n)
-    lo, hi = bounding_box(cost.domain)
+    space = space_for(cost, fields)
 
     def decide_cell(a, b):
-        over, mid, offsets = enclosures.duals_on_cell(a, b)
+        over, mid, offsets = space.enclosures.duals_on_cell(a, b)
         if over is None:
             return None
         with_grad = coefficients(over)
@@ -56,7 +53,10 @@ def _run(cost, fields, coefficients, decide, budget: Budget) -> Outcome:
             tight.append(tighten(q, arb(m) if not isinstance(m, arb) else m, offsets))
         return decide(tight)
 
-    return branch_and_bound(lo, hi, locator.classify, decide_cell, budget)
+    outcome = branch_and_bound(space.lo, space.hi, space.classify, decide_cell, budget)
+    outcome.space = space.description
+    outcome.names = space.names
+    return outcome
 
 
 def _nonzero(values):
