@@ -23,6 +23,7 @@ CONDITION_MODULES: dict[str, str] = {
     "twist": "twist",
     "mtw": "mtw",
     "nncc": "nncc",
+    "index_form": "index_form",
 }
 
 DEFAULT_SEED = 20261201

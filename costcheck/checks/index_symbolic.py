@@ -1,0 +1,97 @@
+"""Symbolic search for an index ``I(x)`` of a cost in index form (run under a time limit).
+
+If ``c(x, y) = b(I(x), y) + f(x)`` then ``D_y c(x, y) = D_y b(I(x), y)`` depends on ``x``
+only through ``I(x)``: for a fixed ``y0``, ``I0(x) = D_y c(x, y0)`` is itself an index
+whenever ``D_y b(·, y0)`` is injective (Chiappori–McCann–Pass, CPAM 70, 2017, §3; Pass,
+Math. Res. Lett. 2012).  A candidate is accepted only through an exact identity: every
+column of ``D²_xy c(x, y)`` lies in the span of the columns of ``D I0(x)`` — for all
+``(x, y)`` as symbols — i.e. every ``(m+1) × (m+1)`` minor of ``[D I0 | D²_xy c(·, y)_k]``
+simplifies to zero.  Then ``ker D²_xy c(x, y)ᵀ ⊇ (range D I0(x))^⊥`` for every ``y``, with
+equality wherever ``rank D²_xy c = m``.
+
+For ``m = 1`` the direction field ``c_{x_i y} / c_{x_p y}`` (``p`` the first component that
+is not identically zero) is also reported when it is free of ``y``.
+"""
+
+from __future__ import annotations
+
+import itertools
+import random
+from typing import Sequence
+
+import sympy as sp
+
+from .refine import exact_expression
+
+
+def _is_zero(expr: sp.Expr, symbols: Sequence[sp.Symbol]) -> bool:
+    """Exactly zero as an expression (sound: a numeric screen may only say 'no')."""
+    if expr == 0:
+        return True
+    rng = random.Random(7)
+    for _ in range(3):
+        point = {s: sp.Rational(rng.randint(1, 97), rng.randint(98, 197)) for s in symbols}
+        try:
+            value = complex(sp.N(expr.xreplace(point), 30))
+        except (TypeError, ValueError, ZeroDivisionError):
+            continue
+        if value == value and abs(value) > 1e-20:
+            return False
+    for simplifier in (lambda e: sp.cancel(sp.together(e)), sp.simplify):
+        if simplifier(expr) == 0:
+            return True
+    return False
+
+
+def _normalised(expr: sp.Expr, xs) -> sp.Expr:
+    """Drop an additive constant and a numeric factor: any function of an index is an index."""
+    _, dependent = expr.as_independent(*xs, as_Add=True)
+    dependent = sp.factor_terms(dependent)
+    coeff, rest = dependent.as_coeff_Mul()
+    return rest if coeff.is_Number and coeff != 0 else dependent
+
+
+def _spans(J: sp.Matrix, M: sp.Matrix, symbols) -> bool:
+    n, m = J.shape
+    for k in range(M.cols):
+        A = J.row_join(M[:, k])
+        for rows in itertools.combinations(range(n), m + 1):
+            if not _is_zero(A.extract(list(rows), list(range(m + 1))).det(method="berkowitz"), symbols):
+                return False
+    return True
+
+
+def find_index(expr: sp.Expr, xs: Sequence[sp.Symbol], ys: Sequence[sp.Symbol], y0s: Sequence[Sequence]) -> dict:
+    """``{"index": [str] | None, "y0": [...], "direction_field": [str] | None, "decimals": bool}``."""
+    expr, decimals = exact_expression(expr)
+    n, m = len(xs), len(ys)
+    symbols = list(xs) + list(ys)
+    cy = [sp.diff(expr, y) for y in ys]
+    M = sp.Matrix(n, m, lambda i, k: sp.diff(cy[k], xs[i]))
+    out = {"index": None, "y0": None, "direction_field": None, "decimals": decimals}
+    if m == 1:
+        pivot = next((i for i in range(n) if not _is_zero(M[i, 0], symbols)), None)
+        if pivot is not None:
+            ratios = [sp.cancel(sp.together(M[i, 0] / M[pivot, 0])) for i in range(n)]
+            if all(not (r.free_symbols & set(ys)) for r in ratios):
+                out["direction_field"] = [str(r) for r in ratios]
+    found = []
+    for y0 in y0s:
+        sub = dict(zip(ys, y0))
+        try:
+            index = [_normalised(c.xreplace(sub), xs) for c in cy]
+        except (TypeError, ValueError, ZeroDivisionError):
+            continue
+        if any(e.has(sp.nan, sp.zoo, sp.oo, -sp.oo) for e in index):
+            continue
+        J = sp.Matrix(n, m, lambda i, k: sp.diff(index[k], xs[i]))
+        if any(all(_is_zero(J[i, k], symbols) for i in range(n)) for k in range(m)):
+            continue
+        if _spans(J, M, symbols):
+            found.append((sum(sp.count_ops(e) for e in index), index, y0))
+    if found:
+        found.sort(key=lambda f: f[0])
+        _, index, y0 = found[0]
+        out["index"] = [str(e) for e in index]
+        out["y0"] = [str(v) for v in y0]
+    return out
