@@ -24,6 +24,7 @@ CONDITION_MODULES: dict[str, str] = {
     "mtw": "mtw",
     "nncc": "nncc",
     "index_form": "index_form",
+    "nested": "nested",
 }
 
 DEFAULT_SEED = 20261201
