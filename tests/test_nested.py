@@ -259,3 +259,14 @@ def test_negative_density_is_refused(tmp_path):
     (y,) = cost.y_symbols
     with pytest.raises(CostFileError, match="negative"):
         analyse(cost, density("source", "x1 - 0.5", [x1, x2]), density("target", "1", [y]))
+
+
+def test_index_is_found_by_integrating_the_direction_field():
+    # c = -log(1 + y·I(x)), I = x1 + x2², is of index form (Chiappori–McCann–Pass 2017, the form
+    # b(I(x), y)); with 0 ∉ Y no D_y c(x, y0) is the plain index, and the direction field
+    # c_{x2 y} / c_{x1 y} = 2·x2 integrates to it (method of characteristics, elementary).
+    cost = costcheck.from_expression("-log(1 + y*(x1 + x2**2))", x=["x1", "x2"], y=["y"],
+                                     domain={"x": {"box": [[0.1, 1], [0.1, 1]]}, "y": {"box": [[0.5, 1]]}})
+    v = run_checks(cost, conditions=["index_form"], budget=256).verdicts["index_form"]
+    assert (v.verdict, v.evidence.kind, v.evidence.details["index"]) == ("holds", "proved", "x1 + x2**2")
+    assert v.evidence.details["direction_field"] == ["1", "2*x2"]

@@ -166,9 +166,9 @@ def check(ctx) -> Verdict:
     notes = []
     if status == "ok" and found and found.get("index"):
         index = found["index"]
-        details.update(index=index[0] if m == 1 else index, index_from_y0=found["y0"],
+        details.update(index=index[0] if m == 1 else index, index_found_by=found["method"],
                        direction_field=found.get("direction_field"))
-        summary = (f"index form: I(x) = {', '.join(index)} (from D_y c(x, y0) at y0 = ({', '.join(found['y0'])})); "
+        summary = (f"index form: I(x) = {', '.join(index)} (found from {found['method']}); "
                    "exact symbolic identity (sympy): every column of D²_xy c(x, y) lies in the span of D I(x) for "
                    "all x, y, so the kernel of D²_xy cᵀ is (range D I)^⊥ independent of y wherever rank D²_xy c = m "
                    f"(non-degeneracy, checked separately); the {count} sampled pairs agree (largest sin θ "

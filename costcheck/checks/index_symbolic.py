@@ -10,7 +10,11 @@ simplifies to zero.  Then ``ker D²_xy c(x, y)ᵀ ⊇ (range D I0(x))^⊥`` for 
 equality wherever ``rank D²_xy c = m``.
 
 For ``m = 1`` the direction field ``c_{x_i y} / c_{x_p y}`` (``p`` the first component that
-is not identically zero) is also reported when it is free of ``y``.
+is not identically zero) is also reported when it is free of ``y``; for ``n = 2`` it is also
+integrated: ``∇I ∥ (1, r)`` is the linear first-order equation ``r I_{x1} − I_{x2} = 0``
+(after ordering the pivot first), whose general solution ``F(ξ(x))`` (sympy's ``pdsolve``,
+method of characteristics) gives the candidate ``ξ``.  Every candidate, however found, must
+pass the same exact identity.
 """
 
 from __future__ import annotations
@@ -76,6 +80,10 @@ def find_index(expr: sp.Expr, xs: Sequence[sp.Symbol], ys: Sequence[sp.Symbol], 
             if all(not (r.free_symbols & set(ys)) for r in ratios):
                 out["direction_field"] = [str(r) for r in ratios]
     found = []
+    for candidate in _integrated_direction_field(M, xs, ys, symbols):
+        J = sp.Matrix(n, 1, lambda i, k: sp.diff(candidate, xs[i]))
+        if _spans(J, M, symbols):
+            found.append((sp.count_ops(candidate), [candidate], None))
     for y0 in y0s:
         sub = dict(zip(ys, y0))
         try:
@@ -93,5 +101,28 @@ def find_index(expr: sp.Expr, xs: Sequence[sp.Symbol], ys: Sequence[sp.Symbol], 
         found.sort(key=lambda f: f[0])
         _, index, y0 = found[0]
         out["index"] = [str(e) for e in index]
-        out["y0"] = [str(v) for v in y0]
+        out["y0"] = None if y0 is None else [str(v) for v in y0]
+        out["method"] = ("direction field integrated by the method of characteristics (sympy pdsolve)" if y0 is None
+                         else f"D_y c(x, y0) at y0 = ({', '.join(map(str, y0))})")
     return out
+
+
+def _integrated_direction_field(M: sp.Matrix, xs, ys, symbols) -> list[sp.Expr]:
+    """For n = 2, m = 1: the characteristic ξ of ``∇I ∥ M(x, ·)`` when the direction is free of y."""
+    if M.shape != (2, 1):
+        return []
+    a, b = xs
+    if _is_zero(M[0, 0], symbols):
+        return [b] if not _is_zero(M[1, 0], symbols) else []  # ∇I ∥ (0, 1): I = the second coordinate
+    r = sp.cancel(sp.together(M[1, 0] / M[0, 0]))  # ∇I ∥ (1, r): I_b = r I_a
+    if r.free_symbols & set(ys):
+        return []
+    f = sp.Function("f")
+    try:
+        solution = sp.pdsolve(sp.Eq(r * f(a, b).diff(a) - f(a, b).diff(b), 0), f(a, b))
+    except (NotImplementedError, ValueError, TypeError):
+        return []
+    rhs = solution.rhs
+    if isinstance(rhs, sp.core.function.AppliedUndef) and len(rhs.args) == 1:
+        return [_normalised(rhs.args[0], xs)]
+    return []
