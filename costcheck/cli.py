@@ -183,6 +183,9 @@ def _cmd_show(args, out: Console) -> int:
         "cost_minimised": str(cost.expr),
         "domain": domain, "derivative_sizes": sizes,
         "expect": dict(cost.expect), "source": cost.source,
+        "data": None if cost.data is None else {
+            role: side.describe() for role, side in (("source", cost.data.source), ("target", cost.data.target))
+            if side is not None},
     }
     if args.json:
         print(json.dumps(info, indent=2, ensure_ascii=False))
@@ -201,6 +204,8 @@ def _cmd_show(args, out: Console) -> int:
     out.print("derivatives (entries, sympy operations):")
     for name, s in sizes.items():
         out.print(f"  {name:6s} {s['entries']:4d} entries, {s['operations']} operations")
+    for role, text in (info["data"] or {}).items():
+        out.print(f"data {role}: {text}", markup=False)
     if cost.expect:
         out.print("expected: " + ", ".join(f"{k}: {v}" for k, v in cost.expect.items()))
     if cost.source:

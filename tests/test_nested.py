@@ -270,3 +270,21 @@ def test_index_is_found_by_integrating_the_direction_field():
     v = run_checks(cost, conditions=["index_form"], budget=256).verdicts["index_form"]
     assert (v.verdict, v.evidence.kind, v.evidence.details["index"]) == ("holds", "proved", "x1 + x2**2")
     assert v.evidence.details["direction_field"] == ["1", "2*x2"]
+
+
+def test_levels_report_both_ends_where_the_source_has_a_gap():
+    # The definition of k± (Chiappori–McCann–Pass 2017): with mass 1/2 below 0.2 and above 0.7,
+    # F(k) = 1/2 on [0.2, 0.7), so k-(1/2) = 0.2 and k+(1/2) = 0.7; elsewhere they agree.
+    from costcheck.nested.levels import quantile_interval, sorted_masses
+
+    values, cum = sorted_masses(np.array([[0.8, 0.1, 0.7, 0.2]] * 2), np.full(4, 0.25))
+    k_minus, k_plus = quantile_interval(values, cum, np.array([0.5, 0.6]))
+    assert list(k_minus) == [0.2, 0.7] and list(k_plus) == [0.7, 0.7]
+
+
+def test_csv_header_is_checked_when_the_file_is_loaded(tmp_path):
+    (tmp_path / "w.csv").write_text("x1,skill\n0.1,0.2\n")
+    (tmp_path / "m.yaml").write_text("id: m\nx: [x1, x2]\ny: [y]\nexpr: x1*y\ndomain: {x: {box: [[0, 1], [0, 1]]}, "
+                                     "y: {box: [[0, 1]]}}\ndata: {source: {points: w.csv}}\n")
+    with pytest.raises(CostFileError, match="unknown column 'skill'"):
+        costcheck.load(tmp_path / "m.yaml")

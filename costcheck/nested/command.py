@@ -12,10 +12,10 @@ from .analysis import analyse, map_at
 from .map import write_json, write_levels_csv, write_map_csv
 
 
-def _side_from_option(role: str, path: str | None, option: str):
+def _side_from_option(role: str, path: str | None, option: str, names):
     if path is None:
         return None
-    return data_mod.points_side(role, Path(path), None, option)
+    return data_mod.points_side(role, Path(path), None, option, names)
 
 
 def run(args) -> tuple[dict, object, list[str]]:
@@ -23,8 +23,8 @@ def run(args) -> tuple[dict, object, list[str]]:
     from ..loader import load_cost
 
     cost = load_cost(args.file)
-    source = _side_from_option("source", args.source, "--source")
-    target = _side_from_option("target", args.target, "--target")
+    source = _side_from_option("source", args.source, "--source", cost.x_names)
+    target = _side_from_option("target", args.target, "--target", cost.y_names)
     result = analyse(cost, source, target, levels=args.levels)
     verdict = result.verdict
     check = verdict.to_json(cost.x_names, cost.y_names)

@@ -93,7 +93,8 @@ def parse_data_spec(raw: Mapping, x_symbols: Sequence[sp.Symbol], y_symbols: Seq
             sides[role] = density_side(role, entry["density"], symbols, constants, file, f"{field}.density")
         else:
             base = Path(file).parent if file else Path.cwd()
-            sides[role] = points_side(role, base / entry["points"], file, f"{field}.points")
+            names = [str(v) for v in symbols]
+            sides[role] = points_side(role, base / entry["points"], file, f"{field}.points", names)
     return DataSpec(sides.get("source"), sides.get("target"), str(raw.get("notes", "")))
 
 
@@ -112,10 +113,35 @@ def density_side(role: str, text, symbols: Sequence[sp.Symbol], constants: Mappi
     return SideSpec(role, "density", density=expr, written=str(text), origin=field)
 
 
-def points_side(role: str, path: Path, file: str | None, field: str) -> SideSpec:
+def points_side(role: str, path: Path, file: str | None, field: str, names: Sequence[str] | None = None) -> SideSpec:
+    """A CSV side; its header is checked now (cheap), its rows when the points are needed."""
     if not path.is_file():
         raise CostFileError(f"no such CSV file: {path}", file=file, field=field)
+    if names is not None:
+        try:
+            with path.open(newline="", encoding="utf-8") as handle:
+                header = next(csv.reader(handle), [])
+        except (UnicodeDecodeError, csv.Error) as exc:
+            raise CostFileError(f"unreadable CSV ({exc})", file=str(path)) from None
+        _check_header([h.strip() for h in header], names, str(path))
     return SideSpec(role, "points", path=path, written=str(path), origin=field)
+
+
+def _check_header(header: list[str], names: Sequence[str], label: str) -> None:
+    if not header:
+        raise CostFileError("the CSV file is empty; its first line must name the columns "
+                            f"({', '.join(names)} and optionally {WEIGHT_COLUMN})", file=label)
+    allowed = list(names) + [WEIGHT_COLUMN]
+    for col in header:
+        if col not in allowed:
+            raise CostFileError(f"row 1: unknown column '{col}'; the columns must be {', '.join(names)} and "
+                                f"optionally {WEIGHT_COLUMN}", file=label)
+    if len(set(header)) != len(header):
+        raise CostFileError("row 1: a column is named twice", file=label)
+    missing = [n for n in names if n not in header]
+    if missing:
+        raise CostFileError(f"row 1: the column '{missing[0]}' is missing (columns needed: {', '.join(names)})",
+                            file=label)
 
 
 # --------------------------------------------------------------------------- measures
@@ -137,21 +163,8 @@ def read_points(path: Path, names: Sequence[str]) -> tuple[np.ndarray, np.ndarra
         raise CostFileError("not UTF-8 text", file=label) from None
     except csv.Error as exc:
         raise CostFileError(f"unreadable CSV ({exc})", file=label) from None
-    if not rows:
-        raise CostFileError("the CSV file is empty; its first line must name the columns "
-                            f"({', '.join(names)} and optionally {WEIGHT_COLUMN})", file=label)
-    header = [h.strip() for h in rows[0]]
-    allowed = list(names) + [WEIGHT_COLUMN]
-    for col in header:
-        if col not in allowed:
-            raise CostFileError(f"row 1: unknown column '{col}'; the columns must be {', '.join(names)} and "
-                                f"optionally {WEIGHT_COLUMN}", file=label)
-    if len(set(header)) != len(header):
-        raise CostFileError("row 1: a column is named twice", file=label)
-    missing = [n for n in names if n not in header]
-    if missing:
-        raise CostFileError(f"row 1: the column '{missing[0]}' is missing (columns needed: {', '.join(names)})",
-                            file=label)
+    header = [h.strip() for h in rows[0]] if rows else []
+    _check_header(header, names, label)
     body = rows[1:]
     if len(body) > MAX_CSV_ROWS:
         raise CostFileError(f"{len(body)} data rows; at most {MAX_CSV_ROWS} are read", file=label)
