@@ -219,6 +219,7 @@ def test_cli_demo_end_to_end(tmp_path):
     check = doc["checks"]["nested"]
     assert {"verdict", "code", "evidence", "value", "witness", "notes", "summary"} <= set(check)
     assert check["verdict"] == "holds" and check["code"] == "J950"
+    assert len(doc["levels"]["k"]) == len(doc["levels"]["rung"]) > 40
     low, high = doc["at"]["values"]
     assert low["rung"] < high["rung"]  # a more skilled worker gets a higher rung
     assert (out / "levels.csv").read_text().splitlines()[0].startswith("rung,G,k")

@@ -32,6 +32,11 @@ def run(args) -> tuple[dict, object, list[str]]:
     check["seconds"] = {k: round(v, 4) for k, v in result.seconds.items()}
     document = {"tool": "costcheck", "version": __version__, "id": cost.id, "file": cost.file, "n": cost.n,
                 "m": cost.m, "sense": cost.sense, "checks": {"nested": check}}
+    lv = result.levels
+    if lv is not None:
+        document["levels"] = {cost.y_names[0]: lv.ys.tolist(), "G": lv.G.tolist(), "k": lv.k.tolist(),
+                              "k_minus": lv.k_minus.tolist(), "k_plus": lv.k_plus.tolist(),
+                              "k_lo": lv.k_lo.tolist(), "k_hi": lv.k_hi.tolist()}
     at_values = None
     if args.at:
         points, _ = data_mod.read_points(Path(args.at), cost.x_names)
