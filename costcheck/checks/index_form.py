@@ -104,7 +104,7 @@ def check(ctx) -> Verdict:
     if n <= m:
         return not_applicable(CONDITION, f"index form is a question for n > m (here n = {n}, m = {m}): for n = m "
                                          "the kernel of D²_xy cᵀ is {0} wherever it is invertible")
-    nx, K = 96, 12
+    nx, K = int(np.clip(ctx.budget // 32, 32, 256)), 12
     xs = sample_side(cost.domain, "x", n, nx, ctx.seed + 11)
     ypool = sample_side(cost.domain, "y", m, K, ctx.seed + 12)
     nx, K = xs.shape[0], ypool.shape[0]

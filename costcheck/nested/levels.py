@@ -2,8 +2,9 @@
 
 With the source as weighted points (data points, or quadrature nodes of a density), the mass
 ``F_y(k) = μ({x : ∂s/∂y(x, y) ≤ k})`` is a step function of ``k``: sorting ``∂s/∂y(x_i, y)``
-and accumulating the weights gives it exactly, and the root of ``F_y(k) = t`` is found by a
-binary search on the accumulated weights (``k-(t) = inf{k : F ≥ t}``,
+and accumulating the weights gives it exactly, and the root of ``F_y(k) = t`` is read off the
+monotone accumulated weights (the number of them below ``t``, which is what a bisection would
+find; ``k-(t) = inf{k : F ≥ t}``,
 ``k+(t) = sup{k : F ≤ t}``; the two differ exactly where the source has a gap).  One sort per
 grid value of ``y``, all in numpy.
 
