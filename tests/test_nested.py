@@ -63,7 +63,7 @@ def test_one_dimensional_supermodular_surplus_gives_monotone_rearrangement(f_tex
     q = np.linspace(xbox[0][0] + 0.02, xbox[0][1] - 0.02, 41)[:, None]
     T, clamped = map_at(result, q)
     assert clamped == 0
-    # tolerance: the map interpolates between 96 levels and the quadrature has 40 000 nodes
+    # tolerance: the map interpolates between 96 levels and the quadrature has 4096 nodes
     assert np.max(np.abs(T - exact(q[:, 0]))) < 3e-3
 
 
@@ -89,10 +89,10 @@ def test_index_form_costs_are_nested_for_any_data_and_map_through_the_index(tmp_
     G_T = np.searchsorted(np.sort(Y[:, 0]), result.map_on_source, side="right") / 2000
     # in quantile units, the map may be off by the levels' step (1/96) plus the target's atoms (1/2000)
     assert np.max(np.abs(G_T - F_I)) < 0.02
-    # and the index-form condition finds the index symbolically (an exact identity)
-    verdict = run_checks(cost, conditions=["index_form"], budget=256).verdicts["index_form"]
-    assert (verdict.verdict, verdict.code, verdict.evidence.kind) == ("holds", "I900", "proved")
-    assert verdict.evidence.details["index"] == "x1 + x2**2"
+    if seed == 0:  # and the index-form condition finds the index symbolically (an exact identity)
+        verdict = run_checks(cost, conditions=["index_form"], budget=256).verdicts["index_form"]
+        assert (verdict.verdict, verdict.code, verdict.evidence.kind) == ("holds", "I900", "proved")
+        assert verdict.evidence.details["index"] == "x1 + x2**2"
 
 
 def test_index_form_fails_with_a_witness_when_the_kernel_turns():

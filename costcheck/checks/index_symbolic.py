@@ -84,7 +84,8 @@ def find_index(expr: sp.Expr, xs: Sequence[sp.Symbol], ys: Sequence[sp.Symbol], 
         J = sp.Matrix(n, 1, lambda i, k: sp.diff(candidate, xs[i]))
         if _spans(J, M, symbols):
             found.append((sp.count_ops(candidate), [candidate], None))
-    for y0 in y0s:
+    # the characteristic is the plain index when it verifies; frozen derivatives are then not needed
+    for y0 in ([] if found else y0s):
         sub = dict(zip(ys, y0))
         try:
             index = [_normalised(c.xreplace(sub), xs) for c in cy]

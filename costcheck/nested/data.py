@@ -28,6 +28,8 @@ from ..expression import parse_expression
 QUADRATURE_NODES = 40_000
 #: nodes of the cumulative integral of a one-dimensional target density
 TARGET_NODES = 4097
+#: a one-dimensional source needs no more than this (the midpoint rule's error is one cell's mass)
+MAX_NODES_PER_AXIS = 4096
 MAX_CSV_BYTES = 64 * 1024 * 1024
 MAX_CSV_ROWS = 2_000_000
 WEIGHT_COLUMN = "weight"
@@ -236,7 +238,7 @@ def density_measure(side: SideSpec, symbols: Sequence[sp.Symbol], region, contai
     """Midpoint-rule nodes on the region's bounding box, weighted by the density, masked by the domain."""
     lo, hi = region.bounds()
     dim = lo.shape[0]
-    per_axis = max(8, int(round(nodes_total ** (1.0 / dim))))
+    per_axis = int(np.clip(round(nodes_total ** (1.0 / dim)), 8, MAX_NODES_PER_AXIS))
     cell = (hi - lo) / per_axis
     axes = [lo[k] + (np.arange(per_axis) + 0.5) * cell[k] for k in range(dim)]
     nodes = np.stack([g.ravel() for g in np.meshgrid(*axes, indexing="ij")], axis=1)
