@@ -289,3 +289,12 @@ def test_csv_header_is_checked_when_the_file_is_loaded(tmp_path):
                                      "y: {box: [[0, 1]]}}\ndata: {source: {points: w.csv}}\n")
     with pytest.raises(CostFileError, match="unknown column 'skill'"):
         costcheck.load(tmp_path / "m.yaml")
+
+
+def test_index_with_two_components_for_n_three_m_two():
+    # c = -(y1·(x1 + x2) + y2·x3 + y1²·y2) = b(I(x), y) with I = (x1 + x2, x3) (the index form of
+    # Chiappori–McCann–Pass 2017 / Pass 2012 with m = 2); D_y c at a frozen y0 recovers I exactly.
+    cost = costcheck.from_expression("-(y1*(x1+x2) + y2*x3 + y1**2*y2)", x=["x1", "x2", "x3"], y=["y1", "y2"],
+                                     domain={"x": {"box": [[0, 1]] * 3}, "y": {"box": [[0, 1]] * 2}})
+    v = run_checks(cost, conditions=["index_form"], budget=256).verdicts["index_form"]
+    assert (v.verdict, v.evidence.kind, v.evidence.details["index"]) == ("holds", "proved", ["x1 + x2", "x3"])
