@@ -139,7 +139,7 @@ def test_map_total_surplus_matches_a_discrete_optimal_transport_solve(tmp_path):
     # tolerance of the levels (96 levels: T#μ is within ~1/96 of ν in Kolmogorov distance, which
     # moves the mean surplus by well under 1 %).  Ranking the points by T and assigning the sorted
     # targets gives a permutation, which must be optimal to rounding if the model is nested.
-    ot = pytest.importorskip("ot")
+    import ot  # POT is in the 'test' extra: a missing install fails here rather than skipping
     rng = np.random.default_rng(5)
     N = 400
     X = rng.uniform(0, 1, size=(N, 2))
@@ -188,6 +188,13 @@ def test_rotating_half_planes_are_not_nested_and_the_witness_rechecks(tmp_path):
     assert below_y < y / 3 and strictly_below_yp > yp / 3
     assert v.evidence.details["first_break_y_prime"] <= yp
     assert result.map_on_source is None and result.summary["map"] is None
+    # the pictures mark the witness and say the verdict (drawn through the shared save path)
+    from costcheck.plots.nested import nested_figures
+
+    figures = nested_figures(result, tmp_path / "plots")
+    assert [f.kind for f in figures] == ["nested-level-curves", "nested-levels"]
+    assert all(f.png.is_file() and f.svg.is_file() for f in figures)
+    assert "fails" in figures[0].caption and "x1" in (tmp_path / "plots" / figures[0].svg.name).read_text()
 
 
 def test_ten_thousand_source_points_decide(tmp_path):
