@@ -50,8 +50,10 @@ def level_curves_figure(result, directory: Path) -> Figure | None:
     pts = result.source.points
     if pts.shape[0] > 3000:
         pts = pts[np.random.default_rng(0).choice(pts.shape[0], 3000, replace=False)]
-    ax.scatter(pts[:, 0], pts[:, 1], s=1.5, color="#c8c8c8", zorder=0, label="source (sample)")
-    cmap = plt.get_cmap("viridis")
+    ax.scatter(pts[:, 0], pts[:, 1], s=1.5, color="#dadada", zorder=0, label="source (sample)")
+    # viridis up to 85 %: lightness still rises with y, and the lightest curve stays visible in grey
+    from matplotlib.colors import ListedColormap
+    cmap = ListedColormap(plt.get_cmap("viridis")(np.linspace(0.0, 0.85, 256)))
     ymin, ymax = float(lv.ys[fan[0]]), float(lv.ys[fan[-1]])
     for r, j in enumerate(fan):
         colour = cmap((lv.ys[j] - ymin) / (ymax - ymin) if ymax > ymin else 0.5)
