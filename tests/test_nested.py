@@ -305,3 +305,11 @@ def test_index_with_two_components_for_n_three_m_two():
                                      domain={"x": {"box": [[0, 1]] * 3}, "y": {"box": [[0, 1]] * 2}})
     v = run_checks(cost, conditions=["index_form"], budget=256).verdicts["index_form"]
     assert (v.verdict, v.evidence.kind, v.evidence.details["index"]) == ("holds", "proved", ["x1 + x2", "x3"])
+
+
+def test_points_outside_the_domain_are_refused_with_their_row(tmp_path):
+    cost = surplus("x1*y", ["x1", "x2"], ["y"], [[0, 1], [0, 1]], [[0, 1]])
+    (y,) = cost.y_symbols
+    source = points(tmp_path, "source", ["x1", "x2"], [[0.1, 0.2], [0.3, 1.5]])
+    with pytest.raises(CostFileError, match=r"row 3: the point \(x1=0.3, x2=1.5\) lies outside"):
+        analyse(cost, source, density("target", "1", [y]))

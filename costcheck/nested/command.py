@@ -39,7 +39,7 @@ def run(args) -> tuple[dict, object, list[str]]:
                               "k_lo": lv.k_lo.tolist(), "k_hi": lv.k_hi.tolist()}
     at_values = None
     if args.at:
-        points, _ = data_mod.read_points(Path(args.at), cost.x_names)
+        points, _, _ = data_mod.read_points(Path(args.at), cost.x_names)
         T, clamped = map_at(result, points)
         at_values = (points, T)
         document["at"] = {"file": args.at, "points": int(points.shape[0]), "clamped_points": clamped,

@@ -149,8 +149,8 @@ def _check_header(header: list[str], names: Sequence[str], label: str) -> None:
 # --------------------------------------------------------------------------- measures
 
 
-def read_points(path: Path, names: Sequence[str]) -> tuple[np.ndarray, np.ndarray]:
-    """Coordinates and raw weights from a CSV whose header is ``names`` plus optional ``weight``."""
+def read_points(path: Path, names: Sequence[str]) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
+    """Coordinates, raw weights and CSV row numbers from a file whose header is ``names`` plus optional ``weight``."""
     label = str(path)
     try:
         size = path.stat().st_size
@@ -174,6 +174,7 @@ def read_points(path: Path, names: Sequence[str]) -> tuple[np.ndarray, np.ndarra
     wcol = header.index(WEIGHT_COLUMN) if WEIGHT_COLUMN in header else None
     coords = np.empty((len(body), len(names)))
     weights = np.ones(len(body))
+    line = np.zeros(len(body), dtype=int)
     kept = 0
     for r, row in enumerate(body, start=2):
         if not row or all(not cell.strip() for cell in row):
@@ -187,13 +188,14 @@ def read_points(path: Path, names: Sequence[str]) -> tuple[np.ndarray, np.ndarra
             if w < 0:
                 raise CostFileError(f"row {r}, column '{WEIGHT_COLUMN}': negative weight {w:g}", file=label)
             weights[kept] = w
+        line[kept] = r
         kept += 1
     if kept == 0:
         raise CostFileError("no data rows after the header", file=label)
     coords, weights = coords[:kept], weights[:kept]
     if not weights.sum() > 0:
         raise CostFileError(f"the weights sum to zero (column '{WEIGHT_COLUMN}')", file=label)
-    return coords, weights
+    return coords, weights, line[:kept]
 
 
 def _number(cell: str, label: str, row: int, column: str) -> float:
@@ -207,13 +209,13 @@ def _number(cell: str, label: str, row: int, column: str) -> float:
 
 
 def points_measure(side: SideSpec, names: Sequence[str], contains) -> Measure:
-    coords, weights = read_points(side.path, names)
+    coords, weights, line = read_points(side.path, names)
     inside = contains(coords)
     if not inside.all():
         r = int(np.flatnonzero(~inside)[0])
-        raise CostFileError(f"a data row ({', '.join(f'{n}={v:g}' for n, v in zip(names, coords[r]))}) lies outside "
-                            f"the {side.role}'s domain declared in the cost file; widen the domain or drop the row",
-                            file=str(side.path))
+        raise CostFileError(f"row {line[r]}: the point ({', '.join(f'{n}={v:g}' for n, v in zip(names, coords[r]))}) "
+                            f"lies outside the {side.role}'s domain declared in the cost file; widen the domain or "
+                            "drop the row", file=str(side.path))
     return Measure(coords, weights / weights.sum(), "points",
                    f"{coords.shape[0]} weighted points from {side.path}")
 
