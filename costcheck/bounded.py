@@ -23,6 +23,8 @@ def run_with_time_limit(fn: Callable, args: tuple, seconds: float) -> tuple[str,
     """``("ok", result)``, ``("error", text)`` or ``("timeout", None)``; ``result`` must pickle."""
     if seconds <= 0:
         return "timeout", None
+    # fork, as symbolic_tensor does: a fork server or spawn would re-import the caller's main module
+    # (breaking scripts without a main guard); the child runs only sympy, never JAX
     ctx = multiprocessing.get_context("fork")
     out = ctx.Queue()
     proc = ctx.Process(target=_worker, args=(fn, args, out), daemon=True)
