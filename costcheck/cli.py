@@ -104,6 +104,22 @@ def _build_parser() -> argparse.ArgumentParser:
                        help="bisect verdict boundaries to this width (default 1e-3)")
     sweep.add_argument("--no-bisect", action="store_true", help="report grid changes only, no bisection")
     sweep.add_argument("--plots", metavar="DIR", default=None, help="write PNG and SVG pictures into DIR")
+
+    from .nested.analysis import DEFAULT_LEVELS
+    nested = sub.add_parser("nested", help="decide nestedness of a model with a one-dimensional target (m = 1) "
+                            "on its data, and build the matching map")
+    nested.add_argument("file", metavar="FILE")
+    nested.add_argument("--source", metavar="CSV", default=None,
+                        help="weighted source points (columns: the x names, optional weight) instead of the file's data")
+    nested.add_argument("--target", metavar="CSV", default=None,
+                        help="weighted target points (columns: the y name, optional weight) instead of the file's data")
+    nested.add_argument("--at", metavar="CSV", default=None, help="evaluate the map T at the points of this CSV")
+    nested.add_argument("--levels", type=_positive_int, default=DEFAULT_LEVELS,
+                        help=f"levels of y on which k(y) is computed (default {DEFAULT_LEVELS})")
+    nested.add_argument("--out", metavar="DIR", default=None,
+                        help="write nested.json, levels.csv (k(y)) and the map as CSV into DIR")
+    nested.add_argument("--json", action="store_true", help="print one JSON document instead of text")
+    nested.add_argument("--plots", metavar="DIR", default=None, help="write PNG and SVG pictures into DIR")
     return parser
 
 
@@ -189,6 +205,9 @@ def _cmd_show(args, out: Console) -> int:
         "cost_minimised": str(cost.expr),
         "domain": domain, "derivative_sizes": sizes,
         "expect": dict(cost.expect), "source": cost.source,
+        "data": None if cost.data is None else {
+            role: side.describe() for role, side in (("source", cost.data.source), ("target", cost.data.target))
+            if side is not None},
     }
     if args.json:
         print(json.dumps(info, indent=2, ensure_ascii=False))
@@ -207,6 +226,8 @@ def _cmd_show(args, out: Console) -> int:
     out.print("derivatives (entries, sympy operations):")
     for name, s in sizes.items():
         out.print(f"  {name:6s} {s['entries']:4d} entries, {s['operations']} operations")
+    for role, text in (info["data"] or {}).items():
+        out.print(f"data {role}: {text}", markup=False)
     if cost.expect:
         out.print("expected: " + ", ".join(f"{k}: {v}" for k, v in cost.expect.items()))
     if cost.source:
@@ -286,6 +307,17 @@ def _cmd_sweep(args, out: Console, err: Console) -> int:
     return EXIT_OK
 
 
+def _cmd_nested(args, out: Console) -> int:
+    from .nested import command
+
+    document, result, _ = command.run(args)
+    if args.json:
+        print(json.dumps(document, indent=2, ensure_ascii=False))
+    else:
+        command.render(out, document, result)
+    return document["exit_code"]
+
+
 def _error(problem) -> None:
     """One line on stderr (never wrapped, never a traceback)."""
     text = " ".join(str(problem).split())
@@ -311,6 +343,8 @@ def main(argv: Sequence[str] | None = None) -> int:
             return _cmd_tensor(args, out)
         if args.command == "sweep":
             return _cmd_sweep(args, out, err)
+        if args.command == "nested":
+            return _cmd_nested(args, out)
     except CostcheckError as exc:
         _error(exc)
         return EXIT_BAD_INPUT

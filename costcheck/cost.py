@@ -34,6 +34,8 @@ class Cost:
     source: str | None = None
     file: str | None = None
     raw: Mapping | None = field(default=None, repr=False, compare=False)
+    #: the two distributions of a matching model (``data:``), a :class:`costcheck.nested.data.DataSpec`
+    data: object | None = field(default=None, repr=False, compare=False)
 
     @property
     def n(self) -> int:

@@ -105,6 +105,10 @@ def validate_shape(data: Any, file: str | None = None) -> None:
         message = error.message.replace("is a required property", "is missing (it is required)")
     elif error.validator in ("minProperties", "maxProperties") and path and path[-1] in ("x", "y"):
         message = "give exactly one of 'box' or 'ball'"
+    elif error.validator in ("minProperties", "maxProperties") and path[:1] == ["data"] and len(path) == 2:
+        message = "give exactly one of 'density' or 'points'"
+    elif error.validator == "pattern" and path[:1] == ["data"] and path[-1] == "points":
+        message = f"{error.instance!r} must name a .csv file"
     elif error.validator == "pattern" and path and path[0] in ("x", "y", "params", "define"):
         message = f"{error.instance!r} is not a valid name (letters, digits and _, not starting with a digit)"
     elif error.validator == "propertyNames":
@@ -276,6 +280,12 @@ def build_cost(data: Mapping, file: str | None = None, *, param_overrides: Mappi
                 raise CostFileError(f"the constraint {text!r} mentions no coordinate", file=file, field=f"domain.pairs[{i}]")
             pairs.append(Constraint.build(ineq, x_syms + y_syms))
 
+    spec = None
+    if data.get("data"):
+        from .nested.data import parse_data_spec
+
+        spec = parse_data_spec(data["data"], x_syms, y_syms, constants, file)
+
     return Cost(
         id=data["id"],
         title=data.get("title", ""),
@@ -290,6 +300,7 @@ def build_cost(data: Mapping, file: str | None = None, *, param_overrides: Mappi
         source=data.get("source"),
         file=file,
         raw=data,
+        data=spec,
     )
 
 

@@ -16,6 +16,8 @@ VERDICT_WORDS: dict[str, list[str]] = {
     "nondegenerate": ["holds", "fails"],
     "mtw": ["strong", "weak", "fails"],
     "nncc": ["holds", "fails"],
+    "index_form": ["holds", "fails", "not-applicable"],
+    "nested": ["holds", "fails", "not-applicable"],
 }
 
 _number_or_expression = {
@@ -57,6 +59,19 @@ SIDE_DOMAIN_SCHEMA = _side_domain = {
 
 _constraints = {"type": "array", "items": {"type": "string", "minLength": 1}}
 
+DATA_SIDE_SCHEMA = _data_side = {
+    "type": "object",
+    "description": "exactly one of: density (an expression in this side's coordinate names, on its domain) or "
+                   "points (a CSV file, path relative to the cost file: a column per coordinate, optional 'weight')",
+    "properties": {
+        "density": _number_or_expression,
+        "points": {"type": "string", "minLength": 1, "pattern": r"\.csv$"},
+    },
+    "minProperties": 1,
+    "maxProperties": 1,
+    "additionalProperties": False,
+}
+
 COST_FILE_SCHEMA: dict = {
     "$schema": "https://json-schema.org/draft/2020-12/schema",
     "title": "costcheck cost file",
@@ -97,6 +112,13 @@ COST_FILE_SCHEMA: dict = {
             "type": "object",
             "additionalProperties": False,
             "properties": {name: {"enum": words} for name, words in VERDICT_WORDS.items()},
+        },
+        "data": {
+            "type": "object",
+            "description": "the two distributions of a matching model (source on X, target on Y), for nestedness",
+            "additionalProperties": False,
+            "minProperties": 1,
+            "properties": {"source": _data_side, "target": _data_side, "notes": {"type": "string"}},
         },
         "source": {"type": "string"},
         "notes": {"type": "string"},

@@ -39,6 +39,14 @@ CODES: dict[tuple[str, str], str] = {
     ("nncc", "fails"): "K401",
     ("nncc", "not-applicable"): "K408",
     ("nncc", "undecided"): "K409",
+    ("index_form", "holds"): "I900",
+    ("index_form", "fails"): "I901",
+    ("index_form", "not-applicable"): "I908",
+    ("index_form", "undecided"): "I909",
+    ("nested", "holds"): "J950",
+    ("nested", "fails"): "J951",
+    ("nested", "not-applicable"): "J958",
+    ("nested", "undecided"): "J959",
 }
 
 

@@ -8,7 +8,11 @@ quantities are the reference's definitions (``shared/reference/conditions.md``):
 - twist: ``D_x c(x, y) = D_x c(x, y')`` with ``y != y'``;
 - non-degeneracy: ``det D²_xy c(x, y) = 0``;
 - MTW / NNCC: ``S(ξ, η) = Σ T_ijkl ξ_i ξ_j η'_k η'_l < 0``, ``η' = M⁻¹ η``
-  (Ma–Trudinger–Wang 2005; Kim–McCann 2010), with ``ξ · η = 0`` for MTW.
+  (Ma–Trudinger–Wang 2005; Kim–McCann 2010), with ``ξ · η = 0`` for MTW;
+- index form (n > m): the range of ``D²_xy c(x, y')`` is not inside that of ``D²_xy c(x, y)``;
+- nestedness (m = 1, with data): ``y < y'``, at most ``ν((-∞, y])`` of the source has
+  ``∂s/∂y(·, y) ≤ ∂s/∂y(x, y)`` and at least ``ν((-∞, y'])`` has ``∂s/∂y(·, y') < ∂s/∂y(x, y')``
+  (Chiappori–McCann–Pass 2017), counted on the file's data with ``s = -c`` lambdified here.
 """
 
 from __future__ import annotations
@@ -125,6 +129,15 @@ def test_failing_witness_reevaluated(path, condition):
         else:
             singular = min(sp.Matrix(Mv.T * Mv).eigenvals(multiple=True), key=lambda v: abs(v))
             assert abs(singular) <= 1e-8 * scale**2
+    elif condition == "index_form":
+        M = _mixed(cost)
+        A = M.subs(dict(zip(cost.x_symbols, exact(w.x))) | dict(zip(cost.y_symbols, exact(w.y)))).evalf(DIGITS)
+        B = M.subs(dict(zip(cost.x_symbols, exact(w.x))) | dict(zip(cost.y_symbols, exact(w.vectors["y_prime"])))
+                   ).evalf(DIGITS)
+        outside = B - A * (A.T * A).inv() * A.T * B  # the part of range B outside range A
+        assert float(outside.norm() / B.norm()) > 1e-8
+    elif condition == "nested":
+        _check_nested_witness(cost, w)
     else:
         xi, eta = w.vectors["xi"], w.vectors["eta"]
         if condition == "mtw":
@@ -132,3 +145,20 @@ def test_failing_witness_reevaluated(path, condition):
             assert abs(dot) < 1e-8, "MTW witnesses need ξ · η = 0"
         s = _s_value(cost, w.x, w.y, xi, eta)
         assert s < 0, f"S(ξ, η) = {s} at the witness should be negative"
+
+
+def _check_nested_witness(cost, w):
+    from costcheck.nested.analysis import source_measure, target_distribution
+
+    (y_sym,) = cost.y_symbols
+    phi = sp.lambdify(list(cost.x_symbols) + [y_sym], -sp.diff(cost.expr, y_sym), modules="numpy")
+    source = source_measure(cost, cost.data.source)
+    target = target_distribution(cost, cost.data.target)
+    y, yp = float(w.y[0]), float(w.vectors["y_prime"][0])
+    assert y < yp
+    at = lambda pts, t: np.broadcast_to(phi(*pts.T, t), pts.shape[:1])  # noqa: E731
+    x = np.array([w.x], dtype=float)
+    inside = np.sum(source.weights[at(source.points, y) <= at(x, y)[0]])
+    strictly_below = np.sum(source.weights[at(source.points, yp) < at(x, yp)[0]])
+    assert inside <= target.G(np.array([y]))[0], "x must lie in X≤(y, k+(y))"
+    assert strictly_below >= target.G(np.array([yp]))[0], "x must lie outside X<(y', k-(y'))"

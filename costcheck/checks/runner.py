@@ -23,6 +23,8 @@ CONDITION_MODULES: dict[str, str] = {
     "twist": "twist",
     "mtw": "mtw",
     "nncc": "nncc",
+    "index_form": "index_form",
+    "nested": "nested",
 }
 
 DEFAULT_SEED = 20261201
