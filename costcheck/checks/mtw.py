@@ -242,7 +242,8 @@ def skipped_notes(s: Search) -> list[str]:
     return notes
 
 
-SCALE_TEXT = ("S(ξ, η) / (scale · |M⁻¹|₂²) with unit ξ and covector η, where "
+SCALE_TEXT = ("S(ξ, η) / (scale · |M⁻¹η|²) with unit ξ and covector η (T on the unit vectors ξ and "
+              "M⁻¹η/|M⁻¹η|), where "
               "scale = |c_{ij,r} c^{r,s} c_{s,kl}|_F + |c_{ij,kl}|_F (the two terms whose difference is T); "
               "it lies in [-1, 1]")
 

@@ -331,24 +331,36 @@ def form_min(G, xi, orthogonal: bool, exact: bool = False, vectors: bool = True)
 # --------------------------------------------------------------------------- margins
 
 def _prepare(derivs, need_g: bool = True):
-    """``(T, inv, G, normaliser, valid)``; at invalid pairs T, G are 0 and inv is the identity.
+    """``(T, inv, G, (scale, inv), valid)``; at invalid pairs T, G are 0 and inv is the identity.
 
     ``need_g=False`` skips ``G`` (returned as ``None``) for callers that do not use it.
     """
-    inv, inv_norm, valid = mixed_inverse(derivs.dxy)
+    inv, _, valid = mixed_inverse(derivs.dxy)
     T, scale = _tensor(derivs, inv, valid)
     valid = valid & np.isfinite(scale)
     n = inv.shape[1]
     T = np.where(valid[:, None, None, None, None], T, 0.0)
     inv = np.where(valid[:, None, None], inv, np.eye(n))
-    normaliser = np.where(valid, scale * inv_norm**2, np.nan)
-    return T, inv, (eta_form_tensor(T, inv) if need_g else None), normaliser, valid
+    scale = np.where(valid, scale, np.nan)
+    return T, inv, (eta_form_tensor(T, inv) if need_g else None), (scale, inv), valid
 
 
-def _finish(raw, xi, eta, normaliser, valid) -> Margins:
+def _finish(raw, xi, eta, normalising, valid) -> Margins:
+    """Margins with ``normaliser = scale · |M⁻¹ η|²`` at each pair's own unit ``η``.
+
+    ``S(ξ, η) / |M⁻¹η|²`` is ``T`` on the unit vectors ``ξ`` and ``η' / |η'|``: bounded by
+    ``scale`` and free of the conditioning of ``M``.  (Dividing by ``|M⁻¹|₂²`` instead makes the
+    margin vanish like ``(1 − p)³`` as the power cost degenerates at ``p = 1``, where the
+    admissible η' align with M's small direction, so a strong cost near a degenerate one read
+    as weak.)
+    """
+    scale, inv = normalising
     raw = np.where(valid, raw, np.nan)
     xi = np.where(valid[:, None], xi, np.nan)
     eta = np.where(valid[:, None], eta, np.nan)
+    with np.errstate(invalid="ignore"):
+        eta_p = np.einsum("nkl,nl->nk", inv, np.where(valid[:, None], eta, 0.0))
+        normaliser = np.where(valid, scale * np.sum(eta_p**2, axis=1), np.nan)
     return Margins(_relative(raw, normaliser), raw, xi, eta, normaliser, valid)
 
 
@@ -432,17 +444,17 @@ def a3w_margin(derivs, *, directions: int = DEFAULT_DIRECTIONS, polish: int = 20
     condition is empty (ξ^⊥ = {0}); every margin is reported as 0.
     """
     n = np.shape(derivs.dxy)[1]
-    T, inv, G, normaliser, valid = _prepare(derivs, need_g=n >= 3)  # the exact n = 2 path needs no G
+    T, inv, G, normalising, valid = _prepare(derivs, need_g=n >= 3)  # the exact n = 2 path needs no G
     N = T.shape[0]
     if n == 1:
-        return _finish(np.zeros(N), np.ones((N, 1)), np.zeros((N, 1)), normaliser, valid)
+        return _finish(np.zeros(N), np.ones((N, 1)), np.zeros((N, 1)), normalising, valid)
     if n == 2:
         raw, theta = quartic_minimum(quartic_coefficients(T, inv))
         xi = np.stack([np.cos(theta), np.sin(theta)], axis=1)
         eta = np.stack([-np.sin(theta), np.cos(theta)], axis=1)
-        return _finish(raw, xi, eta, normaliser, valid)
+        return _finish(raw, xi, eta, normalising, valid)
     raw, xi, eta = _polished_scan(G, valid, True, sphere_directions(n, directions), polish)
-    return _finish(raw, xi, eta, normaliser, valid)
+    return _finish(raw, xi, eta, normalising, valid)
 
 
 def _nncc_2d(G, grid: int = 64, iterations: int = 40):
@@ -503,24 +515,24 @@ def nncc_margin(derivs, *, directions: int = DEFAULT_DIRECTIONS, polish: int = 2
     ``n >= 3``: ``directions`` quasi-uniform ξ, then ``polish`` steps of :func:`sphere_descent`.
     ``n = 1``: ``S = T_{1111} (c^{1,1})^2``.
     """
-    T, inv, G, normaliser, valid = _prepare(derivs)
+    T, inv, G, normalising, valid = _prepare(derivs)
     N, n = T.shape[0], T.shape[1]
     if n == 1:
-        return _finish(G[:, 0, 0, 0, 0], np.ones((N, 1)), np.ones((N, 1)), normaliser, valid)
+        return _finish(G[:, 0, 0, 0, 0], np.ones((N, 1)), np.ones((N, 1)), normalising, valid)
     if n == 2:
         raw, xi, eta = _nncc_2d(G)
-        return _finish(raw, xi, eta, normaliser, valid)
+        return _finish(raw, xi, eta, normalising, valid)
     raw, xi, eta = _polished_scan(G, valid, False, sphere_directions(n, directions), polish)
-    return _finish(raw, xi, eta, normaliser, valid)
+    return _finish(raw, xi, eta, normalising, valid)
 
 
 def margin_at(derivs, xi: np.ndarray, orthogonal: bool) -> Margins:
     """Margins at given directions ξ (N, n), minimised over η only; used by joint (x, y, ξ) searches."""
-    _, _, G, normaliser, valid = _prepare(derivs)
+    _, _, G, normalising, valid = _prepare(derivs)
     xi = np.asarray(xi, dtype=float)
     xi = xi / np.linalg.norm(xi, axis=1, keepdims=True)
     lam, eta = form_min(G, xi[:, None, :], orthogonal, exact=True)
-    return _finish(lam[:, 0], xi, eta[:, 0], normaliser, valid)
+    return _finish(lam[:, 0], xi, eta[:, 0], normalising, valid)
 
 
 def form_at(derivs, xi: np.ndarray, eta: np.ndarray) -> np.ndarray:
