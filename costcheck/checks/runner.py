@@ -10,12 +10,13 @@ from __future__ import annotations
 import importlib
 import time
 from dataclasses import dataclass, field
-from typing import Callable, Sequence
+from typing import TYPE_CHECKING, Callable, Sequence
 
-from ..cost import Cost
 from ..verdict import Verdict, undecided
-from .context import CheckContext
-from .sampler import DEFAULT_BUDGET
+from .defaults import DEFAULT_BUDGET, DEFAULT_SEED  # noqa: F401 - DEFAULT_SEED re-exported
+
+if TYPE_CHECKING:  # the checks' machinery (sympy, SciPy) is imported when checks run, not before
+    from ..cost import Cost
 
 #: condition name → module under costcheck.checks
 CONDITION_MODULES: dict[str, str] = {
@@ -24,8 +25,6 @@ CONDITION_MODULES: dict[str, str] = {
     "mtw": "mtw",
     "nncc": "nncc",
 }
-
-DEFAULT_SEED = 20261201
 
 
 @dataclass(frozen=True)
@@ -37,6 +36,8 @@ class Mismatch:
 
 @dataclass
 class CostReport:
+    #: the cost checked; for a result read from the cache, a :class:`~costcheck.cache.CostHeader`
+    #: (the file's names, expectations and labels, no expression): renderers read only those
     cost: Cost
     verdicts: dict[str, Verdict]
     seconds: float
@@ -63,6 +64,8 @@ def run_checks(
     on_progress: Callable[[str], None] | None = None,
 ) -> CostReport:
     """All (or the named) condition checks of ``cost``, reproducible for a given ``seed``."""
+    from .context import CheckContext
+
     started = time.perf_counter()
     ctx = CheckContext(cost=cost, seed=seed, budget=budget, backend=backend)
     verdicts: dict[str, Verdict] = {}

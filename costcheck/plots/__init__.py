@@ -20,7 +20,9 @@ from dataclasses import dataclass
 from pathlib import Path
 
 #: "module:function" under costcheck.plots, in report order
-MAKERS: list[str] = []
+MAKERS: list[str] = [
+    "determinant:determinant_maps",
+]
 
 #: verdict → (colour, hatch); lightness rises from bad to good so grey prints stay ordered
 VERDICT_STYLE = {
