@@ -66,6 +66,8 @@ def _build_parser() -> argparse.ArgumentParser:
     check.add_argument("--json", action="store_true", help="print one JSON document instead of tables")
     check.add_argument("--junit", metavar="FILE", default=None,
                        help="also write JUnit XML to FILE: one test case per cost and condition")
+    check.add_argument("--quiet", action="store_true",
+                       help="print tables only for costs with an unmet expectation, then the summary line")
     report = sub.add_parser("report", help="write a design-review report (HTML page and Markdown) of cost files")
     report.add_argument("--out", metavar="DIR", required=True, help="folder for index.html, report.md, figures/")
     for command in (check, report):
@@ -110,7 +112,7 @@ def _build_parser() -> argparse.ArgumentParser:
 
 #: ``check`` options that only choose where results go; every other option reaches the checks
 #: and therefore the cache key (so a new option is part of the key unless listed here)
-OUTPUT_ONLY_OPTIONS = {"command", "paths", "json", "junit", "no_cache", "out"}
+OUTPUT_ONLY_OPTIONS = {"command", "paths", "json", "junit", "quiet", "no_cache", "out"}
 
 
 def _run_options(args) -> dict:
@@ -160,7 +162,11 @@ def _exit_code(result) -> int:
 def _cmd_check(args, out: Console, err: Console) -> int:
     from .render import terminal
 
-    result = _checked(args, err, on_report=None if args.json else (lambda r: terminal.render_report(out, r)))
+    def show(report):
+        if not args.json and not (args.quiet and not report.mismatches):
+            terminal.render_report(out, report)
+
+    result = _checked(args, err, on_report=show)
     if result is None:
         return EXIT_BAD_INPUT
     code = _exit_code(result)
