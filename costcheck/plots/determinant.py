@@ -69,10 +69,12 @@ def _panel(ax, grid_u, grid_v, values, names, mark, mark_label, norm):
     if not np.any(np.isfinite(values)):
         ax.text(0.5, 0.5, "M not finite on this slice", ha="center", va="center", transform=ax.transAxes)
         return None
-    image = ax.pcolormesh(grid_u, grid_v, values, cmap="RdBu", norm=norm, shading="auto")
+    # an image, not a mesh of 14 641 quads: fast to draw and a single raster inside the SVG
+    image = ax.imshow(values, cmap="RdBu", norm=norm, origin="lower", interpolation="nearest", aspect="auto",
+                      extent=(grid_u[0, 0], grid_u[0, -1], grid_v[0, 0], grid_v[-1, 0]))
     if np.nanmin(values) < 0:  # the sign is also in the hatching, so a grey print keeps it
         ax.contourf(grid_u, grid_v, np.where(np.isfinite(values), values, np.nan), levels=[-np.inf, 0.0],
-                    colors="none", hatches=["///"])
+                    colors="none", hatches=["\\\\"])
     if np.nanmin(values) < 0 < np.nanmax(values):
         ax.contour(grid_u, grid_v, values, levels=[0.0], colors="black", linewidths=1.6)
     ax.plot([mark[0]], [mark[1]], marker="o", markersize=9, markerfacecolor="white", markeredgecolor="black",
