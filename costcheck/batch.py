@@ -13,7 +13,8 @@ from dataclasses import dataclass, field
 from pathlib import Path
 from typing import Callable, ContextManager, Mapping, Sequence
 
-from .cache import CostHeader, ResultCache, cache_key
+from .cache import ResultCache, cache_key
+from .header import CostHeader
 from .checks.runner import CONDITION_MODULES, CostReport
 from .errors import CostFileError
 from .reading import read_cost_data
@@ -48,7 +49,7 @@ def check_files(
 
     ``full_costs`` makes every report carry the full :class:`~costcheck.cost.Cost` even on a
     cache hit (a design-review report needs the formula and draws from it); otherwise a hit
-    carries a :class:`~costcheck.cache.CostHeader`.  ``progress(cost_id)`` is entered around
+    carries a :class:`~costcheck.header.CostHeader`.  ``progress(cost_id)`` is entered around
     each computed (not cached) cost and yields a callback for the condition names, or ``None``.
     """
     result = BatchResult()

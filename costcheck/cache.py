@@ -35,13 +35,14 @@ import hashlib
 import json
 import os
 import tempfile
-from dataclasses import dataclass, field
+from dataclasses import dataclass
 from functools import lru_cache
 from importlib import metadata
 from pathlib import Path
 from typing import Mapping, Sequence
 
 from . import __version__
+from .header import CostHeader  # noqa: F401 - re-exported: cached reports carry one
 from .verdict import Verdict
 
 #: bump when the entry layout changes; older entries are then simply not found
@@ -49,43 +50,6 @@ ENTRY_FORMAT = 1
 
 #: distributions whose version can change a verdict (numerics, symbolic algebra, precision)
 _NUMERIC_DISTRIBUTIONS = ("sympy", "numpy", "scipy", "mpmath", "jax", "jaxlib")
-
-
-@dataclass(frozen=True)
-class CostHeader:
-    """What renderers read about a cost, for a result that comes from the cache.
-
-    It has the attributes of :class:`~costcheck.cost.Cost` that the terminal, JSON and
-    JUnit outputs use (names, labels, expectations) and none of the mathematics, which
-    is what lets a cached run skip sympy entirely.
-    """
-
-    id: str
-    x_names: tuple[str, ...]
-    y_names: tuple[str, ...]
-    title: str = ""
-    sense: str = "cost"
-    expect: Mapping[str, str] = field(default_factory=dict)
-    source: str | None = None
-    file: str | None = None
-
-    @classmethod
-    def from_data(cls, data: Mapping, file: str | None) -> "CostHeader":
-        return cls(id=data["id"], x_names=tuple(data["x"]), y_names=tuple(data["y"]), title=data.get("title", ""),
-                   sense=data.get("sense", "cost"), expect=dict(data.get("expect") or {}),
-                   source=data.get("source"), file=file)
-
-    @property
-    def n(self) -> int:
-        return len(self.x_names)
-
-    @property
-    def m(self) -> int:
-        return len(self.y_names)
-
-    @property
-    def label(self) -> str:
-        return f"{self.id} ({self.file})" if self.file else self.id
 
 
 def default_directory() -> Path:

@@ -36,7 +36,7 @@ class Mismatch:
 
 @dataclass
 class CostReport:
-    #: the cost checked; for a result read from the cache, a :class:`~costcheck.cache.CostHeader`
+    #: the cost checked; for a result read from the cache, a :class:`~costcheck.header.CostHeader`
     #: (the file's names, expectations and labels, no expression): renderers read only those
     cost: Cost
     verdicts: dict[str, Verdict]
