@@ -85,7 +85,9 @@ def referenced_files(data: Mapping) -> dict[str, str]:
 
 
 def _canonical(value) -> str:
-    return json.dumps(value, sort_keys=True, separators=(",", ":"), ensure_ascii=False, allow_nan=False)
+    # allow_nan: a file may say `.nan` or `.inf` where a number goes; the loader refuses it later,
+    # with a message naming the field, and the key must not crash first
+    return json.dumps(value, sort_keys=True, separators=(",", ":"), ensure_ascii=False, allow_nan=True)
 
 
 def cache_key(data: Mapping, options: Mapping) -> str:

@@ -180,3 +180,12 @@ def test_read_cost_data_validates_the_shape(tmp_path):
         assert type(exc).__name__ == "CostFileError" and "bogus" in str(exc)
     else:
         raise AssertionError("an unknown key passed the shape check")
+
+
+def test_a_file_the_loader_refuses_is_refused_with_the_cache_on(tmp_path, capsys):
+    # the key is computed before the loader reads meaning; a NaN parameter must still end
+    # in the loader's one-line error (exit 2), not in a crash of the key
+    path = _write(tmp_path, "nan.yaml", QUAD_1D.replace("x: [a]", "params: {p: .nan}\nx: [a]"))
+    assert main(["check", str(path), "--budget", "64"]) == 2
+    err = capsys.readouterr().err.strip().splitlines()
+    assert len(err) == 1 and "params.p" in err[0], err
