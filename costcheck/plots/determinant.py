@@ -26,6 +26,10 @@ from . import Figure, pyplot, save_figure
 
 GRID = 121
 
+#: |det M| / S^n below this is float rounding, not a sign: drawn as exactly 0 (a cost whose
+#: det M vanishes identically, such as |x - y|, would otherwise show noise of size 1e-16)
+ROUNDING = 1e-10
+
 
 def _marked_point(report):
     """The point to mark, and what it is: the witness, else the check's closest approach."""
@@ -42,7 +46,7 @@ def _marked_point(report):
     return (lo_x + hi_x) / 2, (lo_y + hi_y) / 2, "centre of the domain"
 
 
-def _scaled_det(cost, xs, ys, scale):
+def scaled_determinant(cost, xs, ys, scale):
     """``det M / S^n`` at each pair, NaN outside the domain or where ``M`` is not finite."""
     d = cost.derivatives(backend="sympy", order=2)(xs, ys)
     with np.errstate(all="ignore"):
@@ -52,23 +56,32 @@ def _scaled_det(cost, xs, ys, scale):
             sigma = np.linalg.norm(np.nan_to_num(d.dxy), ord=2, axis=(1, 2))
             scale = float(np.median(sigma[~bad])) if np.any(~bad) else 1.0
         out = det / scale**cost.n
+    out[np.abs(out) < ROUNDING] = 0.0
     out[bad] = np.nan
     return out
 
 
 def _norm(*arrays):
-    """One diverging scale centred at 0 for all panels, symmetric so equal |det| reads equally."""
+    """One diverging scale centred at 0 for all panels, symmetric so equal |det| reads equally.
+
+    Its span is the 98th percentile of |value|, not the maximum: near an excluded singular set
+    (``x = y`` for a distance) the determinant blows up, and a few such cells would wash the
+    rest of the map out.  Clipped cells take the end colours (the colour bar's arrows say so).
+    """
     from matplotlib.colors import TwoSlopeNorm
 
-    finite = np.concatenate([a[np.isfinite(a)] for a in arrays])
-    span = float(np.max(np.abs(finite))) if finite.size else 1.0
-    return TwoSlopeNorm(vmin=-(span or 1.0), vcenter=0.0, vmax=span or 1.0)
+    finite = np.abs(np.concatenate([a[np.isfinite(a)] for a in arrays]))
+    span = float(np.percentile(finite, 98)) if finite.size else 1.0
+    span = span or (float(finite.max()) if finite.size else 0.0) or 1.0
+    clipped = bool(finite.size and finite.max() > span)
+    return TwoSlopeNorm(vmin=-span, vcenter=0.0, vmax=span), clipped
 
 
 def _panel(ax, grid_u, grid_v, values, names, mark, mark_label, norm):
     if not np.any(np.isfinite(values)):
         ax.text(0.5, 0.5, "M not finite on this slice", ha="center", va="center", transform=ax.transAxes)
         return None
+    ax.set_facecolor("0.8")  # cells outside the domain are NaN, transparent: they show this grey
     # an image, not a mesh of 14 641 quads: fast to draw and a single raster inside the SVG
     image = ax.imshow(values, cmap="RdBu", norm=norm, origin="lower", interpolation="nearest", aspect="auto",
                       extent=(grid_u[0, 0], grid_u[0, -1], grid_v[0, 0], grid_v[-1, 0]))
@@ -77,11 +90,15 @@ def _panel(ax, grid_u, grid_v, values, names, mark, mark_label, norm):
                     colors="none", hatches=["\\\\"])
     if np.nanmin(values) < 0 < np.nanmax(values):
         ax.contour(grid_u, grid_v, values, levels=[0.0], colors="black", linewidths=1.6)
+    finite = values[np.isfinite(values)]
+    if np.all(finite == 0):
+        ax.text(0.5, 0.5, "det = 0 on the whole slice\n(to float precision)", ha="center", va="center",
+                transform=ax.transAxes, fontsize=11, bbox={"facecolor": "white", "edgecolor": "black"})
     ax.plot([mark[0]], [mark[1]], marker="o", markersize=9, markerfacecolor="white", markeredgecolor="black",
-            markeredgewidth=1.8, linestyle="none", label=mark_label)
+            markeredgewidth=1.8, linestyle="none", label=mark_label, clip_on=False, zorder=5)
     ax.set_xlabel(names[0])
     ax.set_ylabel(names[1])
-    ax.legend(loc="upper right", fontsize=8, framealpha=0.9)
+    ax.legend(loc="best", fontsize=8, framealpha=0.9)  # "best" keeps clear of the marked point
     return image
 
 
@@ -96,20 +113,29 @@ def determinant_maps(report, directory: Path) -> list[Figure]:
     if cost.n != cost.m or cost.n not in (1, 2) or getattr(cost, "expr", None) is None:
         return []
     plt = pyplot()
+    # thin grey hatching: it marks the sign without hiding the colours under it
+    with plt.rc_context({"hatch.linewidth": 0.5, "hatch.color": "0.3"}):
+        return _draw(report, Path(directory), plt)
+
+
+def _draw(report, directory: Path, plt) -> list[Figure]:
+    cost = report.cost
     verdict = report.verdicts.get("nondegenerate")
     scale = verdict.evidence.details.get("scale_S") if verdict is not None else None
     x0, y0, mark_label = _marked_point(report)
-    note = ("Blue: det > 0, red and hatched: det < 0, black line: det = 0; white outside the domain. "
-            "Drawn on a grid: a zero between grid points can be missed, so no contour is no proof.")
+    note = ("Blue: det > 0, red and hatched: det < 0, black line: det = 0; plain grey: outside the domain. "
+            f"Values below {ROUNDING:g} in size are drawn as 0 (float rounding cannot be told from 0 there); "
+            "colours beyond the bar's ends are clipped. Drawn on a grid: a zero between grid points can be "
+            "missed, so no contour is no proof.")
     if cost.n == 1:
         gx, gy = _grid(np.r_[cost.domain.x.bounds()[0], cost.domain.y.bounds()[0]],
                        np.r_[cost.domain.x.bounds()[1], cost.domain.y.bounds()[1]])
-        values = _scaled_det(cost, gx.reshape(-1, 1), gy.reshape(-1, 1), scale).reshape(gx.shape)
+        values = scaled_determinant(cost, gx.reshape(-1, 1), gy.reshape(-1, 1), scale).reshape(gx.shape)
         fig, ax = plt.subplots(figsize=(5.4, 4.4))
-        image = _panel(ax, gx, gy, values, (cost.x_names[0], cost.y_names[0]), (x0[0], y0[0]), mark_label,
-                       _norm(values))
+        norm, clipped = _norm(values)
+        image = _panel(ax, gx, gy, values, (cost.x_names[0], cost.y_names[0]), (x0[0], y0[0]), mark_label, norm)
         if image is not None:
-            fig.colorbar(image, ax=ax, label="c_xy / S")
+            fig.colorbar(image, ax=ax, label="c_xy / S", extend="both" if clipped else "neither")
         ax.set_title(f"{cost.id}: mixed derivative c_xy over (x, y)", fontsize=10)
         caption = (f"Scale-free mixed derivative c_xy / S of {cost.id} over the (x, y) rectangle "
                    f"(S = typical |c_xy|). {note}")
@@ -124,17 +150,17 @@ def determinant_maps(report, directory: Path) -> list[Figure]:
         xs = np.column_stack([gx1.ravel(), gx2.ravel()])
         slices.append((axes[1], gx1, gx2, xs, np.tile(y0, (len(xs), 1)), cost.x_names, x0,
                        "y fixed at (" + ", ".join(f"{n}={v:.3g}" for n, v in zip(cost.y_names, y0)) + ")"))
-        values = [_scaled_det(cost, px, py, scale).reshape(gu.shape) for _, gu, _, px, py, *_ in slices]
-        norm = _norm(*values)
+        values = [scaled_determinant(cost, px, py, scale).reshape(gu.shape) for _, gu, _, px, py, *_ in slices]
+        norm, clipped = _norm(*values)
         image = None
         for (ax, gu, gv, _, _, names, mark, title), vals in zip(slices, values):
             image = _panel(ax, gu, gv, vals, names, mark, mark_label, norm) or image
             ax.set_title(title, fontsize=10)
         if image is not None:
-            fig.colorbar(image, ax=list(axes), label="det D²_xy c / S²")
+            fig.colorbar(image, ax=list(axes), label="det D²_xy c / S²", extend="both" if clipped else "neither")
         fig.suptitle(f"{cost.id}: scale-free det D²_xy c on two slices", fontsize=11)
         caption = (f"Scale-free determinant det D²_xy c / S² of {cost.id} (S = the check's typical size of "
                    f"D²_xy c), left with x fixed and y varying, right with y fixed and x varying, through "
                    f"the marked point ({mark_label}); one colour scale, centred at 0, for both panels. {note}")
-    png, svg = save_figure(fig, Path(directory), f"{cost.id}-determinant")
+    png, svg = save_figure(fig, directory, f"{cost.id}-determinant")
     return [Figure("determinant", caption, png, svg)]

@@ -55,7 +55,7 @@ def evidence_words(v: Verdict, x_names: Sequence[str], y_names: Sequence[str]) -
     if e.kind == "sampled":
         count = f"{e.samples}" if e.samples is not None else "the"
         spacing = f" (spacing about {e.resolution:.3g})" if e.resolution is not None else ""
-        return f"no counterexample in {count} samples{spacing}: evidence, not proof"
+        return f"no counterexample in {count} samples{spacing}"
     if e.kind == "not_applicable":
         return "not applicable to this cost"
     return "undecided: the check could not reach a verdict"
