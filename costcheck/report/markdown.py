@@ -32,7 +32,8 @@ def _cell(model: ReportModel, s: CostSection, condition: str) -> str:
 
 
 def _section(s: CostSection) -> list[str]:
-    out = [f"## {s.id} — {s.title}", "", f"`{s.file}` · n = {s.n}, m = {s.m} · checked in {s.seconds:.1f} s", ""]
+    # an explicit anchor: viewers derive heading anchors differently, the summary table links to this
+    out = [f'<a id="{s.id}"></a>', "", f"## {s.id} — {s.title}", "", f"`{s.file}` · n = {s.n}, m = {s.m} · checked in {s.seconds:.1f} s", ""]
     out += _math(s)
     out += ["### Domain", ""] + [f"- {d}" for d in s.domain] + [""]
     if s.params:

@@ -79,7 +79,7 @@ def witness_table(condition: str, w: Witness, x_names: Sequence[str], y_names: S
     rows = [WitnessRow("x", named_point(x_names, w.x)), WitnessRow("y", named_point(y_names, w.y))]
     for name, vec in w.vectors.items():
         names = x_names if w.vector_sides.get(name, "x") == "x" else y_names
-        rows.append(WitnessRow(VECTOR_LABELS.get(name, name), named_point(names, vec)))
+        rows.append(WitnessRow(VECTOR_LABELS.get(name, name.replace("_", " ")), named_point(names, vec)))
     value = _number(w.value) + ("" if w.error_bound is None else f" ± {w.error_bound:.2g}")
     return WitnessTable(condition, tuple(rows), value, w.confirmation)
 
