@@ -10,6 +10,7 @@ from __future__ import annotations
 import argparse
 import json
 import sys
+from contextlib import contextmanager
 from pathlib import Path
 from typing import Sequence
 
@@ -133,19 +134,13 @@ def _checked(args, err: Console, *, full_costs: bool = False, on_report=None):
         _error(f"no cost files (*.yaml, *.yml) under {' '.join(args.paths)}")
         return None
 
+    @contextmanager
     def progress(cost_id):
         if not err.is_terminal:
-            return _Null()
-        status = err.status(f"checking {cost_id}…", spinner="dots")
-
-        class _Progress:
-            def __enter__(self):
-                status.__enter__()
-                return lambda name: status.update(f"checking {cost_id}: {name}…")
-
-            def __exit__(self, *exc):
-                return status.__exit__(*exc)
-        return _Progress()
+            yield None
+            return
+        with err.status(f"checking {cost_id}…", spinner="dots") as status:
+            yield lambda name: status.update(f"checking {cost_id}: {name}…")
 
     return check_files(files, _run_options(args), cache=None if args.no_cache else ResultCache(),
                        full_costs=full_costs, progress=progress, on_report=on_report, on_error=_error)
@@ -172,7 +167,11 @@ def _cmd_check(args, out: Console, err: Console) -> int:
     code = _exit_code(result)
     if args.junit:
         from .render.junit import run_to_junit
-        Path(args.junit).write_text(run_to_junit(result.reports, result.errors), encoding="utf-8")
+        try:
+            Path(args.junit).write_text(run_to_junit(result.reports, result.errors), encoding="utf-8")
+        except OSError as exc:
+            _error(f"{args.junit}: cannot write the JUnit file: {exc.strerror}")
+            code = EXIT_BAD_INPUT
     if args.json:
         from .render import json_out
         options = {"seed": args.seed, "budget": args.budget, "backend": args.backend, "only": args.only}
