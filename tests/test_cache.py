@@ -14,21 +14,11 @@ from costcheck.cache import ResultCache, cache_key
 from costcheck.cli import main
 from costcheck.reading import read_cost_data, read_yaml
 from costcheck.verdict import Evidence, Verdict, Witness
+from small_costs import line_quadratic
 
 ROOT = Path(__file__).resolve().parent.parent
 
-# |x - y|²/2 in 1-D: twist and non-degeneracy hold (c_xy = -1; elementary calculus)
-QUAD_1D = """\
-id: quad-1d
-title: Squared distance on a line
-x: [a]
-y: [b]
-expr: (a - b)**2 / 2
-domain:
-  x: {box: [[-1, 1]]}
-  y: {box: [[-1, 1]]}
-expect: {twist: holds, nondegenerate: holds}
-"""
+QUAD_1D = line_quadratic()
 
 # the same content: other key order, comments, flow/block style, quoting
 QUAD_1D_RESTYLED = """\

@@ -7,19 +7,11 @@ import textwrap
 from junitparser import Error, Failure, JUnitXml, Properties, Property, Skipped
 
 from costcheck.cli import main
+from small_costs import line_quadratic
 
-# |x - y|²/2 on a line: twist and non-degeneracy hold (c_xy = -1, elementary calculus);
-# the file wrongly expects non-degeneracy to fail, so that case must be a <failure>
-WRONG_EXPECTATION = """\
-id: quad-line
-x: [a]
-y: [b]
-expr: (a - b)**2 / 2
-domain:
-  x: {box: [[-1, 1]]}
-  y: {box: [[-1, 1]]}
-expect: {twist: holds, nondegenerate: fails}
-"""
+# the line quadratic (c_xy = -1: non-degenerate) wrongly expecting non-degeneracy to fail,
+# so that case must be a <failure>
+WRONG_EXPECTATION = line_quadratic("quad-line", expect="{twist: holds, nondegenerate: fails}")
 
 # n = 1, m = 2: MTW and NNCC are not defined when n != m (Ma-Trudinger-Wang 2005 define them for
 # n = m), so they must come out as <skipped>

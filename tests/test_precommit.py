@@ -21,20 +21,9 @@ import textwrap
 from pathlib import Path
 
 import pytest
+from small_costs import line_quadratic
 
 ROOT = Path(__file__).resolve().parent.parent
-
-# |x - y|²/2 on a line: twist and non-degeneracy hold (c_xy = -1; elementary calculus)
-COST = """\
-id: {id}
-x: [a]
-y: [b]
-expr: (a - b)**2 / 2
-domain:
-  x: {{box: [[-1, 1]]}}
-  y: {{box: [[-1, 1]]}}
-expect: {{twist: holds, nondegenerate: {nondegenerate}}}
-"""
 
 pytestmark = pytest.mark.skipif(not (ROOT / ".git").exists() or shutil.which("git") is None,
                                 reason="needs this project as a git checkout and git on PATH")
@@ -50,7 +39,7 @@ def _consumer_repo(tmp_path: Path) -> Path:
     (repo / "catalog").mkdir(parents=True)
     (repo / "config").mkdir()
     for name in ("line-a", "line-b"):
-        (repo / "catalog" / f"{name}.yaml").write_text(COST.format(id=name, nondegenerate="holds"))
+        (repo / "catalog" / f"{name}.yaml").write_text(line_quadratic(name))
     # a YAML file that is not a cost file: outside catalog/, the hook must not be given it
     (repo / "config" / "settings.yaml").write_text("retries: 3\n")
     _git(repo, "init", "-q")
@@ -74,7 +63,7 @@ def _exercise(hook: str, tmp_path: Path) -> None:
     assert "2 cost(s) checked" in passed.stdout  # the two catalog files, not config/settings.yaml
 
     # a changed file whose expectation is not met fails the commit, naming the file
-    (repo / "catalog" / "line-b.yaml").write_text(COST.format(id="line-b", nondegenerate="fails"))
+    (repo / "catalog" / "line-b.yaml").write_text(line_quadratic("line-b", expect="{twist: holds, nondegenerate: fails}"))
     _git(repo, "add", "-A")
     failed = _try_repo(repo, hook, tmp_path)
     assert failed.returncode == 1, failed.stdout + failed.stderr
