@@ -64,17 +64,22 @@ def scaled_determinant(cost, xs, ys, scale):
 def _norm(*arrays):
     """One diverging scale centred at 0 for all panels, symmetric so equal |det| reads equally.
 
-    Its span is the 98th percentile of |value|, not the maximum: near an excluded singular set
-    (``x = y`` for a distance) the determinant blows up, and a few such cells would wash the
-    rest of the map out.  Clipped cells take the end colours (the colour bar's arrows say so).
+    Linear when the values are of one size.  Near an excluded singular set (``x = y`` for a
+    distance) the determinant grows by orders of magnitude, and a linear scale would wash the
+    rest of the map out: then the scale is linear up to the median |value| and logarithmic
+    beyond (matplotlib's ``SymLogNorm``), which the caption states.  Returns the norm and a
+    phrase for the caption ("" when linear).
     """
-    from matplotlib.colors import TwoSlopeNorm
+    from matplotlib.colors import SymLogNorm, TwoSlopeNorm
 
     finite = np.abs(np.concatenate([a[np.isfinite(a)] for a in arrays]))
-    span = float(np.percentile(finite, 98)) if finite.size else 1.0
-    span = span or (float(finite.max()) if finite.size else 0.0) or 1.0
-    clipped = bool(finite.size and finite.max() > span)
-    return TwoSlopeNorm(vmin=-span, vcenter=0.0, vmax=span), clipped
+    nonzero = finite[finite > 0]
+    span = float(finite.max()) if nonzero.size else 1.0
+    typical = float(np.median(nonzero)) if nonzero.size else 1.0
+    if span > 20 * typical:
+        return (SymLogNorm(linthresh=typical, vmin=-span, vmax=span, base=10),
+                f"The colour scale is linear up to |value| = {typical:.3g} and logarithmic beyond. ")
+    return TwoSlopeNorm(vmin=-span, vcenter=0.0, vmax=span), ""
 
 
 def _panel(ax, grid_u, grid_v, values, names, mark, mark_label, norm):
@@ -124,21 +129,20 @@ def _draw(report, directory: Path, plt) -> list[Figure]:
     scale = verdict.evidence.details.get("scale_S") if verdict is not None else None
     x0, y0, mark_label = _marked_point(report)
     note = ("Blue: det > 0, red and hatched: det < 0, black line: det = 0; plain grey: outside the domain. "
-            f"Values below {ROUNDING:g} in size are drawn as 0 (float rounding cannot be told from 0 there); "
-            "colours beyond the bar's ends are clipped. Drawn on a grid: a zero between grid points can be "
-            "missed, so no contour is no proof.")
+            f"Values below {ROUNDING:g} in size are drawn as 0 (float rounding cannot be told from 0 there). "
+            "Drawn on a grid: a zero between grid points can be missed, so no contour is no proof.")
     if cost.n == 1:
         gx, gy = _grid(np.r_[cost.domain.x.bounds()[0], cost.domain.y.bounds()[0]],
                        np.r_[cost.domain.x.bounds()[1], cost.domain.y.bounds()[1]])
         values = scaled_determinant(cost, gx.reshape(-1, 1), gy.reshape(-1, 1), scale).reshape(gx.shape)
         fig, ax = plt.subplots(figsize=(5.4, 4.4))
-        norm, clipped = _norm(values)
+        norm, scale_note = _norm(values)
         image = _panel(ax, gx, gy, values, (cost.x_names[0], cost.y_names[0]), (x0[0], y0[0]), mark_label, norm)
         if image is not None:
-            fig.colorbar(image, ax=ax, label="c_xy / S", extend="both" if clipped else "neither")
+            fig.colorbar(image, ax=ax, label="c_xy / S")
         ax.set_title(f"{cost.id}: mixed derivative c_xy over (x, y)", fontsize=10)
         caption = (f"Scale-free mixed derivative c_xy / S of {cost.id} over the (x, y) rectangle "
-                   f"(S = typical |c_xy|). {note}")
+                   f"(S = typical |c_xy|). {scale_note}{note}")
     else:
         fig, axes = plt.subplots(1, 2, figsize=(10.4, 4.4), constrained_layout=True)
         slices = []
@@ -151,16 +155,16 @@ def _draw(report, directory: Path, plt) -> list[Figure]:
         slices.append((axes[1], gx1, gx2, xs, np.tile(y0, (len(xs), 1)), cost.x_names, x0,
                        "y fixed at (" + ", ".join(f"{n}={v:.3g}" for n, v in zip(cost.y_names, y0)) + ")"))
         values = [scaled_determinant(cost, px, py, scale).reshape(gu.shape) for _, gu, _, px, py, *_ in slices]
-        norm, clipped = _norm(*values)
+        norm, scale_note = _norm(*values)
         image = None
         for (ax, gu, gv, _, _, names, mark, title), vals in zip(slices, values):
             image = _panel(ax, gu, gv, vals, names, mark, mark_label, norm) or image
             ax.set_title(title, fontsize=10)
         if image is not None:
-            fig.colorbar(image, ax=list(axes), label="det D²_xy c / S²", extend="both" if clipped else "neither")
+            fig.colorbar(image, ax=list(axes), label="det D²_xy c / S²")
         fig.suptitle(f"{cost.id}: scale-free det D²_xy c on two slices", fontsize=11)
         caption = (f"Scale-free determinant det D²_xy c / S² of {cost.id} (S = the check's typical size of "
                    f"D²_xy c), left with x fixed and y varying, right with y fixed and x varying, through "
-                   f"the marked point ({mark_label}); one colour scale, centred at 0, for both panels. {note}")
+                   f"the marked point ({mark_label}); one colour scale, centred at 0, for both panels. {scale_note}{note}")
     png, svg = save_figure(fig, directory, f"{cost.id}-determinant")
     return [Figure("determinant", caption, png, svg)]
