@@ -178,6 +178,9 @@ def _cmd_check(args, out: Console, err: Console) -> int:
         print(json_out.run_to_json(result.reports, result.errors, options, code))
     else:
         terminal.render_summary(out, result.reports, result.errors)
+    if result.cached and err.is_terminal:  # said on the terminal only: the outputs stay identical
+        err.print(f"{result.cached} of {len(result.reports)} result(s) from the cache; --no-cache recomputes",
+                  style="dim", markup=False)
     return code
 
 
