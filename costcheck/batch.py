@@ -54,7 +54,6 @@ def check_files(
     """
     result = BatchResult()
     seen_ids: dict[str, str] = {}
-    hashed = key_options(run_options)
     for path in files:
         file = str(path)
         try:
@@ -62,28 +61,51 @@ def check_files(
             if data["id"] in seen_ids:
                 raise CostFileError(f"the id '{data['id']}' is already used by {seen_ids[data['id']]}",
                                     file=file, field="id")
-            key = cache_key(data, hashed) if cache is not None else None
-            hit = cache.get(key, data["x"], data["y"]) if cache is not None else None
-            cost = None
-            if hit is None or full_costs:
-                from .loader import build_cost  # sympy is imported here, only when needed
-                cost = build_cost(data, file)
+            report, cached = check_one(data, file, run_options, cache=cache, full_cost=full_costs,
+                                       progress=progress)
             seen_ids[data["id"]] = file
         except CostFileError as exc:
             result.errors.append(exc)
             if on_error:
                 on_error(exc)
             continue
-        if hit is not None:
-            report = CostReport(cost or CostHeader.from_data(data, file), hit.verdicts, hit.seconds, hit.options)
-            result.cached += 1
-        else:
-            from .checks.runner import run_checks
-            with progress(cost.id) if progress else nullcontext() as on_progress:
-                report = run_checks(cost, **run_options, on_progress=on_progress)
-            if cache is not None:
-                cache.put(key, report)
+        result.cached += cached
         result.reports.append(report)
         if on_report:
             on_report(report)
     return result
+
+
+def check_one(
+    data: Mapping,
+    file: str | None,
+    run_options: Mapping,
+    *,
+    cache: ResultCache | None,
+    full_cost: bool = False,
+    param_overrides: Mapping[str, float] | None = None,
+    progress: Callable[[str], ContextManager] | None = None,
+) -> tuple[CostReport, bool]:
+    """Check one validated cost-file mapping; ``(report, whether it came from the cache)``.
+
+    ``param_overrides`` (a sweep's values) are part of the normalised cost, hence of the key.
+    Raises :class:`CostFileError` for a file the loader refuses.
+    """
+    normalised = data
+    if param_overrides:
+        normalised = {**data, "params": {**(data.get("params") or {}), **param_overrides}}
+    key = cache_key(normalised, key_options(run_options)) if cache is not None else None
+    hit = cache.get(key, data["x"], data["y"]) if cache is not None else None
+    cost = None
+    if hit is None or full_cost:
+        from .loader import build_cost  # sympy is imported here, only when needed
+        # the loader applies the overrides itself (and refuses a parameter the file lacks)
+        cost = build_cost(data, file, param_overrides=param_overrides or None)
+    if hit is not None:
+        return CostReport(cost or CostHeader.from_data(data, file), hit.verdicts, hit.seconds, hit.options), True
+    from .checks.runner import run_checks
+    with progress(cost.id) if progress else nullcontext() as on_progress:
+        report = run_checks(cost, **run_options, on_progress=on_progress)
+    if cache is not None:
+        cache.put(key, report)
+    return report, False

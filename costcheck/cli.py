@@ -108,6 +108,8 @@ def _build_parser() -> argparse.ArgumentParser:
                        help="bisect verdict boundaries to this width (default 1e-3)")
     sweep.add_argument("--no-bisect", action="store_true", help="report grid changes only, no bisection")
     sweep.add_argument("--plots", metavar="DIR", default=None, help="write PNG and SVG pictures into DIR")
+    sweep.add_argument("--no-cache", action="store_true",
+                       help="recompute every value; neither read nor write the result cache")
     return parser
 
 
@@ -323,7 +325,7 @@ def _cmd_sweep(args, out: Console, err: Console) -> int:
                     _p.update(_t, description="bisecting boundaries")
         result = run_sweep(args.file, axes, budget=args.budget, seed=args.seed, conditions=args.only,
                            workers=args.workers, scheduler=args.scheduler, tolerance=args.tolerance,
-                           bisect=not args.no_bisect, on_progress=on_progress)
+                           bisect=not args.no_bisect, cache=not args.no_cache, on_progress=on_progress)
     if args.plots:
         from .sweep.plots import write_plots
         files = write_plots(result, args.plots)

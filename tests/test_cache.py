@@ -179,3 +179,23 @@ def test_a_file_the_loader_refuses_is_refused_with_the_cache_on(tmp_path, capsys
     assert main(["check", str(path), "--budget", "64"]) == 2
     err = capsys.readouterr().err.strip().splitlines()
     assert len(err) == 1 and "params.p" in err[0], err
+
+
+def test_a_sweep_reuses_the_cache_per_value(tmp_path, private_result_cache):
+    from costcheck.sweep.engine import run_sweep
+    from costcheck.sweep.grid import parse_axes
+
+    # k (a - b)²/2 with k > 0: c_xy = -k ≠ 0 and c_x injective in b (elementary calculus)
+    text = line_quadratic().replace("expr: (a - b)**2 / 2", "params: {k: 1}\nexpr: k * (a - b)**2 / 2")
+    path = _write(tmp_path, "scaled.yaml", text)
+    axes = parse_axes(["k=0.5,1,2"], {"k": 1})
+    options = dict(budget=64, seed=1, conditions=["twist", "nondegenerate"], workers=1, bisect=False)
+    uncached = run_sweep(str(path), axes, cache=False, **options)
+    assert not any(private_result_cache.rglob("*.json"))
+    first = run_sweep(str(path), axes, **options)
+    entries = sorted(private_result_cache.rglob("*.json"))
+    assert len(entries) == 3  # one entry per value
+    written = [(p, p.stat().st_mtime_ns) for p in entries]
+    again = run_sweep(str(path), axes, **options)
+    assert first.results == again.results == uncached.results
+    assert [(p, p.stat().st_mtime_ns) for p in entries] == written, "a cached value was recomputed"
