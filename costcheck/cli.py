@@ -10,12 +10,14 @@ from __future__ import annotations
 import argparse
 import json
 import sys
+from contextlib import contextmanager
+from pathlib import Path
 from typing import Sequence
 
 from rich.console import Console
 
 from . import __version__
-from .errors import EXIT_BAD_INPUT, EXIT_EXPECTATION_FAILED, EXIT_OK, CostcheckError, CostFileError
+from .errors import EXIT_BAD_INPUT, EXIT_EXPECTATION_FAILED, EXIT_OK, CostcheckError
 
 
 class _Parser(argparse.ArgumentParser):
@@ -47,9 +49,31 @@ def _positive_float(text: str) -> float:
     return value
 
 
+def _add_check_options(command, conditions, default_seed: int, default_budget: int) -> None:
+    """The options ``check`` and ``report`` share: which files, and how they are checked."""
+    command.add_argument("paths", nargs="+", metavar="PATH")
+    command.add_argument("--seed", type=int, default=default_seed, help=f"random seed (default {default_seed})")
+    command.add_argument("--budget", type=_positive_int, default=default_budget,
+                         help=f"sampled (x, y) pairs per cost; more is slower and more thorough "
+                              f"(default {default_budget})")
+    command.add_argument("--backend", choices=["sympy", "jax"], default="sympy",
+                         help="derivative backend (default sympy; jax compiles slower, runs faster on large budgets)")
+    command.add_argument("--only", action="append", choices=list(conditions), metavar="CONDITION",
+                         help=f"run only this condition (repeatable): {', '.join(conditions)}")
+    command.add_argument("--no-cache", action="store_true",
+                         help="recompute every result; neither read nor write the result cache")
+    command.add_argument("--prove", action="store_true",
+                         help="try to prove sampled 'holds' verdicts on the whole domain (ball arithmetic, branch "
+                              "and bound; MTW identities); a failed attempt reports the coverage reached")
+    command.add_argument("--prove-seconds", type=_positive_float, default=20.0, metavar="S",
+                         help="time for each condition's proof attempt (default 20)")
+    command.add_argument("--prove-cells", type=_positive_int, default=20000, metavar="N",
+                         help="cells (boxes) for each condition's proof attempt (default 20000)")
+
+
 def _build_parser() -> argparse.ArgumentParser:
-    from .checks.runner import CONDITION_MODULES, DEFAULT_SEED
-    from .checks.sampler import DEFAULT_BUDGET
+    from .checks.defaults import DEFAULT_BUDGET, DEFAULT_SEED
+    from .checks.runner import CONDITION_MODULES
 
     parser = _Parser(prog="costcheck", description="Check transport costs and matching surpluses for twist, "
                      "non-degeneracy, MTW, cross-curvature and related conditions, with witnesses.")
@@ -57,22 +81,19 @@ def _build_parser() -> argparse.ArgumentParser:
     sub = parser.add_subparsers(dest="command", metavar="COMMAND", parser_class=_Parser)
 
     check = sub.add_parser("check", help="check cost files (files or folders, searched recursively)")
-    check.add_argument("paths", nargs="+", metavar="PATH")
     check.add_argument("--json", action="store_true", help="print one JSON document instead of tables")
-    check.add_argument("--seed", type=int, default=DEFAULT_SEED, help=f"random seed (default {DEFAULT_SEED})")
-    check.add_argument("--budget", type=_positive_int, default=DEFAULT_BUDGET,
-                       help=f"sampled (x, y) pairs per cost; more is slower and more thorough (default {DEFAULT_BUDGET})")
-    check.add_argument("--backend", choices=["sympy", "jax"], default="sympy",
-                       help="derivative backend (default sympy; jax compiles slower, runs faster on large budgets)")
-    check.add_argument("--only", action="append", choices=list(CONDITION_MODULES), metavar="CONDITION",
-                       help=f"run only this condition (repeatable): {', '.join(CONDITION_MODULES)}")
-    check.add_argument("--prove", action="store_true",
-                       help="try to prove sampled 'holds' verdicts on the whole domain (ball arithmetic, branch and "
-                            "bound; MTW identities); a failed attempt reports the coverage reached")
-    check.add_argument("--prove-seconds", type=_positive_float, default=20.0, metavar="S",
-                       help="time for each condition's proof attempt (default 20)")
-    check.add_argument("--prove-cells", type=_positive_int, default=20000, metavar="N",
-                       help="cells (boxes) for each condition's proof attempt (default 20000)")
+    check.add_argument("--junit", metavar="FILE", default=None,
+                       help="also write JUnit XML to FILE: one test case per cost and condition")
+    check.add_argument("--quiet", action="store_true",
+                       help="print tables only for costs with an unmet expectation, then the summary line")
+    report = sub.add_parser("report", help="write a design-review report (HTML page and Markdown) of cost files")
+    report.add_argument("--out", metavar="DIR", required=True, help="folder for index.html, report.md, figures/")
+    for command in (check, report):
+        _add_check_options(command, CONDITION_MODULES, DEFAULT_SEED, DEFAULT_BUDGET)
+
+    sub.add_parser("schema", help="print the JSON Schema of cost files (draft 2020-12)")
+    new = sub.add_parser("new", help="write a commented template cost file NAME.yaml to start from")
+    new.add_argument("name", metavar="NAME", help="file to write (.yaml is added if missing); its stem is the id")
 
     show = sub.add_parser("show", help="show a parsed cost file: expression, domain, derivative sizes")
     show.add_argument("file", metavar="FILE")
@@ -120,61 +141,113 @@ def _build_parser() -> argparse.ArgumentParser:
                         help="write nested.json, levels.csv (k(y)) and the map as CSV into DIR")
     nested.add_argument("--json", action="store_true", help="print one JSON document instead of text")
     nested.add_argument("--plots", metavar="DIR", default=None, help="write PNG and SVG pictures into DIR")
+    sweep.add_argument("--no-cache", action="store_true",
+                       help="recompute every value; neither read nor write the result cache")
     return parser
 
 
-def _cmd_check(args, out: Console, err: Console) -> int:
-    from .checks.runner import run_checks
-    from .loader import find_cost_files, load_cost
-    from .render import json_out, terminal
+#: ``check`` options that only choose where results go; every other option reaches the checks
+#: and therefore the cache key (so a new option is part of the key unless listed here)
+OUTPUT_ONLY_OPTIONS = {"command", "paths", "json", "junit", "quiet", "no_cache", "out"}
 
-    try:
-        files = find_cost_files(args.paths)
-    except CostFileError as exc:
-        _error(exc)
-        return EXIT_BAD_INPUT
+
+def _run_options(args) -> dict:
+    """The options handed to ``run_checks``: all of ``check``'s options but the output-only ones."""
+    options = {k: v for k, v in vars(args).items() if k not in OUTPUT_ONLY_OPTIONS}
+    options["conditions"] = options.pop("only")
+    # the proof budget travels as one JSON-able mapping (part of the cache key), or None
+    seconds, cells = options.pop("prove_seconds"), options.pop("prove_cells")
+    options["prove"] = {"seconds": seconds, "cells": cells} if options.pop("prove") else None
+    return options
+
+
+def _checked(args, err: Console, *, full_costs: bool = False, on_report=None):
+    """Find and check ``args.paths`` (through the cache unless ``--no-cache``); ``None`` if no files."""
+    from .batch import check_files
+    from .cache import ResultCache
+    from .reading import find_cost_files
+
+    files = find_cost_files(args.paths)
     if not files:
         _error(f"no cost files (*.yaml, *.yml) under {' '.join(args.paths)}")
+        return None
+
+    @contextmanager
+    def progress(cost_id):
+        if not err.is_terminal:
+            yield None
+            return
+        with err.status(f"checking {cost_id}…", spinner="dots") as status:
+            yield lambda name: status.update(f"checking {cost_id}: {name}…")
+
+    return check_files(files, _run_options(args), cache=None if args.no_cache else ResultCache(),
+                       full_costs=full_costs, progress=progress, on_report=on_report, on_error=_error)
+
+
+def _exit_code(result) -> int:
+    if result.errors:
         return EXIT_BAD_INPUT
-    prove = None
-    if args.prove:
-        from .certify import ProofOptions
-        prove = ProofOptions(seconds=args.prove_seconds, cells=args.prove_cells)
-    reports, errors = [], []
-    seen_ids: dict[str, str] = {}
-    for path in files:
-        try:
-            cost = load_cost(path)
-            if cost.id in seen_ids:
-                raise CostFileError(f"the id '{cost.id}' is already used by {seen_ids[cost.id]}",
-                                    file=str(path), field="id")
-            seen_ids[cost.id] = str(path)
-        except CostFileError as exc:
-            errors.append(exc)
-            _error(exc)
-            continue
-        with err.status(f"checking {cost.id}…", spinner="dots") if err.is_terminal else _Null() as status:
-            def progress(name, _s=status, _id=cost.id):
-                if _s is not None:
-                    _s.update(f"checking {_id}: {name}…")
-            report = run_checks(cost, budget=args.budget, seed=args.seed, backend=args.backend,
-                                conditions=args.only, on_progress=progress, prove=prove)
-        reports.append(report)
-        if not args.json:
+    if any(r.mismatches for r in result.reports):
+        return EXIT_EXPECTATION_FAILED
+    return EXIT_OK
+
+
+def _cmd_check(args, out: Console, err: Console) -> int:
+    from .render import terminal
+
+    def show(report):
+        if not args.json and not (args.quiet and not report.mismatches):
             terminal.render_report(out, report)
-    if errors:
-        code = EXIT_BAD_INPUT
-    elif any(r.mismatches for r in reports):
-        code = EXIT_EXPECTATION_FAILED
-    else:
-        code = EXIT_OK
+
+    result = _checked(args, err, on_report=show)
+    if result is None:
+        return EXIT_BAD_INPUT
+    code = _exit_code(result)
+    if args.junit:
+        from .render.junit import run_to_junit
+        try:
+            Path(args.junit).write_text(run_to_junit(result.reports, result.errors), encoding="utf-8")
+        except OSError as exc:
+            _error(f"{args.junit}: cannot write the JUnit file: {exc.strerror}")
+            code = EXIT_BAD_INPUT
     if args.json:
+        from .render import json_out
         options = {"seed": args.seed, "budget": args.budget, "backend": args.backend, "only": args.only,
-                   "prove": None if prove is None else prove.to_json()}
-        print(json_out.run_to_json(reports, errors, options, code))
+                   "prove": _run_options(args)["prove"]}
+        print(json_out.run_to_json(result.reports, result.errors, options, code))
     else:
-        terminal.render_summary(out, reports, errors)
+        terminal.render_summary(out, result.reports, result.errors)
+    if result.cached and err.is_terminal:  # said on the terminal only: the outputs stay identical
+        err.print(f"{result.cached} of {len(result.reports)} result(s) from the cache; --no-cache recomputes",
+                  style="dim", markup=False)
     return code
+
+
+def _cmd_report(args, out: Console, err: Console) -> int:
+    from .report import write_report
+
+    result = _checked(args, err, full_costs=True)
+    if result is None:
+        return EXIT_BAD_INPUT
+    written = write_report(result.reports, result.errors, args.out, options=_run_options(args))
+    for path in written:
+        out.print(f"wrote {path}", markup=False)
+    return _exit_code(result)
+
+
+def _cmd_schema(args) -> int:
+    from .schema import schema_json
+
+    sys.stdout.write(schema_json())
+    return EXIT_OK
+
+
+def _cmd_new(args, out: Console) -> int:
+    from .template import write_template
+
+    path = write_template(args.name)
+    out.print(f"wrote {path}; edit it, then run: costcheck check {path}", markup=False)
+    return EXIT_OK
 
 
 class _Null:
@@ -294,7 +367,7 @@ def _cmd_sweep(args, out: Console, err: Console) -> int:
                     _p.update(_t, description="bisecting boundaries")
         result = run_sweep(args.file, axes, budget=args.budget, seed=args.seed, conditions=args.only,
                            workers=args.workers, scheduler=args.scheduler, tolerance=args.tolerance,
-                           bisect=not args.no_bisect, on_progress=on_progress)
+                           bisect=not args.no_bisect, cache=not args.no_cache, on_progress=on_progress)
     if args.plots:
         from .sweep.plots import write_plots
         files = write_plots(result, args.plots)
@@ -345,6 +418,12 @@ def main(argv: Sequence[str] | None = None) -> int:
             return _cmd_sweep(args, out, err)
         if args.command == "nested":
             return _cmd_nested(args, out)
+        if args.command == "report":
+            return _cmd_report(args, out, err)
+        if args.command == "schema":
+            return _cmd_schema(args)
+        if args.command == "new":
+            return _cmd_new(args, out)
     except CostcheckError as exc:
         _error(exc)
         return EXIT_BAD_INPUT

@@ -13,10 +13,11 @@ from typing import Callable, Mapping
 import sympy as sp
 
 from .domain import Domain
+from .header import CostLabels
 
 
 @dataclass(frozen=True)
-class Cost:
+class Cost(CostLabels):
     id: str
     x_names: tuple[str, ...]
     y_names: tuple[str, ...]
@@ -38,24 +39,12 @@ class Cost:
     data: object | None = field(default=None, repr=False, compare=False)
 
     @property
-    def n(self) -> int:
-        return len(self.x_names)
-
-    @property
-    def m(self) -> int:
-        return len(self.y_names)
-
-    @property
     def x_symbols(self) -> tuple[sp.Symbol, ...]:
         return tuple(sp.Symbol(name, real=True) for name in self.x_names)
 
     @property
     def y_symbols(self) -> tuple[sp.Symbol, ...]:
         return tuple(sp.Symbol(name, real=True) for name in self.y_names)
-
-    @property
-    def label(self) -> str:
-        return f"{self.id} ({self.file})" if self.file else self.id
 
     def derivatives(self, backend: str = "sympy", order: int = 4):
         """Vectorised evaluator of the cost and its mixed derivatives (see :mod:`costcheck.derivatives`)."""

@@ -125,3 +125,10 @@ COST_FILE_SCHEMA: dict = {
         "tags": {"type": "array", "items": {"type": "string"}},
     },
 }
+
+
+def schema_json() -> str:
+    """:data:`COST_FILE_SCHEMA` as the text of ``schema/cost-file.schema.json`` (what ``costcheck schema`` prints)."""
+    import json
+
+    return json.dumps(COST_FILE_SCHEMA, indent=2, ensure_ascii=False) + "\n"

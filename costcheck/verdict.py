@@ -77,6 +77,13 @@ class Evidence:
         out.update(dict(self.details))
         return out
 
+    @classmethod
+    def from_json(cls, data: Mapping) -> "Evidence":
+        """The inverse of :meth:`to_json`: every key besides the four named ones is a detail,
+        carried through untouched (checks and certificates add their own)."""
+        details = {k: v for k, v in data.items() if k not in ("kind", "summary", "samples", "resolution")}
+        return cls(data["kind"], data["summary"], data.get("samples"), data.get("resolution"), details)
+
 
 @dataclass(frozen=True)
 class Witness:
@@ -107,6 +114,26 @@ class Witness:
         out["confirmation"] = self.confirmation
         return out
 
+    @classmethod
+    def from_json(cls, data: Mapping, x_names: Sequence[str], y_names: Sequence[str]) -> "Witness":
+        """The inverse of :meth:`to_json`; a vector's side is the side whose names label it."""
+        def coords(named: Mapping, names: Sequence[str]) -> tuple[float, ...]:
+            if list(named) != list(names):
+                raise ValueError(f"coordinates {list(named)} are not labelled {list(names)}")
+            return tuple(float(named[n]) for n in names)
+
+        fixed = ("x", "y", "value", "error_bound", "confirmation")
+        vectors, sides = {}, {}
+        for name, named in data.items():
+            if name in fixed:
+                continue
+            side = "x" if list(named) == list(x_names) else "y"
+            vectors[name] = coords(named, x_names if side == "x" else y_names)
+            if side == "y":
+                sides[name] = "y"
+        return cls(coords(data["x"], x_names), coords(data["y"], y_names), _number(data["value"]),
+                   _number(data.get("error_bound")), data.get("confirmation", ""), vectors, sides)
+
 
 @dataclass(frozen=True)
 class Verdict:
@@ -134,6 +161,27 @@ class Verdict:
             "witness": None if self.witness is None else self.witness.to_json(x_names, y_names),
             "notes": list(self.notes),
         }
+
+    @classmethod
+    def from_json(cls, condition: str, data: Mapping, x_names: Sequence[str], y_names: Sequence[str]) -> "Verdict":
+        """The inverse of :meth:`to_json` (which does not repeat the condition's name).
+
+        Raises ``KeyError``/``ValueError``/``TypeError`` on a document of the wrong shape,
+        and ``ValueError`` when its stored code disagrees with :data:`CODES`.
+        """
+        witness = data.get("witness")
+        verdict = cls(condition, data["verdict"], Evidence.from_json(data["evidence"]), _number(data.get("value")),
+                      data.get("value_meaning", ""),
+                      None if witness is None else Witness.from_json(witness, x_names, y_names),
+                      tuple(data.get("notes", ())))
+        if "code" in data and data["code"] != verdict.code:
+            raise ValueError(f"stored code {data['code']} is not {verdict.code} for {condition}: {verdict.verdict}")
+        return verdict
+
+
+def _number(value) -> float | None:
+    """A JSON number back as a float (``None`` stays ``None``)."""
+    return None if value is None else float(value)
 
 
 def not_applicable(condition: str, reason: str) -> Verdict:

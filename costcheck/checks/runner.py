@@ -10,12 +10,13 @@ from __future__ import annotations
 import importlib
 import time
 from dataclasses import dataclass, field
-from typing import Callable, Sequence
+from typing import TYPE_CHECKING, Callable, Sequence
 
-from ..cost import Cost
 from ..verdict import Verdict, undecided
-from .context import CheckContext
-from .sampler import DEFAULT_BUDGET
+from .defaults import DEFAULT_BUDGET, DEFAULT_SEED  # noqa: F401 - DEFAULT_SEED re-exported
+
+if TYPE_CHECKING:  # the checks' machinery (sympy, SciPy) is imported when checks run, not before
+    from ..cost import Cost
 
 #: condition name → module under costcheck.checks
 CONDITION_MODULES: dict[str, str] = {
@@ -27,8 +28,6 @@ CONDITION_MODULES: dict[str, str] = {
     "nested": "nested",
 }
 
-DEFAULT_SEED = 20261201
-
 
 @dataclass(frozen=True)
 class Mismatch:
@@ -39,6 +38,8 @@ class Mismatch:
 
 @dataclass
 class CostReport:
+    #: the cost checked; for a result read from the cache, a :class:`~costcheck.header.CostHeader`
+    #: (the file's names, expectations and labels, no expression): renderers read only those
     cost: Cost
     verdicts: dict[str, Verdict]
     seconds: float
@@ -68,10 +69,19 @@ def run_checks(
     """All (or the named) condition checks of ``cost``, reproducible for a given ``seed``.
 
     Every failure witness goes through :func:`costcheck.certify.certify_refutation`; with
-    ``prove`` (a :class:`costcheck.certify.ProofOptions`) sampled "holds" verdicts are also
+    ``prove`` (a :class:`costcheck.certify.ProofOptions`, a dict of its fields, or True for the
+    defaults) sampled "holds" verdicts are also
     offered to :func:`costcheck.certify.strengthen`.
     """
-    from ..certify import certify_refutation, strengthen
+    from ..certify import ProofOptions, certify_refutation, strengthen
+    from .context import CheckContext
+
+    if isinstance(prove, dict):
+        prove = ProofOptions(**prove)
+    elif prove is True:
+        prove = ProofOptions()
+    elif not prove:
+        prove = None
 
     started = time.perf_counter()
     ctx = CheckContext(cost=cost, seed=seed, budget=budget, backend=backend)

@@ -15,8 +15,7 @@ from scipy.stats import qmc
 
 from ..domain import Domain
 
-#: Pairs sampled by a default check: enough to finish a 2-D cost in seconds.
-DEFAULT_BUDGET = 4096
+from .defaults import DEFAULT_BUDGET  # noqa: E402,F401 - re-exported: callers import it from here
 
 _MAX_ROUNDS = 8
 

@@ -21,6 +21,7 @@ from pathlib import Path
 
 #: "module:function" under costcheck.plots, in report order
 MAKERS: list[str] = [
+    "determinant:determinant_maps",
     "nested:report_figures",
 ]
 

@@ -21,16 +21,25 @@ from .grid import Axis, SweepSpecError, plan
 ERROR = "error"
 
 
-def evaluate_point(path: str, params: dict, budget: int, seed: int, conditions: Sequence[str] | None) -> dict:
-    """Check the cost at ``params``; ``{condition: {verdict, code, kind, value, witness, summary}}``."""
-    from ..api import load
-    from ..checks.runner import CONDITION_MODULES, run_checks
+def evaluate_point(path: str, params: dict, budget: int, seed: int, conditions: Sequence[str] | None,
+                   cache_dir: str | None = None) -> dict:
+    """Check the cost at ``params``; ``{condition: {verdict, code, kind, value, witness, summary}}``.
+
+    With ``cache_dir`` the result cache there answers values already checked (the key holds
+    the parameter values, as :func:`costcheck.batch.check_one` normalises them).
+    """
+    from ..batch import check_one
+    from ..cache import ResultCache
+    from ..checks.runner import CONDITION_MODULES
     from ..errors import CostcheckError
+    from ..reading import read_cost_data
 
     names = list(conditions or CONDITION_MODULES)
     try:
-        cost = load(path, **params)
-        report = run_checks(cost, budget=budget, seed=seed, conditions=names)
+        cache = ResultCache(cache_dir) if cache_dir is not None else None
+        options = {"budget": budget, "seed": seed, "backend": "sympy", "conditions": names}
+        report, _ = check_one(read_cost_data(path), str(path), options, cache=cache, param_overrides=params)
+        cost = report.cost
     except CostcheckError as exc:
         message = " ".join(str(exc).split())
         return {n: {"verdict": ERROR, "code": None, "kind": ERROR, "value": None, "witness": None,
@@ -48,8 +57,8 @@ class Executor:
     """Maps :func:`evaluate_point` over many parameter dicts; the three back ends share this."""
 
     def __init__(self, path: str, budget: int, seed: int, workers: int | None = None,
-                 scheduler: str | None = None, client=None):
-        self.path, self.budget, self.seed = str(path), budget, seed
+                 scheduler: str | None = None, client=None, cache_dir: str | None = None):
+        self.path, self.budget, self.seed, self.cache_dir = str(path), budget, seed, cache_dir
         self.workers = workers or os.cpu_count() or 1
         self._pool = None
         self._client = client
@@ -71,7 +80,7 @@ class Executor:
 
     def map(self, points: list[dict], conditions: Sequence[str] | None) -> list[dict]:
         n = len(points)
-        args = ([self.path] * n, points, [self.budget] * n, [self.seed] * n, [conditions] * n)
+        args = ([self.path] * n, points, [self.budget] * n, [self.seed] * n, [conditions] * n, [self.cache_dir] * n)
         if self._client is not None:
             futures = self._client.map(evaluate_point, *args, pure=False)
             return self._client.gather(futures)
@@ -116,9 +125,12 @@ class SweepResult:
 
 def run_sweep(path, axes: list[Axis], *, budget: int, seed: int, conditions: Sequence[str] | None = None,
               workers: int | None = None, scheduler: str | None = None, client=None,
-              tolerance: float = 1e-3, bisect: bool = True,
+              tolerance: float = 1e-3, bisect: bool = True, cache: bool = True,
               on_progress: Callable[[int, int], None] | None = None) -> SweepResult:
-    """Check every grid point, then (for one axis, or along each line of a grid) bisect verdict changes."""
+    """Check every grid point, then (for one axis, or along each line of a grid) bisect verdict changes.
+
+    ``cache``: answer values already checked from the result cache (:mod:`costcheck.cache`).
+    """
     from ..api import load
     from ..checks.runner import CONDITION_MODULES
     from .boundaries import find_boundaries
@@ -133,7 +145,10 @@ def run_sweep(path, axes: list[Axis], *, budget: int, seed: int, conditions: Seq
             raise SweepSpecError(f"--vary: the cost has no parameter named {a.name!r} (parameters: {known})")
     started = time.perf_counter()
     points = plan(axes)
-    executor = Executor(path, budget, seed, workers=workers, scheduler=scheduler, client=client)
+    from ..cache import default_directory
+
+    cache_dir = str(default_directory()) if cache else None
+    executor = Executor(path, budget, seed, workers=workers, scheduler=scheduler, client=client, cache_dir=cache_dir)
     try:
         results: list[dict] = []
         chunk = max(1, executor.workers * 2)

@@ -1,0 +1,59 @@
+"""``check --junit``: a JUnit XML file a standard parser accepts, one case per cost × condition."""
+
+from __future__ import annotations
+
+import textwrap
+
+from junitparser import Error, Failure, JUnitXml, Properties, Property, Skipped
+
+from costcheck.cli import main
+from small_costs import line_quadratic
+
+# the line quadratic (c_xy = -1: non-degenerate) wrongly expecting non-degeneracy to fail,
+# so that case must be a <failure>
+WRONG_EXPECTATION = line_quadratic("quad-line", expect="{twist: holds, nondegenerate: fails}")
+
+# n = 1, m = 2: MTW and NNCC are not defined when n != m (Ma-Trudinger-Wang 2005 define them for
+# n = m), so they must come out as <skipped>
+UNEQUAL = """\
+id: unequal
+x: [a]
+y: [b1, b2]
+expr: -a * (b1 + b2**2)
+domain:
+  x: {box: [[0, 1]]}
+  y: {box: [[0, 1], [0, 1]]}
+"""
+
+
+def test_junit_counts_cases_failures_skips_and_errors(tmp_path, capsys):
+    (tmp_path / "wrong.yaml").write_text(textwrap.dedent(WRONG_EXPECTATION))
+    (tmp_path / "unequal.yaml").write_text(textwrap.dedent(UNEQUAL))
+    (tmp_path / "broken.yaml").write_text("id: broken\nx: [a]\n")
+    report = tmp_path / "results.xml"
+    code = main(["check", str(tmp_path), "--budget", "128", "--junit", str(report)])
+    capsys.readouterr()
+    assert code == 2  # a file could not be read: the exit status says so, and so does the XML
+
+    xml = JUnitXml.fromfile(str(report))
+    cases = {(case.classname, case.name): case for suite in xml for case in suite}
+    wrong = [c for (cls, _), c in cases.items() if cls == "quad-line"]
+    unequal = [c for (cls, _), c in cases.items() if cls == "unequal"]
+    assert len(wrong) == 4 and len(unequal) == 4  # every condition of the runner, per cost
+
+    failed = [(cls, name) for (cls, name), c in cases.items() if any(isinstance(r, Failure) for r in c.result)]
+    assert failed == [("quad-line", "nondegenerate")]
+    skipped = sorted(key for key, c in cases.items() if any(isinstance(r, Skipped) for r in c.result))
+    # MTW needs orthogonal ξ ⟂ η, which a line does not have (Ma-Trudinger-Wang 2005), hence also n = 1
+    assert skipped == [("quad-line", "mtw"), ("unequal", "mtw"), ("unequal", "nncc")]
+    errored = [cls for (cls, _), c in cases.items() if any(isinstance(r, Error) for r in c.result)]
+    assert len(errored) == 1 and errored[0].endswith("broken.yaml")
+
+    assert (xml.tests, xml.failures, xml.errors, xml.skipped) == (9, 1, 1, 3)
+    case = cases[("quad-line", "nondegenerate")]
+    [properties] = case.iterchildren(Properties)
+    props = {p.name: p.value for p in properties.iterchildren(Property)}
+    assert props["verdict"] == "holds" and props["expected"] == "fails" and props["code"] == "N200"
+    assert props["evidence"] == "sampled"
+    assert "sampled" in case.system_out
+    assert not case.is_passed and cases[("quad-line", "twist")].is_passed

@@ -1,0 +1,100 @@
+"""``costcheck report``: a self-contained page that a real browser renders, and its Markdown twin.
+
+The browser test drives Debian's Chromium (``/usr/bin/chromium``) through Playwright with no
+browser download.  Without Chromium it is skipped with the reason, unless
+``COSTCHECK_REQUIRE_BROWSER=1`` (set by ``.ci/run``), where a missing browser is a failure.
+"""
+
+from __future__ import annotations
+
+import os
+import re
+import shutil
+import subprocess
+import sys
+from pathlib import Path
+
+import pytest
+
+ROOT = Path(__file__).resolve().parent.parent
+# a 2-D cost whose checks hold (sampled) and a 1-D one refuted with witnesses
+COSTS = ["catalog/euclidean/sq-euclid.yaml", "catalog/degenerate/neg-cos-1d.yaml"]
+CHROMIUM = os.environ.get("COSTCHECK_CHROMIUM", "/usr/bin/chromium")
+# the flags this machine's Chromium needs headless as root, with no network (environment notes)
+CHROMIUM_FLAGS = ["--no-sandbox", "--disable-gpu", "--disable-quic", "--no-first-run",
+                  "--disable-background-networking", "--disable-component-update", "--disable-sync"]
+
+
+@pytest.fixture(scope="module")
+def report_dir(tmp_path_factory) -> Path:
+    out = tmp_path_factory.mktemp("report")
+    # --no-cache: this module-wide fixture runs outside the per-test private cache
+    done = subprocess.run([sys.executable, "-m", "costcheck.cli", "report", *COSTS, "--budget", "256", "--no-cache",
+                           "--out", str(out)], cwd=ROOT, capture_output=True, text=True)
+    assert done.returncode == 0, done.stderr + done.stdout
+    return out
+
+
+def test_page_is_self_contained(report_dir):
+    html = (report_dir / "index.html").read_text(encoding="utf-8")
+    assert "<script" not in html.lower()
+    # nothing is fetched: the only URLs are the MathML namespace and the page's own anchors
+    urls = set(re.findall(r"""(?:src|href)=["']([^"'#][^"']*)""", html))
+    assert all(u.startswith("data:") for u in urls), urls
+    images = re.findall(r'<img src="([^"]+)"', html)
+    assert images and all(src.startswith("data:image/png;base64,") for src in images)
+
+
+def test_page_says_what_each_verdict_rests_on(report_dir):
+    html = (report_dir / "index.html").read_text(encoding="utf-8")
+    assert "<math" in html and "<mfrac>" in html  # the quadratic cost's formula, as MathML
+    assert "no counterexample in" in html       # sampled verdicts, in plain words
+    assert "refuted at x = (x = " in html        # the 1-D cost's witness, with its coordinate name
+    assert "evidence, not proof" in html         # the caution
+    assert "Witness for nondegenerate" in html
+    assert html.count("<section") == 2
+    for cost in COSTS:
+        assert Path(cost).stem in html
+
+
+def test_markdown_twin_links_its_pictures(report_dir):
+    md = (report_dir / "report.md").read_text(encoding="utf-8")
+    assert "$$ c(x, y) =" in md
+    links = re.findall(r"!\[[^\]]*\]\(([^)]+)\)", md)
+    assert len(links) == 2  # a determinant map for each (n = 2 slices, n = 1 over (x, y))
+    for link in links:
+        assert (report_dir / link).stat().st_size > 1000
+
+
+def _chromium_or_skip():
+    if os.path.exists(CHROMIUM) or shutil.which(CHROMIUM):
+        return
+    if os.environ.get("COSTCHECK_REQUIRE_BROWSER"):
+        pytest.fail(f"COSTCHECK_REQUIRE_BROWSER is set but there is no Chromium at {CHROMIUM}")
+    pytest.skip(f"no Chromium at {CHROMIUM} (apt-get install chromium; CI sets COSTCHECK_REQUIRE_BROWSER=1)")
+
+
+def test_page_renders_in_headless_chromium(report_dir, tmp_path):
+    _chromium_or_skip()
+    from playwright.sync_api import sync_playwright
+
+    console_errors, page_errors, requests = [], [], []
+    with sync_playwright() as p:
+        context = p.chromium.launch_persistent_context(str(tmp_path / "profile"), executable_path=CHROMIUM,
+                                                       headless=True, args=CHROMIUM_FLAGS)
+        try:
+            page = context.new_page()
+            page.on("console", lambda m: console_errors.append(m.text) if m.type == "error" else None)
+            page.on("pageerror", lambda e: page_errors.append(str(e)))
+            page.on("request", lambda r: requests.append(r.url))
+            page.goto((report_dir / "index.html").as_uri(), wait_until="load")
+            images = page.eval_on_selector_all("img", "els => els.map(e => [e.complete, e.naturalWidth])")
+            math_height = page.eval_on_selector("math", "e => e.getBoundingClientRect().height")
+            title = page.title()
+        finally:
+            context.close()
+    assert not console_errors and not page_errors, (console_errors, page_errors)
+    assert images and all(done and width > 0 for done, width in images), images
+    assert math_height > 10, "the formula did not render as MathML"
+    assert title == "costcheck report"
+    assert all(u.startswith(("file:", "data:")) for u in requests), requests
