@@ -39,6 +39,18 @@ CODES: dict[tuple[str, str], str] = {
     ("nncc", "fails"): "K401",
     ("nncc", "not-applicable"): "K408",
     ("nncc", "undecided"): "K409",
+    ("target_c_convex", "holds"): "Y600",
+    ("target_c_convex", "fails"): "Y601",
+    ("target_c_convex", "not-applicable"): "Y608",
+    ("target_c_convex", "undecided"): "Y609",
+    ("source_c_convex", "holds"): "X700",
+    ("source_c_convex", "fails"): "X701",
+    ("source_c_convex", "not-applicable"): "X708",
+    ("source_c_convex", "undecided"): "X709",
+    ("loeper", "holds"): "L800",
+    ("loeper", "fails"): "L801",
+    ("loeper", "not-applicable"): "L808",
+    ("loeper", "undecided"): "L809",
 }
 
 

@@ -23,6 +23,9 @@ CONDITION_MODULES: dict[str, str] = {
     "twist": "twist",
     "mtw": "mtw",
     "nncc": "nncc",
+    "target_c_convex": "target_c_convex",
+    "source_c_convex": "source_c_convex",
+    "loeper": "loeper",
 }
 
 DEFAULT_SEED = 20261201
