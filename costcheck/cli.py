@@ -56,6 +56,8 @@ def _build_parser() -> argparse.ArgumentParser:
                        help="derivative backend (default sympy; jax compiles slower, runs faster on large budgets)")
     check.add_argument("--only", action="append", choices=list(CONDITION_MODULES), metavar="CONDITION",
                        help=f"run only this condition (repeatable): {', '.join(CONDITION_MODULES)}")
+    check.add_argument("--plots", metavar="DIR", default=None,
+                       help="also write every picture of each cost (PNG and SVG) into DIR/<cost id>/")
 
     show = sub.add_parser("show", help="show a parsed cost file: expression, domain, derivative sizes")
     show.add_argument("file", metavar="FILE")
@@ -125,6 +127,8 @@ def _cmd_check(args, out: Console, err: Console) -> int:
         reports.append(report)
         if not args.json:
             terminal.render_report(out, report)
+        if args.plots:
+            _write_plots(report, args.plots, err)
     if errors:
         code = EXIT_BAD_INPUT
     elif any(r.mismatches for r in reports):
@@ -137,6 +141,22 @@ def _cmd_check(args, out: Console, err: Console) -> int:
     else:
         terminal.render_summary(out, reports, errors)
     return code
+
+
+def _write_plots(report, directory: str, err: Console) -> None:
+    """Every maker's pictures of one cost into ``directory/<cost id>/``, listed on stderr."""
+    from pathlib import Path
+
+    from .plots import write_figures
+
+    target = Path(directory) / report.cost.id
+    figures = write_figures(report, target)
+    if figures:
+        err.print(f"pictures of {report.cost.id} in {target}: " + ", ".join(f.png.stem for f in figures)
+                  + " (PNG and SVG)", markup=False, highlight=False, soft_wrap=True)
+    else:
+        err.print(f"no pictures for {report.cost.id} (they need n = m = 2 or a recorded configuration)",
+                  markup=False, highlight=False)
 
 
 class _Null:

@@ -64,6 +64,28 @@ class SideSpec:
         return "Y with respect to X" if self.moving == "y" else "X with respect to Y"
 
 
+def fold_reason(ctx) -> str | None:
+    """Why c-segments are not defined for this cost, if the shared sample already shows it.
+
+    ``det D²_xy c`` of both signs on the sampled pairs means the gradient map folds (on a
+    connected domain it vanishes in between: non-degeneracy fails), so the curve
+    ``-D_x c(x, y_t) = p_t`` may stop at a fold or switch branches, and "the" c-segment between
+    two points does not exist (Ma, Trudinger & Wang 2005 assume A1 and A2 before defining them).
+    """
+    d = ctx.derivs
+    if d.dxy is None or d.dxy.shape[1] != d.dxy.shape[2]:
+        return None
+    ok = ctx.defined
+    if not ok.any():
+        return None
+    det = np.linalg.det(d.dxy[ok])
+    if (det > 0).any() and (det < 0).any():
+        return (f"det D²_xy c takes both signs on the sampled pairs ({int((det > 0).sum())} positive, "
+                f"{int((det < 0).sum())} negative): the gradient map folds (non-degeneracy fails), so c-segments "
+                "are not defined between every two points")
+    return None
+
+
 def segment_budget(budget: int) -> tuple[int, int]:
     """``(segments, fixed points)`` at a context budget (4096 → 256 segments from 16 points)."""
     segments = int(np.clip(budget // 16, 48, 1024))
@@ -230,6 +252,9 @@ def check_side(ctx, spec: SideSpec) -> Verdict:
     if n != m:
         return not_applicable(spec.condition, f"c-segments need n = m (here n = {n}, m = {m}): -D c(x, ·) maps "
                                               "an m-dimensional set into R^n, and its image is not a domain")
+    fold = fold_reason(ctx)
+    if fold:
+        return not_applicable(spec.condition, fold)
     rng = ctx.rng(spec.salt)
     segments, points = segment_budget(ctx.budget)
     section = Section(cost.domain, spec.moving)

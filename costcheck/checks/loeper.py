@@ -60,6 +60,7 @@ import numpy as np
 from ..geometry.csegment import SOLVED, GradientMap, solve_direct
 from ..verdict import Evidence, Verdict, Witness, not_applicable, undecided
 from . import refine, tensor
+from .cconvex import fold_reason
 
 CONDITION = "loeper"
 _SALT = 0x1E8
@@ -95,7 +96,7 @@ def split(z: np.ndarray, n: int):
     return z[:, :n], z[:, n:2 * n], z[:, 2 * n:3 * n], z[:, 3 * n:]
 
 
-def profiles(ctx, z: np.ndarray, steps: int = STEPS) -> Profiles:
+def profiles(ctx, z: np.ndarray, steps: int = STEPS, fallback: bool = True) -> Profiles:
     """``f(t) = c(x, y_t) - c(x', y_t)`` along the c-segment w.r.t. ``x`` of every configuration row."""
     cost = ctx.cost
     n = cost.n
@@ -104,7 +105,9 @@ def profiles(ctx, z: np.ndarray, steps: int = STEPS) -> Profiles:
     K = z.shape[0]
     dom = cost.domain
     ends_ok = dom.contains_pairs(np.concatenate([x, x]), np.concatenate([y0, y1])).reshape(2, K).all(axis=0)
-    seg = solve_direct(GradientMap(ev, "y"), x, y0, y1, np.linspace(0.0, 1.0, steps + 1))
+    # a continuation that leaves Y_x can stop: such a configuration is not admissible anyway
+    seg = solve_direct(GradientMap(ev, "y"), x, y0, y1, np.linspace(0.0, 1.0, steps + 1), fallback=fallback,
+                       stop=lambda xs, ys: ~dom.contains_pairs(xs, ys))
     T = seg.ts.size
     pts = seg.points.reshape(-1, n)
     have = np.isfinite(pts).all(axis=1)
@@ -147,6 +150,9 @@ def check(ctx) -> Verdict:
     n, m = cost.n, cost.m
     if n != m:
         return not_applicable(CONDITION, f"c-segments need n = m (here n = {n}, m = {m})")
+    fold = fold_reason(ctx)
+    if fold:
+        return not_applicable(CONDITION, fold + "; the maximum principle presupposes twist and non-degeneracy")
     rng = ctx.rng(_SALT)
     count = int(np.clip(ctx.budget // 16, 64, 2048))
     z = configurations(ctx, count, rng)
@@ -165,7 +171,7 @@ def check(ctx) -> Verdict:
     lower, upper = np.concatenate([lx, lx, ly, ly]), np.concatenate([ux, ux, uy, uy])
 
     def objective(Z):
-        return -profiles(ctx, Z).J
+        return -profiles(ctx, Z, fallback=False).J
 
     zb, fb, evaluations = tensor.batched_descent(objective, z[starts], lower, upper, step=0.05,
                                                  iterations=ITERATIONS)

@@ -289,7 +289,7 @@ def solve_at(gmap: GradientMap, fixed, start, t_start, t_target, p0, p1):
                     np.where(regular[:, None], direction, 0.0), scale)
 
 
-def solve_direct(gmap: GradientMap, fixed, z0, z1, ts, *, stop=None) -> Segments:
+def solve_direct(gmap: GradientMap, fixed, z0, z1, ts, *, stop=None, fallback: bool = True) -> Segments:
     """The same c-segments as :func:`solve_segments`, solved at every grid value at once.
 
     Each ``z_t`` is found by Newton from the blend of the two ends' linear predictions,
@@ -297,7 +297,8 @@ def solve_direct(gmap: GradientMap, fixed, z0, z1, ts, *, stop=None) -> Segments
     the whole grid instead of a sweep along it.  Where twist holds along the segment the
     solution is unique, so a converged point is the continuation's point; rows where any grid
     value does not converge, or whose steps stray from the tangent prediction, are re-done by
-    continuation (:func:`solve_segments`, with ``stop``).
+    continuation (:func:`solve_segments`, with ``stop``) unless ``fallback`` is false (then they
+    are left with status NO_CONVERGENCE: cheaper, for searches that may simply skip them).
     """
     fixed, z0, z1 = (np.atleast_2d(np.asarray(a, dtype=float)) for a in (fixed, z0, z1))
     ts = np.asarray(ts, dtype=float)
@@ -339,7 +340,7 @@ def solve_direct(gmap: GradientMap, fixed, z0, z1, ts, *, stop=None) -> Segments
     out = Segments(ts, points, np.where(solved, SOLVED, NO_CONVERGENCE), np.where(solved, -1, 0), p0, p1, z0, z1,
                    reached_t, np.where(solved[:, None], z1, z0))
     redo = np.flatnonzero(~solved)
-    if redo.size == 0:
+    if redo.size == 0 or not fallback:
         return out
     again = solve_segments(gmap, fixed[redo], z0[redo], z1[redo], ts, stop=stop)
     points[redo] = again.points

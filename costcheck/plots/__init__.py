@@ -20,7 +20,12 @@ from dataclasses import dataclass
 from pathlib import Path
 
 #: "module:function" under costcheck.plots, in report order
-MAKERS: list[str] = []
+MAKERS: list[str] = [
+    "geometry:image_with_segments",
+    "geometry:c_segment_exit",
+    "geometry:maximum_principle",
+    "heatmap:mtw_margin_slices",
+]
 
 #: verdict → (colour, hatch); lightness rises from bad to good so grey prints stay ordered
 VERDICT_STYLE = {
