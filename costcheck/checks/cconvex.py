@@ -159,7 +159,7 @@ def outside_grid(section: Section, points: np.ndarray, fixed: np.ndarray) -> np.
 
 def find_exits(gmap, section: Section, seg: Segments, fixed, times, points, out, tol: float,
                eligible: np.ndarray, keep: int) -> tuple[list[Exit], int]:
-    """The ``keep`` eligible leaving rows whose first point outside is deepest, and the number of leaving rows.
+    """The ``keep`` eligible leaving rows with the deepest excursions, and the number of leaving rows.
 
     For each kept row the first exit time is bisected to ~1e-10 between its last point inside
     and its first point outside.
@@ -167,19 +167,23 @@ def find_exits(gmap, section: Section, seg: Segments, fixed, times, points, out,
     leaving = (np.nan_to_num(out, nan=-np.inf) > tol) & eligible[:, None]
     found = []
     for k in np.flatnonzero(leaving.any(axis=1)):
-        j = int(np.argmax(leaving[k]))  # the first point outside: the most readable witness
-        before = [i for i in range(j) if np.isfinite(times[k, i]) and np.isfinite(out[k, i])]
-        if before:  # (the ends themselves are inside by construction)
-            found.append((float(out[k, j]), int(k), before[-1], j))
+        first = int(np.argmax(leaving[k]))
+        before = [i for i in range(first) if np.isfinite(times[k, i]) and np.isfinite(out[k, i])]
+        if not before:  # (the ends themselves are inside by construction)
+            continue
+        deepest = float(np.nanmax(out[k]))
+        # the witness point: the first one at least half as deep as the deepest (readable, not a runaway)
+        j = int(np.argmax(np.nan_to_num(out[k], nan=-np.inf) >= 0.5 * deepest))
+        found.append((deepest, int(k), before[-1], first, j))
     found.sort(key=lambda item: -item[0])
     chosen = found[:keep]
     if not chosen:
         return [], len(found)
-    rows = np.array([k for _, k, _, _ in chosen])
-    lo_t = np.array([times[k, i] for _, k, i, _ in chosen])
-    hi_t = np.array([times[k, j] for _, k, _, j in chosen])
-    lo_z = np.array([points[k, i] for _, k, i, _ in chosen])
-    hi_z = np.array([points[k, j] for _, k, _, j in chosen])
+    rows = np.array([c[1] for c in chosen])
+    lo_t = np.array([times[c[1], c[2]] for c in chosen])
+    hi_t = np.array([times[c[1], c[3]] for c in chosen])
+    lo_z = np.array([points[c[1], c[2]] for c in chosen])
+    hi_z = np.array([points[c[1], c[3]] for c in chosen])
     for _ in range(34):
         mid = 0.5 * (lo_t + hi_t)
         z, st, _ = solve_at(gmap, fixed[rows], lo_z, lo_t, mid, seg.p0[rows], seg.p1[rows])
@@ -192,10 +196,10 @@ def find_exits(gmap, section: Section, seg: Segments, fixed, times, points, out,
         down = ok & ~outside
         lo_t, lo_z = np.where(down, mid, lo_t), np.where(down[:, None], z, lo_z)
     exits = []
-    for n_, (depth, k, _, j) in enumerate(chosen):
+    for n_, (_, k, _, _, j) in enumerate(chosen):
         z_out = points[k, j]
         viol = section.violations(z_out[None], fixed[k][None])[0]
-        exits.append(Exit(k, float(hi_t[n_]), hi_z[n_], float(times[k, j]), z_out, depth,
+        exits.append(Exit(k, float(hi_t[n_]), hi_z[n_], float(times[k, j]), z_out, float(out[k, j]),
                           section.parts()[int(np.argmax(viol))][0]))
     return exits, len(found)
 

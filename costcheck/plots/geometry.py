@@ -102,22 +102,33 @@ def image_with_segments(report, directory: Path) -> list[Figure]:
     P2 = np.where(ok, g[:, 1], np.nan).reshape(A.shape)
     right.scatter(P1[inside], P2[inside], s=2, color="#93c47d", linewidths=0, rasterized=True,
                   label="image −D_x c(x, Y)")
+    drawn = [np.array(section.region.bounds())]
     for i in range(k):
         colour = SEGMENT_COLOURS[i % len(SEGMENT_COLOURS)]
         path = seg.points[i]
         have = np.isfinite(path).all(axis=1)
         if not have.any():
             continue
-        gp, _, _, _ = gmap(np.repeat(x[None], int(have.sum()), axis=0), path[have])
-        out = section.outside_distance(path[have], np.repeat(x[None], int(have.sum()), axis=0)) > 0
-        left.plot(path[have, 0], path[have, 1], color=colour, linewidth=1.6)
-        right.plot(gp[:, 0], gp[:, 1], color=colour, linewidth=1.6)
-        if out.any():
-            left.scatter(path[have][out, 0], path[have][out, 1], s=10, marker="x", color=OUTSIDE_COLOUR, zorder=5)
-            right.scatter(gp[out, 0], gp[out, 1], s=10, marker="x", color=OUTSIDE_COLOUR, zorder=5)
-        for ax, p in ((left, path[have]), (right, gp)):
+        path = path[have]
+        gp, _, _, _ = gmap(np.repeat(x[None], path.shape[0], axis=0), path)
+        out = section.outside_distance(path, np.repeat(x[None], path.shape[0], axis=0)) > 0
+        drawn.append(path)
+        for ax, p in ((left, path), (right, gp)):
+            ax.plot(p[:, 0], p[:, 1], color=colour, linewidth=1.6)
+            if out.any():
+                mask = np.where(out, 1.0, np.nan)
+                ax.plot(p[:, 0] * mask, p[:, 1] * mask, color=OUTSIDE_COLOUR, linewidth=3.2, linestyle=(0, (2, 1.5)),
+                        zorder=5)
             ax.scatter([p[0, 0], p[-1, 0]], [p[0, 1], p[-1, 1]], s=18, color=colour, zorder=6)
-    left.scatter([], [], marker="x", color=OUTSIDE_COLOUR, label="segment point outside the domain")
+    left.plot([], [], color=OUTSIDE_COLOUR, linewidth=3.2, linestyle=(0, (2, 1.5)),
+              label="part of a segment outside the domain")
+    everything = np.concatenate(drawn)
+    lo, hi = section.region.bounds()
+    view_lo = np.maximum(everything.min(axis=0), lo - (hi - lo))
+    view_hi = np.minimum(everything.max(axis=0), hi + (hi - lo))
+    pad = 0.04 * (view_hi - view_lo)
+    left.set_xlim(view_lo[0] - pad[0], view_hi[0] + pad[0])
+    left.set_ylim(view_lo[1] - pad[1], view_hi[1] + pad[1])
     left.set_xlabel(yn[0]), left.set_ylabel(yn[1])
     right.set_xlabel(f"−∂c/∂{xn[0]}"), right.set_ylabel(f"−∂c/∂{xn[1]}")
     left.set_title("c-segments in Y (curves)")
@@ -131,7 +142,7 @@ def image_with_segments(report, directory: Path) -> list[Figure]:
                f"c-segments between boundary points, each the curve t ↦ y_t solving −D_x c(x, y_t) = (1−t)p0 + t p1. "
                "Right: the image of Y under y ↦ −D_x c(x, y) (green dots, one per grid point of Y) with the same "
                "segments, which are straight there. Y is c-convex w.r.t. x exactly when this image is convex; "
-               "crosses mark segment points outside the domain. One x only: not a verdict over all of X.")
+               "the red dashes mark the parts of segments outside the domain. One x only: not a verdict over all of X.")
     return [finish(fig, directory, "c-segments-image", "c-segments-image", caption)]
 
 
@@ -159,9 +170,18 @@ def c_segment_exit(report, directory: Path) -> list[Figure]:
         seg = solve_segments(gmap, fixed[None], z0[None], z1[None], steps=400)
         path = seg.points[0]
         have = np.isfinite(path).all(axis=1)
-        out = np.zeros(path.shape[0], bool)
-        out[have] = section.outside_distance(path[have], np.repeat(fixed[None], int(have.sum()), axis=0)) > 0
-        fig, ax = plt.subplots(figsize=(7, 6))
+        dist = np.full(path.shape[0], np.nan)
+        dist[have] = section.outside_distance(path[have], np.repeat(fixed[None], int(have.sum()), axis=0))
+        out = np.nan_to_num(dist, nan=-np.inf) > 0
+        fig, (ax, side) = plt.subplots(1, 2, figsize=(12, 5.5), gridspec_kw={"width_ratios": [1.25, 1]})
+        side.plot(seg.ts, dist, color="#1b4f72", linewidth=1.8)
+        side.axhline(0.0, color="black", linewidth=1)
+        side.fill_between(seg.ts, 0, dist, where=out, facecolor="none", edgecolor=OUTSIDE_COLOUR, hatch="////",
+                          linewidth=0, label="outside the domain")
+        side.set_xlabel("t along the c-segment")
+        side.set_ylabel("estimated distance outside the domain (< 0: inside)")
+        side.set_title("how far the segment is outside, along t", fontsize=10)
+        side.legend(loc="best", fontsize=8)
         A, B, _, inside = section_grid(section, fixed)
         mn = names(cost, moving)
         draw_region(ax, A, B, inside, f"domain {moving.upper()} at {fixed_side} (pairs constraints applied)")
@@ -198,7 +218,8 @@ def c_segment_exit(report, directory: Path) -> list[Figure]:
         caption = (f"The c-segment from {moving}0 to {moving}1 with respect to the fixed {fixed_side} = ({fx}) (the curve "
                    f"on which {grad} moves on a straight line), drawn solid inside the domain (green) and dashed where it "
                    f"is outside; the diamond is where it first leaves, the cross the point confirmed outside in high "
-                   f"precision ({v.code}). One witness: it shows that the domain is not c-convex, not how often.")
+                   f"precision ({v.code}). Right: the distance outside along t (hatched where positive), which shows "
+                   "small excursions the left panel cannot. One witness: it shows that the domain is not c-convex, not how often.")
         figures.append(finish(fig, directory, f"{condition}-witness", f"{condition}-witness", caption))
     return figures
 

@@ -40,7 +40,8 @@ def mtw_margin_slices(report, directory: Path) -> list[Figure]:
     x = central_point(cost, "x") if wx is None else wx
     y = central_point(cost, "y") if wy is None else wy
     ev = cost.derivatives(order=4)
-    fig, axes = plt.subplots(1, 2, figsize=(12, 5.2))
+    fig, axes = plt.subplots(1, 2, figsize=(12.5, 5.2))
+    fig.subplots_adjust(wspace=0.28)
     panels = []
     for ax, moving, fixed in ((axes[0], "y", x), (axes[1], "x", y)):
         section = Section(cost.domain, moving)
@@ -62,8 +63,19 @@ def mtw_margin_slices(report, directory: Path) -> list[Figure]:
         if np.isfinite(rel).any() and np.nanmin(rel) < 0 < np.nanmax(rel):
             ax.contour(A, B, rel, levels=[0.0], colors="black", linewidths=1.5)
         if np.isfinite(rel).any() and np.nanmin(rel) < 0:
-            ax.contourf(A, B, np.where(np.isfinite(rel), rel, 1.0), levels=[-np.inf, 0.0], colors="none",
-                        hatches=["////"])
+            with plt.rc_context({"hatch.color": "#9a9a9a", "hatch.linewidth": 0.6}):
+                ax.contourf(A, B, np.where(np.isfinite(rel), rel, 1.0), levels=[-np.inf, 0.0], colors="none",
+                            hatches=["//"])
+        # thin labelled level lines, so the variation reads even where the colour saturates
+        lo_v, hi_v = np.nanmin(rel), np.nanmax(rel)
+        constant = np.isfinite(lo_v) and hi_v - lo_v <= 1e-3 * max(abs(lo_v), abs(hi_v), 1e-300)
+        if constant:
+            ax.text(0.5, 0.5, f"margin constant on this slice:\n{lo_v:.4g} … {hi_v:.4g}", transform=ax.transAxes,
+                    ha="center", va="center", fontsize=10, bbox={"facecolor": "white", "alpha": 0.85})
+        elif np.isfinite(lo_v) and hi_v > lo_v:
+            lines = ax.contour(A, B, rel, levels=np.linspace(lo_v, hi_v, 7)[1:-1], colors="#404040",
+                               linewidths=0.6, linestyles="solid")
+            ax.clabel(lines, fontsize=7, fmt="%.3g")
         mn = names(cost, moving)
         fixed_side = "x" if moving == "y" else "y"
         fn = names(cost, fixed_side)
@@ -83,6 +95,6 @@ def mtw_margin_slices(report, directory: Path) -> list[Figure]:
     caption = ("Scale-free A3w margin, min over unit ξ ⊥ η of S(ξ, η) / (scale · |M⁻¹|²) (the quantity the MTW check "
                f"minimises), with one point fixed at {where}: left, x fixed and y over Y; right, y fixed and x over "
                "X. Blue is positive (A3w holds there), red negative; the black line is the zero level and the "
-               "hatched region is negative, so the sign reads in grey too. Blank: outside the domain or undefined. "
+               "hatched region is negative, so the sign reads in grey too; thin labelled lines are levels of the margin. Blank: outside the domain or undefined. "
                "Two slices through a 4-dimensional set of pairs: not the whole picture.")
     return [finish(fig, directory, "mtw-margin-slices", "mtw-margin-slices", caption)]
