@@ -149,8 +149,13 @@ def _write_plots(report, directory: str, err: Console) -> None:
 
     from .plots import write_figures
 
+    from .errors import UsageError
+
     target = Path(directory) / report.cost.id
-    figures = write_figures(report, target)
+    try:
+        figures = write_figures(report, target)
+    except OSError as exc:
+        raise UsageError(f"cannot write pictures into {target}: {exc.strerror or exc} (option --plots)") from None
     if figures:
         err.print(f"pictures of {report.cost.id} in {target}: " + ", ".join(f.png.stem for f in figures)
                   + " (PNG and SVG)", markup=False, highlight=False, soft_wrap=True)
