@@ -153,6 +153,7 @@ def _write_plots(report, directory: str, err: Console) -> None:
 
     target = Path(directory) / report.cost.id
     try:
+        target.mkdir(parents=True, exist_ok=True)
         figures = write_figures(report, target)
     except OSError as exc:
         raise UsageError(f"cannot write pictures into {target}: {exc.strerror or exc} (option --plots)") from None

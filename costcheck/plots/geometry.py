@@ -94,7 +94,7 @@ def image_with_segments(report, directory: Path) -> list[Figure]:
         return []
     k = min(6, ends.shape[0] // 2)
     z0, z1 = ends[:k], ends[k: 2 * k]
-    seg = solve_segments(gmap, np.repeat(x[None], k, axis=0), z0, z1, steps=96)
+    seg = solve_segments(gmap, np.repeat(x[None], k, axis=0), z0, z1, steps=64)
     fig, (left, right) = plt.subplots(1, 2, figsize=(11, 5))
     yn, xn = names(cost, "y"), names(cost, "x")
     draw_region(left, A, B, inside, f"Y at x (pairs constraints applied)")
@@ -167,7 +167,7 @@ def c_segment_exit(report, directory: Path) -> list[Figure]:
         z_out = np.asarray(w.y if moving == "y" else w.x, float)
         section = Section(cost.domain, moving)
         gmap = GradientMap(cost.derivatives(order=2), moving)
-        seg = solve_segments(gmap, fixed[None], z0[None], z1[None], steps=400)
+        seg = solve_segments(gmap, fixed[None], z0[None], z1[None], steps=160)
         path = seg.points[0]
         have = np.isfinite(path).all(axis=1)
         dist = np.full(path.shape[0], np.nan)
@@ -235,7 +235,7 @@ def maximum_principle(report, directory: Path) -> list[Figure]:
     x, xp = np.asarray(cfg["x"], float), np.asarray(cfg["x_prime"], float)
     y0, y1 = np.asarray(cfg["y0"], float), np.asarray(cfg["y1"], float)
     ev = cost.derivatives(order=2)
-    seg = solve_segments(GradientMap(ev, "y"), x[None], y0[None], y1[None], steps=400)
+    seg = solve_segments(GradientMap(ev, "y"), x[None], y0[None], y1[None], steps=160)
     if seg.status[0] != SOLVED:
         return []
     ys = seg.points[0]
