@@ -13,14 +13,25 @@ Procedure (the same for both sides; ``moving`` names the side whose segments are
 2. for each, segment ends in its section: boundary-focused (box corners, and boundary points
    found by bisection between inside and outside points — faces, ball spheres and the zero
    sets of ``where`` / ``pairs`` constraints alike) mixed with interior points;
-3. every c-segment on a grid of :data:`STEPS` steps by Newton continuation; a grid point whose
-   estimated distance outside the section exceeds :data:`LEAVE_TOL` × the region's diameter
-   counts as leaving (rounding on a flat face is ~1e-16 of it), and the first exit time is
-   bisected;
-4. the deepest excursion is re-solved with mpmath (Newton at 110 digits on
+3. every c-segment on a grid of :data:`STEPS` steps (Newton at all grid values at once, with
+   Newton continuation where that does not converge or strays from the tangent; a continuation
+   stops as soon as it is outside, and a row that stops early — cost undefined, singular
+   Jacobian — still contributes the furthest point it reached); a point whose estimated
+   distance outside the section exceeds :data:`LEAVE_TOL` × the region's diameter counts as
+   leaving (rounding on a flat face is ~1e-16 of it), and the first exit time is bisected;
+   a continuation that arrives at ``t = 1`` away from ``y1`` (twist fails on its way) is not
+   counted as an exit but as a segment that could not be followed;
+4. the segment with the deepest excursion is re-solved at its first point at least half as deep
+   with mpmath (Newton at 110 digits on
    ``-D c = (1 - t) p0 + t p1`` from the exact binary values of the ends) and the violated
    part (box face, ball, or constraint ``g``) re-evaluated at 50 and 80 digits: only a
    violation larger than its error estimate is a **refuted** witness.
+
+Costs whose ``det D²_xy c`` takes both signs on the shared sample get ``not-applicable``: the
+gradient map folds and c-segments are not defined (:func:`fold_reason`).  An exit seen in
+float64 but not confirmed makes the verdict ``undecided``; fewer than :data:`MIN_FOLLOWED` of
+the segments followed, too.  The segments are assumed to be the c-segments, i.e. twist holds
+on the region they pass through (the arrival check at ``t = 1`` is the test of that).
 
 No exit among the followed segments is ``holds`` with ``sampled`` evidence: it says how many
 segments, at which spatial resolution (the largest step between consecutive grid points), and

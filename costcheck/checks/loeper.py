@@ -24,6 +24,11 @@ configuration counts only if every grid point ``y_t`` lies in ``Y_x ∩ Y_{x'}``
 ``(x, y_t)`` and ``(x', y_t)`` in the domain, the cost finite there); the others are
 discarded and counted in the evidence.
 
+Hypotheses: ``n = m`` (else ``not-applicable``), and twist and non-degeneracy, without which
+c-segments are not defined; a cost whose ``det D²_xy c`` takes both signs on the shared sample
+is ``not-applicable`` (see :func:`costcheck.checks.cconvex.fold_reason`).  ``n = m = 1`` is
+allowed: the segments are intervals (and the principle then follows from twist alone).
+
 Procedure
 ---------
 1. configurations ``(x, x', y0, y1)``: ``x`` and the ends from the shared sample, ``x'`` half
