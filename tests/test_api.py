@@ -14,7 +14,10 @@ def test_check_returns_verdicts_with_evidence():
     cost = costcheck.from_expression("-(x1*y1 + x2*y2)", x=["x1", "x2"], y=["y1", "y2"], domain=BOX)
     report = costcheck.check(cost, budget=256, seed=3)
     got = {name: v.verdict for name, v in report.verdicts.items()}
-    assert got == {"nondegenerate": "holds", "twist": "holds", "mtw": "weak", "nncc": "holds"}
+    # and -D_x c = -y, -D_y c = -x: c-convexity is convexity of the boxes, and A3w on c-convex
+    # domains gives Loeper's maximum principle (MTW 2005 §2; Loeper, Acta Math. 202, 2009)
+    assert got == {"nondegenerate": "holds", "twist": "holds", "mtw": "weak", "nncc": "holds",
+                   "target_c_convex": "holds", "source_c_convex": "holds", "loeper": "holds"}
     assert all(v.evidence.kind == "sampled" for v in report.verdicts.values())
     assert report.options == {"budget": 256, "seed": 3, "backend": "sympy"}
 

@@ -249,7 +249,7 @@ def maximum_principle(report, directory: Path) -> list[Figure]:
     top.axhline(level, color="black", linestyle="--", linewidth=1, label="max(f(0), f(1))")
     above = f > level
     top.fill_between(ts, level, f, where=above, facecolor="none", edgecolor=OUTSIDE_COLOUR, hatch="////",
-                     linewidth=0, label="f above max(f(0), f(1)): violation")
+                     linewidth=0, label="f above max(f(0), f(1)): violation" if above.any() else None)
     gap = f - level
     bottom.plot(ts, gap, color="#1b4f72", linewidth=1.5)
     bottom.axhline(0, color="black", linewidth=1)

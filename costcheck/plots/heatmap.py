@@ -85,7 +85,7 @@ def mtw_margin_slices(report, directory: Path) -> list[Figure]:
         if wx is not None:
             point = wy if moving == "y" else wx
             ax.scatter(*point, s=140, marker="*", color="yellow", edgecolor="black", zorder=6, label="MTW witness")
-            ax.legend(loc="upper left", fontsize=8, framealpha=0.9)
+            ax.legend(loc="lower right", fontsize=8, framealpha=0.9)
     cbar = fig.colorbar(image, ax=axes, shrink=0.9)
     cbar.set_label("scale-free A3w margin (min over unit ξ ⊥ η)")
     cbar.ax.axhline(0.0, color="black", linewidth=1.5)
