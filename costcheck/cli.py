@@ -88,6 +88,8 @@ def _build_parser() -> argparse.ArgumentParser:
                        help="print tables only for costs with an unmet expectation, then the summary line")
     report = sub.add_parser("report", help="write a design-review report (HTML page and Markdown) of cost files")
     report.add_argument("--out", metavar="DIR", required=True, help="folder for index.html, report.md, figures/")
+    check.add_argument("--plots", metavar="DIR", default=None,
+                       help="also write every picture of each cost (PNG and SVG) into DIR/<cost id>/")
     for command in (check, report):
         _add_check_options(command, CONDITION_MODULES, DEFAULT_SEED, DEFAULT_BUDGET)
 
@@ -148,7 +150,7 @@ def _build_parser() -> argparse.ArgumentParser:
 
 #: ``check`` options that only choose where results go; every other option reaches the checks
 #: and therefore the cache key (so a new option is part of the key unless listed here)
-OUTPUT_ONLY_OPTIONS = {"command", "paths", "json", "junit", "quiet", "no_cache", "out"}
+OUTPUT_ONLY_OPTIONS = {"command", "paths", "json", "junit", "quiet", "no_cache", "out", "plots"}
 
 
 def _run_options(args) -> dict:
@@ -198,8 +200,10 @@ def _cmd_check(args, out: Console, err: Console) -> int:
     def show(report):
         if not args.json and not (args.quiet and not report.mismatches):
             terminal.render_report(out, report)
+        if args.plots:
+            _write_plots(report, args.plots, err)
 
-    result = _checked(args, err, on_report=show)
+    result = _checked(args, err, full_costs=bool(args.plots), on_report=show)
     if result is None:
         return EXIT_BAD_INPUT
     code = _exit_code(result)
@@ -248,6 +252,25 @@ def _cmd_new(args, out: Console) -> int:
     path = write_template(args.name)
     out.print(f"wrote {path}; edit it, then run: costcheck check {path}", markup=False)
     return EXIT_OK
+
+
+def _write_plots(report, directory: str, err: Console) -> None:
+    """Every maker's pictures of one cost into ``directory/<cost id>/``, listed on stderr."""
+    from .errors import UsageError
+    from .plots import write_figures
+
+    target = Path(directory) / report.cost.id
+    try:
+        target.mkdir(parents=True, exist_ok=True)
+        figures = write_figures(report, target)
+    except OSError as exc:
+        raise UsageError(f"cannot write pictures into {target}: {exc.strerror or exc} (option --plots)") from None
+    if figures:
+        err.print(f"pictures of {report.cost.id} in {target}: " + ", ".join(f.png.stem for f in figures)
+                  + " (PNG and SVG)", markup=False, highlight=False, soft_wrap=True)
+    else:
+        err.print(f"no pictures for {report.cost.id} (they need n = m = 2 or a recorded configuration)",
+                  markup=False, highlight=False)
 
 
 class _Null:

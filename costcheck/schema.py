@@ -16,6 +16,9 @@ VERDICT_WORDS: dict[str, list[str]] = {
     "nondegenerate": ["holds", "fails"],
     "mtw": ["strong", "weak", "fails"],
     "nncc": ["holds", "fails"],
+    "target_c_convex": ["holds", "fails"],
+    "source_c_convex": ["holds", "fails"],
+    "loeper": ["holds", "fails"],
     "index_form": ["holds", "fails", "not-applicable"],
     "nested": ["holds", "fails", "not-applicable"],
 }

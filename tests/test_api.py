@@ -14,8 +14,11 @@ def test_check_returns_verdicts_with_evidence():
     cost = costcheck.from_expression("-(x1*y1 + x2*y2)", x=["x1", "x2"], y=["y1", "y2"], domain=BOX)
     report = costcheck.check(cost, budget=256, seed=3)
     got = {name: v.verdict for name, v in report.verdicts.items()}
-    # index form and nestedness are questions for n > m and m = 1 with data (Chiappori–McCann–Pass 2017)
+    # index form and nestedness are questions for n > m and m = 1 with data (Chiappori–McCann–Pass 2017);
+    # -D_x c = -y, -D_y c = -x: c-convexity is convexity of the boxes, and A3w on c-convex
+    # domains gives Loeper's maximum principle (MTW 2005 §2; Loeper, Acta Math. 202, 2009)
     assert got == {"nondegenerate": "holds", "twist": "holds", "mtw": "weak", "nncc": "holds",
+                   "target_c_convex": "holds", "source_c_convex": "holds", "loeper": "holds",
                    "index_form": "not-applicable", "nested": "not-applicable"}
     assert all(v.evidence.kind == ("not_applicable" if v.verdict == "not-applicable" else "sampled")
                for v in report.verdicts.values())

@@ -13,6 +13,8 @@ quantities are the reference's definitions (``shared/reference/conditions.md``):
 - nestedness (m = 1, with data): ``y < y'``, at most ``ν((-∞, y])`` of the source has
   ``∂s/∂y(·, y) ≤ ∂s/∂y(x, y)`` and at least ``ν((-∞, y'])`` has ``∂s/∂y(·, y') < ∂s/∂y(x, y')``
   (Chiappori–McCann–Pass 2017), counted on the file's data with ``s = -c`` lambdified here.
+- Loeper's maximum principle: ``f(t) = c(x, y_t) - c(x', y_t) > max(f(0), f(1))`` with ``y_t``
+  on the c-segment w.r.t. ``x`` (Loeper 2009).
 """
 
 from __future__ import annotations
@@ -138,6 +140,19 @@ def test_failing_witness_reevaluated(path, condition):
         assert float(outside.norm() / B.norm()) > 1e-8
     elif condition == "nested":
         _check_nested_witness(cost, w)
+    elif condition == "loeper":
+        # Loeper's maximum principle (Loeper 2009; reference): along the c-segment w.r.t. x,
+        # f(t) = c(x, y_t) - c(x', y_t) rises above max(f(0), f(1)); y_t must lie on the segment,
+        # i.e. -D_x c(x, y_t) = (1 - t) p0 + t p1 (checked from the expression, not the search)
+        xp, y0, y1 = w.vectors["x_prime"], w.vectors["y0"], w.vectors["y1"]
+        t = verdict.evidence.details["worst"]["t"]
+        f = [_at(cost, cost.expr, w.x, yy) - _at(cost, cost.expr, xp, yy) for yy in (y0, w.y, y1)]
+        assert f[1] > max(f[0], f[2]), f"f = {f} has no interior maximum above its ends"
+        g = _grad_x(cost)
+        p = [[-_at(cost, gi, w.x, yy) for gi in g] for yy in (y0, w.y, y1)]
+        size = max(abs(a - b) for a, b in zip(p[2], p[0]))
+        off = max(abs(pt - ((1 - t) * a + t * b)) for pt, a, b in zip(p[1], p[0], p[2]))
+        assert off <= 1e-8 * size, "y_t is not on the c-segment at the reported t"
     else:
         xi, eta = w.vectors["xi"], w.vectors["eta"]
         if condition == "mtw":

@@ -24,6 +24,9 @@ CONDITION_MODULES: dict[str, str] = {
     "twist": "twist",
     "mtw": "mtw",
     "nncc": "nncc",
+    "target_c_convex": "target_c_convex",
+    "source_c_convex": "source_c_convex",
+    "loeper": "loeper",
     "index_form": "index_form",
     "nested": "nested",
 }

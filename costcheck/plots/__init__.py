@@ -22,6 +22,10 @@ from pathlib import Path
 #: "module:function" under costcheck.plots, in report order
 MAKERS: list[str] = [
     "determinant:determinant_maps",
+    "geometry:image_with_segments",
+    "geometry:c_segment_exit",
+    "geometry:maximum_principle",
+    "heatmap:mtw_margin_slices",
     "nested:report_figures",
 ]
 
