@@ -128,7 +128,7 @@ def _build_parser() -> argparse.ArgumentParser:
     sweep.add_argument("--no-bisect", action="store_true", help="report grid changes only, no bisection")
     sweep.add_argument("--plots", metavar="DIR", default=None, help="write PNG and SVG pictures into DIR")
 
-    from .nested.analysis import DEFAULT_LEVELS
+    from .nested.defaults import DEFAULT_LEVELS
     nested = sub.add_parser("nested", help="decide nestedness of a model with a one-dimensional target (m = 1) "
                             "on its data, and build the matching map")
     nested.add_argument("file", metavar="FILE")

@@ -14,7 +14,7 @@ from .decide import CONDITION, find_crossings, nested_verdict
 from .levels import Levels, compute_levels
 from .map import LevelTable, evaluate_map, level_table, mean_surplus, pushforward_distance
 
-DEFAULT_LEVELS = 96
+from .defaults import DEFAULT_LEVELS  # noqa: F401 - the default lives in a light module
 
 
 @dataclass
