@@ -199,6 +199,9 @@ def test_vanishing_tensor_is_proved_by_identity_and_a_non_vanishing_one_is_not()
 
 # ------------------------------------------------------------------ the catalog: never a wrong proof
 
+#: conditions whose failure witnesses are certified in ball arithmetic (costcheck.certify.witnesses)
+CERTIFIED = {"twist", "nondegenerate", "mtw", "nncc"}
+
 #: costs whose proofs are cheap; together with their published verdicts (sources in the files)
 QUICK = ["euclidean/sq-euclid.yaml", "euclidean/neg-inner.yaml", "economics/spence-mirrlees-1d.yaml",
          "economics/bilinear-matching-surplus.yaml", "euclidean/power-3.yaml", "degenerate/neg-cos-1d.yaml"]
@@ -217,7 +220,7 @@ def test_catalog_proofs_never_contradict_the_published_verdict(proved_reports, n
         verdict = report.verdicts[condition]
         if verdict.evidence.kind == "proved":
             assert verdict.verdict == expected, f"{name}: {condition} proved {verdict.verdict}, published {expected}"
-        if verdict.evidence.kind == "refuted":
+        if verdict.evidence.kind == "refuted" and condition in CERTIFIED:
             assert "enclosure" in verdict.evidence.details
 
 

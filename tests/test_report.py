@@ -61,7 +61,9 @@ def test_markdown_twin_links_its_pictures(report_dir):
     md = (report_dir / "report.md").read_text(encoding="utf-8")
     assert "$$ c(x, y) =" in md
     links = re.findall(r"!\[[^\]]*\]\(([^)]+)\)", md)
-    assert len(links) == 2  # a determinant map for each (n = 2 slices, n = 1 over (x, y))
+    # every picture the makers draw for these costs, and a determinant map for each
+    # (n = 2 slices, n = 1 over (x, y))
+    assert sum("determinant" in link for link in links) == 2 and len(links) >= 2
     for link in links:
         assert (report_dir / link).stat().st_size > 1000
 
