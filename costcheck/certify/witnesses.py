@@ -9,6 +9,9 @@ binary values the report prints:
   and ``M`` enclosed (finite) on boxes covering the segment between them, each inside the
   domain: ``det M`` is then continuous there and vanishes in between (intermediate value
   theorem).  An exact zero (sympy, exact arithmetic) is already rigorous.
+- **Loeper's maximum principle**: a Krawczyk box around ``y_t`` holds the exact c-segment point
+  (``−D_x c(x, y) = (1 − t) p₀ + t p₁``), and ``f = c(x, ·) − c(x', ·)`` enclosed on that box exceeds
+  both ends' enclosures.  (That the whole segment stays in the domain rests on the check's samples.)
 - **Twist**: ``y'`` with ``D_x c(x, y') = D_x c(x, y)``: for ``n = 1`` a certified sign change of
   ``c_x(x, ·) − c_x(x, y)`` on a short interval around ``y'`` not containing ``y``; for ``n ≥ 2``
   the Krawczyk test (Krawczyk, Computing 4, 1969; Moore–Kearfott–Cloud 2009, §8.2): a box
@@ -139,7 +142,7 @@ def _twist(cost, w, method):
                             f"{balls.text(fb)} at t = {hi[0]!r} (arb, {BITS} bits), continuous between: a collision "
                             "partner of y lies in that interval")
             continue
-        found = _krawczyk(fields, target, x, lo, hi, yp)
+        found = _krawczyk(fields, target["dx"], x, lo, hi, yp)
         if found is not None:
             return arb(0), found
     return None, "no box around y' passed the existence test (the collision may be degenerate)"
@@ -162,6 +165,7 @@ def _more_targets_than_sources(cost, fields, x, y):
 
 
 def _krawczyk(fields, target, x, lo, hi, yp):
+    """Krawczyk's test for ``D_x c(x, y') = target`` (a vector of balls) on the box ``[lo, hi]``."""
     n = len(x)
     m_point = fields.at_balls(_point(list(x) + list(yp)))
     box = fields.at_balls(_point(x) + [balls.from_bounds(a, b) for a, b in zip(lo, hi)])
@@ -173,7 +177,7 @@ def _krawczyk(fields, target, x, lo, hi, yp):
     except np.linalg.LinAlgError:
         return None
     Yb = [[arb(float(v)) for v in row] for row in Y]
-    G = [m_point["dx"][i] - target["dx"][i] for i in range(n)]
+    G = [m_point["dx"][i] - target[i] for i in range(n)]
     J = box["dxy"]
     radius = [balls.from_bounds(a - c, b - c) for a, b, c in zip(lo, hi, yp)]
     for k in range(n):
@@ -185,6 +189,45 @@ def _krawczyk(fields, target, x, lo, hi, yp):
             return None
     return (f"Krawczyk test passed on the box y' ± {float(np.max(hi - yp)):.3g} (arb, {BITS} bits): it holds exactly "
             "one solution of D_x c(x, y') = D_x c(x, y), and the box excludes y")
+
+
+def _loeper(cost, w, details):
+    """``f(t) > max(f(0), f(1))`` at the exact c-segment point, which a Krawczyk box isolates."""
+    if cost.n != cost.m:
+        return None, "the existence test for the c-segment point needs n = m"
+    worst = details.get("worst") or {}
+    if "t" not in worst:
+        return None, "the witness does not record t"
+    x, yt = np.asarray(w.x, float), np.asarray(w.y, float)
+    xp, y0, y1 = (np.asarray(w.vectors[k], float) for k in ("x_prime", "y0", "y1"))
+    t = arb(float(worst["t"]))
+    fields = FieldEnclosures(cost, ("value", "dx", "dxy"))
+    ends = [fields.at_balls(_point(list(x) + list(y))) for y in (y0, y1)]
+    ends_p = [fields.at_balls(_point(list(xp) + list(y))) for y in (y0, y1)]
+    if any(e is None for e in ends + ends_p):
+        return None, "the cost has no enclosure at the segment's ends"
+    # -D_x c(x, y_t) = (1 - t) p0 + t p1 with p = -D_x c(x, ·): the same equation for D_x c
+    target = [(1 - t) * a + t * b for a, b in zip(ends[0]["dx"], ends[1]["dx"])]
+    f_ends = [a["value"] - b["value"] for a, b in zip(ends, ends_p)]
+    locator = Locator(cost.domain, cost.n)
+    scale = float(np.max(np.abs(y1 - y0))) or 1.0
+    for rel in (1e-12, 1e-10, 1e-8, 1e-6):
+        lo, hi = yt - rel * scale, yt + rel * scale
+        if any(locator.classify(np.concatenate([p, lo]), np.concatenate([p, hi])) != "inside" for p in (x, xp)):
+            continue
+        if _krawczyk(fields, target, x, lo, hi, yt) is None:
+            continue
+        box = [balls.from_bounds(a, b) for a, b in zip(lo, hi)]
+        here, there = fields.at_balls(_point(x) + box), fields.at_balls(_point(xp) + box)
+        if here is None or there is None:
+            continue
+        f_t = here["value"] - there["value"]
+        if all(balls.positive(f_t - e) for e in f_ends):
+            gap = min((f_t - e for e in f_ends), key=balls.lower)
+            return gap, (f"a Krawczyk box of half-width {rel * scale:.2g} around y_t holds the exact c-segment point "
+                         f"at t = {float(worst['t'])!r}; there f(t) − max(f(0), f(1)) is enclosed in "
+                         f"{balls.text(gap)} (arb, {BITS} bits), above 0")
+    return None, "no box around y_t isolated the c-segment point with f(t) above both ends"
 
 
 def certify_refutation(ctx, verdict: Verdict) -> Verdict:
@@ -203,6 +246,8 @@ def certify_refutation(ctx, verdict: Verdict) -> Verdict:
                 enclosure, text = _nondegenerate(cost, w, method)
             elif verdict.condition == "twist":
                 enclosure, text = _twist(cost, w, method)
+            elif verdict.condition == "loeper":
+                enclosure, text = _loeper(cost, w, verdict.evidence.details)
             else:
                 return verdict
         except (ValueError, ArithmeticError) as exc:  # an arithmetic failure is reported, not raised
