@@ -37,6 +37,9 @@ class Cost(CostLabels):
     raw: Mapping | None = field(default=None, repr=False, compare=False)
     #: the two distributions of a matching model (``data:``), a :class:`costcheck.nested.data.DataSpec`
     data: object | None = field(default=None, repr=False, compare=False)
+    #: in a sweep: ``(expression with the varied parameters as symbols, ((symbol, value), ...))``, so
+    #: the symbolic derivatives and their compiled form are shared by every value of the family
+    family: tuple | None = field(default=None, repr=False, compare=False)
 
     @property
     def x_symbols(self) -> tuple[sp.Symbol, ...]:

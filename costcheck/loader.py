@@ -191,6 +191,8 @@ def build_cost(data: Mapping, file: str | None = None, *, param_overrides: Mappi
                 raise CostFileError(f"the constraint {text!r} mentions no coordinate", file=file, field=f"domain.pairs[{i}]")
             pairs.append(Constraint.build(ineq, x_syms + y_syms))
 
+    family = _family(data, params, param_overrides, x_names, x_syms, y_names, y_syms, define, file)
+
     spec = None
     if data.get("data"):
         from .nested.data import parse_data_spec
@@ -212,7 +214,29 @@ def build_cost(data: Mapping, file: str | None = None, *, param_overrides: Mappi
         file=file,
         raw=data,
         data=spec,
+        family=family,
     )
+
+
+def _family(data, params, overrides, x_names, x_syms, y_names, y_syms, define, file):
+    """The cost with the overridden (swept) parameters left as symbols, or None.
+
+    Built from the same text through the same parser; the checks still use the substituted
+    ``expr`` everywhere, only the float derivative evaluator is shared across the family.
+    """
+    if not overrides:
+        return None
+    # a name no file can write ("param:p"), the same at every value so compiled derivatives are shared
+    symbols = {name: sp.Symbol(f"param:{name}", real=True) for name in overrides}
+    base = {**params, **symbols, **dict(zip(x_names, x_syms)), **dict(zip(y_names, y_syms))}
+    try:
+        written = parse_expression(data["expr"], {**base, **_helpers(define, base, file)})
+    except CostFileError:
+        return None
+    template = -written if data.get("sense", "cost") == "surplus" else written
+    # exact values (a decimal as written), so high precision sees the parameter itself
+    values = tuple((symbols[name], params[name]) for name in sorted(overrides))
+    return template, values
 
 
 def load_cost(path: str | Path, *, param_overrides: Mapping[str, float] | None = None) -> Cost:

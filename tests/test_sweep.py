@@ -193,3 +193,27 @@ def test_phase_map_plots(tmp_path):
     written = write_plots(SweepResult("f", axes, ["mtw"], points, results, options={"tolerance": TOL}), tmp_path)
     assert sorted(written) == sorted(str(tmp_path / f"phase-mtw.{e}") for e in ("png", "svg"))
     assert all((tmp_path / f"phase-mtw.{e}").stat().st_size > 0 for e in ("png", "svg"))
+
+
+def test_a_family_shares_its_derivatives_and_gives_the_same_numbers():
+    # one differentiation per sweep: the template with p symbolic, evaluated at p, must agree with
+    # the cost built with p substituted (float64 to rounding; mpmath to its working precision)
+    import numpy as np
+
+    from costcheck.derivatives.mp_backend import _cached, high_precision
+    from costcheck.derivatives.sympy_backend import build
+    from costcheck.loader import load_cost
+
+    rng = np.random.default_rng(3)
+    xs, ys = rng.uniform(-1, 1, (40, 2)), rng.uniform(-1, 1, (40, 2))
+    for p in (-2.5, 0.73, 2.0):
+        cost = load_cost(POWER, param_overrides={"p": p})
+        assert cost.family is not None
+        shared = cost.derivatives(order=4)(xs, ys)
+        direct = build(cost.expr, cost.x_symbols, cost.y_symbols, 4)(xs, ys)
+        for name in ("value", "dxy", "dxxy", "dxyy", "dxxyy"):
+            a, b = getattr(shared, name), getattr(direct, name)
+            assert np.allclose(a, b, rtol=1e-10, atol=1e-12 * np.nanmax(np.abs(b))), name
+        hp_shared = high_precision(cost, 4)([0.1, 0.2], [0.7, -0.3], 40)["dxxyy"][0][1][0][1]
+        hp_direct = _cached(cost.expr, cost.x_symbols, cost.y_symbols, 4)([0.1, 0.2], [0.7, -0.3], 40)["dxxyy"][0][1][0][1]
+        assert abs(hp_shared - hp_direct) <= 1e-30 * abs(hp_direct)

@@ -108,7 +108,8 @@ def make_evaluator(cost, backend: str = "sympy", order: int = 4) -> Evaluator:
             raise UsageError(f"cost '{cost.id}' is a Python function with no symbolic form; use backend='jax'")
         from .sympy_backend import build
 
-        return Evaluator(cost.n, cost.m, order, backend, build(cost.expr, cost.x_symbols, cost.y_symbols, order))
+        return Evaluator(cost.n, cost.m, order, backend,
+                         build(cost.expr, cost.x_symbols, cost.y_symbols, order, getattr(cost, "family", None)))
     if backend == "jax":
         from .jax_backend import build_from_cost
 

@@ -33,19 +33,32 @@ _MP_KINKS = {"DiracDelta": _mp_delta, "Heaviside": _mp_heaviside, "sign": mpmath
 class HighPrecision:
     """``hp(x, y, dps)`` → dict of field name → nested lists of ``mpmath.mpf``."""
 
-    def __init__(self, expr: sp.Expr, xs: Sequence[sp.Symbol], ys: Sequence[sp.Symbol], order: int = 4):
+    def __init__(self, expr: sp.Expr, xs: Sequence[sp.Symbol], ys: Sequence[sp.Symbol], order: int = 4,
+                 extra: Sequence[sp.Symbol] = ()):
+        """``extra``: parameter symbols of a family, given values at each call (see ``Cost.family``)."""
         self.order = order
         self.names = fields_up_to(order)
         sym = symbolic_derivatives(expr, xs, ys, order)
         self._shapes = {k: np.shape(np.array(sym[k], dtype=object)) for k in self.names}
         flat = [e for k in self.names for e in np.array(sym[k], dtype=object).reshape(-1)]
         self._sizes = [int(np.prod(self._shapes[k], dtype=int)) for k in self.names]
-        self._fn = sp.lambdify(list(xs) + list(ys), flat, modules=[_MP_KINKS, "mpmath"], dummify=True, cse=True)
+        self._fn = sp.lambdify(list(xs) + list(ys) + list(extra), flat, modules=[_MP_KINKS, "mpmath"],
+                               dummify=True, cse=True)
+        self.extra_values: tuple = ()
+
+    def bound(self, values: Sequence[sp.Expr]) -> "HighPrecision":
+        """The same evaluator with the family's parameters set to the exact ``values``."""
+        other = object.__new__(HighPrecision)
+        other.__dict__.update(self.__dict__)
+        other.extra_values = tuple(values)
+        return other
 
     def __call__(self, x, y, dps: int = 50) -> dict:
         with mpmath.workdps(dps):
             # the exact binary value of each float, so the point is the one the search found
             args = [v if isinstance(v, mpmath.mpf) else mpmath.mpf(float(v)) for v in list(x) + list(y)]
+            # parameters are exact numbers (a decimal as written): rounded to the working precision only
+            args += [mpmath.mpf(str(sp.N(v, dps + 10))) for v in self.extra_values]
             values = self._fn(*args)
             out, at = {}, 0
             for name, size in zip(self.names, self._sizes):
@@ -56,14 +69,22 @@ class HighPrecision:
 
 
 @lru_cache(maxsize=32)
-def _cached(expr, xs, ys, order):
-    return HighPrecision(expr, xs, ys, order)
+def _cached(expr, xs, ys, order, extra=()):
+    return HighPrecision(expr, xs, ys, order, extra)
 
 
 def high_precision(cost, order: int = 4) -> HighPrecision | None:
-    """The high-precision evaluator of a cost, or ``None`` for a Python-function cost."""
+    """The high-precision evaluator of a cost, or ``None`` for a Python-function cost.
+
+    For one value of a sweep's family the template's evaluator is shared, with the value bound.
+    """
     if cost.expr is None:
         return None
+    family = getattr(cost, "family", None)
+    if family is not None:
+        template, values = family
+        shared = _cached(template, cost.x_symbols, cost.y_symbols, order, tuple(s for s, _ in values))
+        return shared.bound([v for _, v in values])
     return _cached(cost.expr, cost.x_symbols, cost.y_symbols, order)
 
 

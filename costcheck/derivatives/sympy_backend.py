@@ -78,13 +78,23 @@ def _symbolic_derivatives(expr, xs, ys, order) -> dict:
     return out
 
 
-def build(expr: sp.Expr, xs: Sequence[sp.Symbol], ys: Sequence[sp.Symbol], order: int):
-    """A function ``(xs (N,n), ys (N,m)) -> Derivatives`` evaluating the symbolic derivatives."""
-    return _build(expr, tuple(xs), tuple(ys), order)
+def build(expr: sp.Expr, xs: Sequence[sp.Symbol], ys: Sequence[sp.Symbol], order: int, family=None):
+    """A function ``(xs (N,n), ys (N,m)) -> Derivatives`` evaluating the symbolic derivatives.
+
+    ``family = (template, ((symbol, value), ...))`` evaluates the template's derivatives with the
+    symbols set to the values: one differentiation and one compilation for a whole sweep.
+    """
+    if family is None:
+        return _build(expr, tuple(xs), tuple(ys), order)
+    template, values = family
+    symbols = tuple(s for s, _ in values)
+    numbers = tuple(float(v) for _, v in values)
+    fn = _build(template, tuple(xs), tuple(ys), order, symbols)
+    return lambda x, y: fn(x, y, numbers)
 
 
 @lru_cache(maxsize=64)
-def _build(expr, xs, ys, order):
+def _build(expr, xs, ys, order, extra=()):
     names = fields_up_to(order)
     sym = symbolic_derivatives(expr, xs, ys, order)
     shapes = {name: np.shape(np.array(sym[name], dtype=object)) for name in names}
@@ -103,11 +113,11 @@ def _build(expr, xs, ys, order):
             idx.append(position[e])
         layout[name] = np.array(idx, dtype=int)
 
-    fn = sp.lambdify(list(xs) + list(ys), flat, modules=_MODULES, cse=True, dummify=True)
+    fn = sp.lambdify(list(xs) + list(ys) + list(extra), flat, modules=_MODULES, cse=True, dummify=True)
 
-    def evaluate(x: np.ndarray, y: np.ndarray) -> Derivatives:
+    def evaluate(x: np.ndarray, y: np.ndarray, values=()) -> Derivatives:
         count = x.shape[0]
-        columns = fn(*x.T, *y.T)
+        columns = fn(*x.T, *y.T, *values)
         table = np.empty((len(flat), count))
         for row, col in enumerate(columns):
             table[row] = np.broadcast_to(np.asarray(col, dtype=float), (count,))
