@@ -200,7 +200,7 @@ def test_vanishing_tensor_is_proved_by_identity_and_a_non_vanishing_one_is_not()
 # ------------------------------------------------------------------ the catalog: never a wrong proof
 
 #: conditions whose failure witnesses are certified in ball arithmetic (costcheck.certify.witnesses)
-CERTIFIED = {"twist", "nondegenerate", "mtw", "nncc", "loeper"}
+CERTIFIED = {"twist", "nondegenerate", "mtw", "nncc", "loeper", "target_c_convex", "source_c_convex"}
 
 #: costs whose proofs are cheap; together with their published verdicts (sources in the files)
 QUICK = ["euclidean/sq-euclid.yaml", "euclidean/neg-inner.yaml", "economics/spence-mirrlees-1d.yaml",

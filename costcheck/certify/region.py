@@ -50,14 +50,29 @@ class _Test:
     strict: bool
 
 
+def _declared(value: float):
+    """A ball holding the number the file declared: the float itself, or, where the float rounded a
+    decimal, the float ± one ulp (so both "inside" and "outside" claims hold for the declared value)."""
+    return balls.arb(value) if _outward(value, math.inf) == value else balls.arb(value, math.ulp(value))
+
+
 class Locator:
-    """Classifies cells as ``outside``, ``inside`` or ``boundary`` of the domain."""
+    """Classifies cells as ``outside``, ``inside`` or ``boundary`` of the domain.
+
+    Every part of the description is a test ``g ≥ 0``: each side's box bounds or ball, then the
+    ``where`` and ``pairs`` constraints.  (Branch-and-bound cells start inside the bounding box, but
+    witnesses and segments are arbitrary points, so the bounds are tested too.)
+    """
 
     def __init__(self, domain: Domain, n: int):
         self.tests: list[_Test] = []
         for region, offset in ((domain.x, 0), (domain.y, n)):
             if isinstance(region, Ball):
                 self.tests.append(_Test(tuple(range(offset, offset + region.dim)), ("ball", region), False))
+            else:
+                for i, (low, high) in enumerate(zip(region.lower, region.upper)):
+                    self.tests.append(_Test((offset + i,), ("above", low), False))
+                    self.tests.append(_Test((offset + i,), ("below", high), False))
         groups = ((domain.where_x, 0), (domain.where_y, n), (domain.pairs, None))
         for constraints, offset in groups:
             for c in constraints:
@@ -71,9 +86,8 @@ class Locator:
         # r² − |p − centre|², which is ≥ 0 exactly inside the ball
         total = balls.arb(0)
         for c, b in zip(region.center, cell):
-            centre = balls.arb(c) if _outward(c, math.inf) == c else balls.arb(c, math.ulp(c))
-            total = total + balls.ipow(b - centre, 2)
-        r = balls.arb(_outward(region.radius, math.inf))
+            total = total + balls.ipow(b - _declared(c), 2)
+        r = _declared(region.radius)
         return r * r - total
 
     def classify(self, lo: np.ndarray, hi: np.ndarray) -> str:
@@ -82,7 +96,13 @@ class Locator:
         for test in self.tests:
             values = [cell[i] for i in test.columns]
             if isinstance(test.function, tuple):
-                g = self._ball_margin(test.function[1], values)
+                kind, what = test.function
+                if kind == "ball":
+                    g = self._ball_margin(what, values)
+                elif kind == "above":
+                    g = values[0] - _declared(what)
+                else:
+                    g = _declared(what) - values[0]
             else:
                 g = test.function(values)[0]
             if not g.is_finite():

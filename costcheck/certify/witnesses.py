@@ -12,6 +12,9 @@ binary values the report prints:
 - **Loeper's maximum principle**: a Krawczyk box around ``y_t`` holds the exact c-segment point
   (``−D_x c(x, y) = (1 − t) p₀ + t p₁``), and ``f = c(x, ·) − c(x', ·)`` enclosed on that box exceeds
   both ends' enclosures.  (That the whole segment stays in the domain rests on the check's samples.)
+- **c-convexity**: a Krawczyk box around the reported outside point holds the exact c-segment
+  point (or dual segment point), and the whole box is shown outside the domain; both ends of the
+  segment are certified inside.
 - **Twist**: ``y'`` with ``D_x c(x, y') = D_x c(x, y)``: for ``n = 1`` a certified sign change of
   ``c_x(x, ·) − c_x(x, y)`` on a short interval around ``y'`` not containing ``y``; for ``n ≥ 2``
   the Krawczyk test (Krawczyk, Computing 4, 1969; Moore–Kearfott–Cloud 2009, §8.2): a box
@@ -144,7 +147,7 @@ def _twist(cost, w, method):
             continue
         found = _krawczyk(fields, target["dx"], x, lo, hi, yp)
         if found is not None:
-            return arb(0), found
+            return arb(0), found + " of D_x c(x, y') = D_x c(x, y), and the box excludes y"
     return None, "no box around y' passed the existence test (the collision may be degenerate)"
 
 
@@ -164,31 +167,101 @@ def _more_targets_than_sources(cost, fields, x, y):
     return None, "no open box around y with D_x c enclosed inside the domain"
 
 
-def _krawczyk(fields, target, x, lo, hi, yp):
-    """Krawczyk's test for ``D_x c(x, y') = target`` (a vector of balls) on the box ``[lo, hi]``."""
-    n = len(x)
-    m_point = fields.at_balls(_point(list(x) + list(yp)))
-    box = fields.at_balls(_point(x) + [balls.from_bounds(a, b) for a, b in zip(lo, hi)])
+def _pair(fixed, moving_values, moving: str) -> list:
+    """The (x, y) input balls with ``fixed`` as exact points and the moving side as given balls."""
+    fixed_balls = _point(fixed)
+    return fixed_balls + list(moving_values) if moving == "y" else list(moving_values) + fixed_balls
+
+
+def _krawczyk(fields, target, fixed, lo, hi, guess, moving: str = "y"):
+    """Krawczyk's test on the box ``[lo, hi]`` of the moving side for ``D_fixed c = target``.
+
+    ``moving = "y"``: unknown ``y`` with ``D_x c(x, y) = target`` (Jacobian ``M``);
+    ``moving = "x"``: unknown ``x`` with ``D_y c(x, y) = target`` (Jacobian ``Mᵀ``).
+    """
+    n = len(guess)
+    gradient = "dx" if moving == "y" else "dy"
+    m_point = fields.at_balls(_pair(fixed, _point(guess), moving))
+    box = fields.at_balls(_pair(fixed, [balls.from_bounds(a, b) for a, b in zip(lo, hi)], moving))
     if m_point is None or box is None:
         return None
-    J_mid = np.array([[float(m_point["dxy"][i][k].mid()) for k in range(n)] for i in range(n)])
+
+    def jac(f, i, j):
+        return f["dxy"][i][j] if moving == "y" else f["dxy"][j][i]
+
+    J_mid = np.array([[float(jac(m_point, i, k).mid()) for k in range(n)] for i in range(n)])
     try:
         Y = np.linalg.inv(J_mid)
     except np.linalg.LinAlgError:
         return None
     Yb = [[arb(float(v)) for v in row] for row in Y]
-    G = [m_point["dx"][i] - target[i] for i in range(n)]
-    J = box["dxy"]
-    radius = [balls.from_bounds(a - c, b - c) for a, b, c in zip(lo, hi, yp)]
+    G = [m_point[gradient][i] - target[i] for i in range(n)]
+    radius = [balls.from_bounds(a - c, b - c) for a, b, c in zip(lo, hi, guess)]
     for k in range(n):
-        value = arb(yp[k]) - sum((Yb[k][i] * G[i] for i in range(n)), arb(0))
+        value = arb(guess[k]) - sum((Yb[k][i] * G[i] for i in range(n)), arb(0))
         for j in range(n):
-            coefficient = (1 if k == j else 0) - sum((Yb[k][i] * J[i][j] for i in range(n)), arb(0))
+            coefficient = (1 if k == j else 0) - sum((Yb[k][i] * jac(box, i, j) for i in range(n)), arb(0))
             value = value + coefficient * radius[j]
         if not (value.lower() > lo[k] and value.upper() < hi[k]):
             return None
-    return (f"Krawczyk test passed on the box y' ± {float(np.max(hi - yp)):.3g} (arb, {BITS} bits): it holds exactly "
-            "one solution of D_x c(x, y') = D_x c(x, y), and the box excludes y")
+    return (f"Krawczyk test passed on the box ± {float(np.max(hi - guess)):.3g} around the point (arb, {BITS} bits): "
+            "it holds exactly one solution")
+
+
+def _inside_near(locator, cell, z, scale):
+    """``z`` if certified inside, else a point within 1e-9·scale of it that is (ends found on the
+    boundary by bisection may sit a rounding error outside; a segment from a point that close
+    leaves at a point that moved as little, far less than the exit depths reported)."""
+    if locator.classify(*cell(z, z)) == "inside":
+        return z
+    n = len(z)
+    for step in (1e-12, 1e-9):
+        for direction in np.vstack([np.eye(n), -np.eye(n)]):
+            candidate = z + step * scale * direction
+            if locator.classify(*cell(candidate, candidate)) == "inside":
+                return candidate
+    return None
+
+
+def _cconvex(cost, w, details, condition):
+    """A Krawczyk box around the reported outside point holds the exact c-segment point, and lies outside."""
+    if cost.n != cost.m:
+        return None, "the existence test for the c-segment point needs n = m"
+    moving = "y" if condition == "target_c_convex" else "x"
+    t_out = details.get("t_outside")
+    if t_out is None:
+        return None, "the witness does not record t"
+    fixed = np.asarray(w.x if moving == "y" else w.y, float)
+    z_out = np.asarray(w.y if moving == "y" else w.x, float)
+    z0, z1 = (np.asarray(w.vectors[f"{moving}{k}"], float) for k in (0, 1))
+    gradient = "dx" if moving == "y" else "dy"
+    fields = FieldEnclosures(cost, ("dx", "dy", "dxy"))
+    locator = Locator(cost.domain, cost.n)
+
+    def cell(lo, hi):
+        return (np.concatenate([fixed, lo]), np.concatenate([fixed, hi])) if moving == "y" else \
+            (np.concatenate([lo, fixed]), np.concatenate([hi, fixed]))
+
+    scale = float(np.max(np.abs(z1 - z0))) or 1.0
+    z0, z1 = _inside_near(locator, cell, z0, scale), _inside_near(locator, cell, z1, scale)
+    if z0 is None or z1 is None:
+        return None, "the segment's ends could not be certified inside the domain (they lie on its boundary)"
+    ends = [fields.at_balls(_pair(fixed, _point(z), moving)) for z in (z0, z1)]
+    if any(e is None for e in ends):
+        return None, "the gradient has no enclosure at the segment's ends"
+    t = arb(float(t_out))
+    # −D c(·, z_t) = (1 − t) p0 + t p1 with p = −D c at the ends: the same equation for D c
+    target = [(1 - t) * a + t * b for a, b in zip(ends[0][gradient], ends[1][gradient])]
+    for rel in (1e-12, 1e-10, 1e-8, 1e-6):
+        lo, hi = z_out - rel * scale, z_out + rel * scale
+        if _krawczyk(fields, target, fixed, lo, hi, z_out, moving) is None:
+            continue
+        if locator.classify(*cell(lo, hi)) == "outside":
+            return arb(0), (f"a Krawczyk box of half-width {rel * scale:.2g} around the reported point holds the exact "
+                            f"c-segment point at t = {float(t_out)!r}, and ball arithmetic shows the whole box outside "
+                            f"the domain (arb, {BITS} bits); both ends (moved by at most 1e-9 of the segment's length where "
+                            "they sat on the boundary) are certified inside")
+    return None, "no box around the outside point both isolated the c-segment point and lay surely outside"
 
 
 def _loeper(cost, w, details):
@@ -215,7 +288,7 @@ def _loeper(cost, w, details):
         lo, hi = yt - rel * scale, yt + rel * scale
         if any(locator.classify(np.concatenate([p, lo]), np.concatenate([p, hi])) != "inside" for p in (x, xp)):
             continue
-        if _krawczyk(fields, target, x, lo, hi, yt) is None:
+        if _krawczyk(fields, target, x, lo, hi, yt, "y") is None:
             continue
         box = [balls.from_bounds(a, b) for a, b in zip(lo, hi)]
         here, there = fields.at_balls(_point(x) + box), fields.at_balls(_point(xp) + box)
@@ -248,6 +321,8 @@ def certify_refutation(ctx, verdict: Verdict) -> Verdict:
                 enclosure, text = _twist(cost, w, method)
             elif verdict.condition == "loeper":
                 enclosure, text = _loeper(cost, w, verdict.evidence.details)
+            elif verdict.condition in ("target_c_convex", "source_c_convex"):
+                enclosure, text = _cconvex(cost, w, verdict.evidence.details, verdict.condition)
             else:
                 return verdict
         except (ValueError, ArithmeticError) as exc:  # an arithmetic failure is reported, not raised
