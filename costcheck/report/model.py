@@ -29,7 +29,8 @@ VECTOR_LABELS = {"y_prime": "y′", "xi": "ξ", "eta": "η"}
 CAUTION = ("A verdict whose evidence is “sampled” means that no counterexample was found among the "
            "sampled points at the stated resolution. That is evidence, not proof: a condition can fail "
            "between the samples. Only “proved” covers the whole domain, and “refuted” rests on a witness "
-           "re-evaluated in high precision, which a reader can re-check.")
+           "re-evaluated in high precision and enclosed in ball arithmetic (the enclosure is shown), which a "
+           "reader can re-check.")
 
 
 def _number(value: float) -> str:
