@@ -17,7 +17,7 @@ from ..derivatives.sympy_backend import symbolic_derivatives
 
 from . import balls
 from .arb_eval import compile_exprs
-from .dual import Dual
+from .dual import Dual, tighten
 
 
 class FieldEnclosures:
@@ -66,8 +66,13 @@ class FieldEnclosures:
         values, grads = self.function.with_gradients(box)
         middle = [0.5 * (a + b) for a, b in zip(lo, hi)]
         offsets = [arb(0, max(m - a, b - m) * (1 + 2 ** -50)) for a, b, m in zip(lo, hi, middle)]
-        over = self._arrange([Dual(v, g) for v, g in zip(values, grads)])
-        mid = self._arrange(self.function([arb(m) for m in middle]))
+        at_middle = self.function([arb(m) for m in middle])
+        # each field's own value is tightened by its mean-value form before the algebra runs, so a
+        # determinant or an inverse is formed from narrow entries (their gradients stay natural)
+        duals = [Dual(v, g) for v, g in zip(values, grads)]
+        duals = [Dual(tighten(d, m, offsets), d.grad) for d, m in zip(duals, at_middle)]
+        over = self._arrange(duals)
+        mid = self._arrange(at_middle)
         return over, mid, offsets
 
     def on_cell(self, lo, hi) -> dict | None:
