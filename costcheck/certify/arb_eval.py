@@ -26,6 +26,7 @@ import sympy as sp
 from flint import arb
 
 from . import balls
+from .dual import Dual, tighten
 
 
 class Unsupported(ValueError):
@@ -250,21 +251,31 @@ class BallFunction:
             return [nan] * self.size, [[nan] * d for _ in range(self.size)]
         return [registers[i] for i in self._outputs], [grads[i] for i in self._outputs]
 
-    def over_box(self, lo: Sequence[float], hi: Sequence[float]) -> list[arb]:
-        """Enclosures over the box ``[lo, hi]``: natural ∩ mean-value form."""
+    def duals_over_box(self, lo: Sequence[float], hi: Sequence[float]):
+        """``(duals, at_middle, offsets)`` over the box ``[lo, hi]``.
+
+        ``duals[k]`` holds expression ``k``'s value enclosed by natural ∩ mean-value form and its
+        natural gradient enclosure; ``at_middle`` the values at the box's middle point and
+        ``offsets`` the balls ``B − m``, for callers that apply the mean-value form again further on.
+        """
         box = [balls.from_bounds(a, b) for a, b in zip(lo, hi)]
         natural, gradients = self.with_gradients(box)
-        middle = [0.5 * (a + b) for a, b in zip(lo, hi)]
+        middle, offsets = cell_middle(lo, hi)
         at_middle = self([arb(m) for m in middle])
-        offsets = [arb(0, max(m - a, b - m) * (1 + 2 ** -50)) for a, b, m in zip(lo, hi, middle)]
-        out = []
-        for nat, mid, grad in zip(natural, at_middle, gradients):
-            if not mid.is_finite() or not all(g.is_finite() for g in grad):
-                out.append(nat)
-                continue
-            mean_value = mid + _sum(*(g * o for g, o in zip(grad, offsets)))
-            out.append(mean_value.intersection(nat) if nat.is_finite() else mean_value)
-        return out
+        duals = [Dual(tighten(Dual(v, g), m, offsets), g) for v, g, m in zip(natural, gradients, at_middle)]
+        return duals, at_middle, offsets
+
+    def over_box(self, lo: Sequence[float], hi: Sequence[float]) -> list[arb]:
+        """Enclosures over the box ``[lo, hi]``: natural ∩ mean-value form."""
+        return [d.value for d in self.duals_over_box(lo, hi)[0]]
+
+
+def cell_middle(lo: Sequence[float], hi: Sequence[float]) -> tuple[list[float], list[arb]]:
+    """The box's middle point (floats inside it) and balls ``[-r, r] ⊇ B − m`` per coordinate."""
+    middle = [0.5 * (a + b) for a, b in zip(lo, hi)]
+    # (1 + 2**-50) covers the rounding of the float subtraction
+    offsets = [arb(0, max(m - a, b - m) * (1 + 2 ** -50)) for a, b, m in zip(lo, hi, middle)]
+    return middle, offsets
 
 
 @lru_cache(maxsize=128)

@@ -10,14 +10,13 @@ from typing import Sequence
 
 import numpy as np
 
-from flint import arb
-
 from ..derivatives import ORDER_FIELDS
 from ..derivatives.sympy_backend import symbolic_derivatives
 
-from . import balls
 from .arb_eval import compile_exprs
-from .dual import Dual, tighten
+
+#: the derivative fields the MTW tensor is built from
+TENSOR_FIELDS = ("dxy", "dxxy", "dxyy", "dxxyy")
 
 
 class FieldEnclosures:
@@ -61,20 +60,10 @@ class FieldEnclosures:
         return out
 
     def duals_on_cell(self, lo, hi):
-        """``(fields as duals over the cell, fields at its middle, offsets B − m)``; Nones where undefined."""
-        box = [balls.from_bounds(a, b) for a, b in zip(lo, hi)]
-        values, grads = self.function.with_gradients(box)
-        middle = [0.5 * (a + b) for a, b in zip(lo, hi)]
-        offsets = [arb(0, max(m - a, b - m) * (1 + 2 ** -50)) for a, b, m in zip(lo, hi, middle)]
-        at_middle = self.function([arb(m) for m in middle])
-        # each field's own value is tightened by its mean-value form before the algebra runs, so a
-        # determinant or an inverse is formed from narrow entries (their gradients stay natural)
-        duals = [Dual(v, g) for v, g in zip(values, grads)]
-        duals = [Dual(tighten(d, m, offsets), d.grad) for d, m in zip(duals, at_middle)]
-        over = self._arrange(duals)
-        mid = self._arrange(at_middle)
-        return over, mid, offsets
+        """``(fields as duals over the cell, fields at its middle, offsets B − m)``; Nones where undefined.
 
-    def on_cell(self, lo, hi) -> dict | None:
-        """Enclosures over the box ``[lo, hi]`` (None when some derivative has none there)."""
-        return self._arrange(self.function.over_box(lo, hi))
+        Each field's own value is already tightened by its mean-value form, so a determinant or an
+        inverse is formed from narrow entries (their gradients stay natural enclosures).
+        """
+        duals, at_middle, offsets = self.function.duals_over_box(lo, hi)
+        return self._arrange(duals), self._arrange(at_middle), offsets

@@ -26,6 +26,7 @@ from flint import arb
 from . import balls, quantities
 from .branch_bound import Budget, Outcome, branch_and_bound
 from .dual import Dual, tighten
+from .enclosures import TENSOR_FIELDS
 from .space import space_for
 
 
@@ -77,15 +78,8 @@ def nondegenerate(cost, budget: Budget):
         return None, why
     if max(cost.n, cost.m) > 3 and cost.n == cost.m or min(cost.n, cost.m) > 3:
         return None, "determinant certificates are implemented up to dimension 3"
-    n, m = cost.n, cost.m
-
     def coefficients(f):
-        M = f["dxy"]
-        if n == m:
-            return [quantities.det(M)]
-        if n > m:
-            return [quantities.det(quantities.gram(M))]
-        return [quantities.det(quantities.gram(quantities.transpose(M)))]
+        return [quantities.rank_determinant(f["dxy"])]
 
     return _run(cost, ("dxy",), coefficients, _nonzero, budget), ""
 
@@ -117,9 +111,6 @@ def twist(cost, budget: Budget):
     return _run(cost, ("dxy",), coefficients, decide, budget), ""
 
 
-_TENSOR_FIELDS = ("dxy", "dxxy", "dxyy", "dxxyy")
-
-
 def _tensor_on(f):
     inv = quantities.inverse(f["dxy"])
     if inv is None:
@@ -127,24 +118,29 @@ def _tensor_on(f):
     return quantities.mtw_tensor(f, inv), inv
 
 
-def mtw_strong(cost, budget: Budget):
+def _plane_only(cost, what: str) -> str | None:
+    """Why a certificate built for ``n = m = 2`` cannot run here, or None."""
     if (why := _needs_symbols(cost)) is not None:
-        return None, why
+        return why
     if cost.n != 2 or cost.m != 2:
-        return None, "the MTW certificate is implemented for n = m = 2"
+        return f"the {what} certificate is implemented for n = m = 2"
+    return None
+
+
+def mtw_strong(cost, budget: Budget):
+    if (why := _plane_only(cost, "MTW")) is not None:
+        return None, why
 
     def coefficients(f):
         T, inv = _tensor_on(f)
         return None if T is None else quantities.orthogonal_quartic(T, inv)
 
-    return _run(cost, _TENSOR_FIELDS, coefficients, quantities.circle_lower_bound, budget), ""
+    return _run(cost, TENSOR_FIELDS, coefficients, quantities.circle_lower_bound, budget), ""
 
 
 def nncc_positive(cost, budget: Budget):
-    if (why := _needs_symbols(cost)) is not None:
+    if (why := _plane_only(cost, "NNCC")) is not None:
         return None, why
-    if cost.n != 2 or cost.m != 2:
-        return None, "the NNCC certificate is implemented for n = m = 2"
 
     def coefficients(f):
         T, _ = _tensor_on(f)
@@ -160,4 +156,4 @@ def nncc_positive(cost, budget: Budget):
         second = quantities.circle_lower_bound(values[3:])
         return None if second is None else min(first, second)
 
-    return _run(cost, _TENSOR_FIELDS, coefficients, decide, budget), ""
+    return _run(cost, TENSOR_FIELDS, coefficients, decide, budget), ""

@@ -63,6 +63,15 @@ def gram(A: Matrix) -> Matrix:
     return [[sum((a * b for a, b in zip(ci, cj)), 0) for cj in cols] for ci in cols]
 
 
+def rank_determinant(M: Matrix) -> object:
+    """``det M`` for square ``M``; otherwise the Gram determinant of the longer side (``det MᵀM`` when
+    ``M`` has more rows, ``det MMᵀ`` when more columns): non-zero exactly when ``M`` has full rank."""
+    rows, cols = len(M), len(M[0])
+    if rows == cols:
+        return det(M)
+    return det(gram(M) if rows > cols else gram(transpose(M)))
+
+
 def symmetric_part(A: Matrix) -> Matrix:
     n = len(A)
     return [[(A[i][j] + A[j][i]) / 2 for j in range(n)] for i in range(n)]

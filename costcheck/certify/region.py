@@ -56,6 +56,24 @@ def _declared(value: float):
     return balls.arb(value) if _outward(value, math.inf) == value else balls.arb(value, math.ulp(value))
 
 
+def judge(margins) -> str:
+    """``outside``, ``inside`` or ``boundary`` from the balls ``g`` of tests ``g ≥ 0`` (``> 0`` if strict).
+
+    ``margins`` yields ``(g, strict)``; outside as soon as one test surely fails, inside only
+    if every test surely holds; a ball with no enclosure leaves the cell on the boundary.
+    """
+    status = "inside"
+    for g, strict in margins:
+        if not g.is_finite():
+            status = "boundary"
+            continue
+        if g.upper() < 0 or (strict and g.upper() <= 0):
+            return "outside"
+        if not (g.lower() > 0 or (not strict and g.lower() >= 0)):
+            status = "boundary"
+    return status
+
+
 class Locator:
     """Classifies cells as ``outside``, ``inside`` or ``boundary`` of the domain.
 
@@ -90,26 +108,16 @@ class Locator:
         r = _declared(region.radius)
         return r * r - total
 
+    def _margin(self, test: _Test, values):
+        if not isinstance(test.function, tuple):
+            return test.function(values)[0]
+        kind, what = test.function
+        if kind == "ball":
+            return self._ball_margin(what, values)
+        if kind == "above":
+            return values[0] - _declared(what)
+        return _declared(what) - values[0]
+
     def classify(self, lo: np.ndarray, hi: np.ndarray) -> str:
         cell = [balls.from_bounds(a, b) for a, b in zip(lo, hi)]
-        status = "inside"
-        for test in self.tests:
-            values = [cell[i] for i in test.columns]
-            if isinstance(test.function, tuple):
-                kind, what = test.function
-                if kind == "ball":
-                    g = self._ball_margin(what, values)
-                elif kind == "above":
-                    g = values[0] - _declared(what)
-                else:
-                    g = _declared(what) - values[0]
-            else:
-                g = test.function(values)[0]
-            if not g.is_finite():
-                status = "boundary"
-                continue
-            if g.upper() < 0 or (test.strict and g.upper() <= 0):
-                return "outside"
-            if not (g.lower() > 0 or (not test.strict and g.lower() >= 0)):
-                status = "boundary"
-        return status
+        return judge((self._margin(t, [cell[i] for i in t.columns]), t.strict) for t in self.tests)

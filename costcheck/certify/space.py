@@ -21,7 +21,7 @@ import sympy as sp
 from . import balls
 from .arb_eval import compile_exprs
 from .enclosures import FieldEnclosures
-from .region import Locator, bounding_box
+from .region import Locator, bounding_box, judge
 
 
 @dataclass
@@ -59,17 +59,7 @@ class _DifferenceLocator:
 
     def classify(self, lo, hi) -> str:
         cell = [balls.from_bounds(a, b) for a, b in zip(lo, hi)]
-        status = "inside"
-        for fn, strict in self.tests:
-            g = fn(cell)[0]
-            if not g.is_finite():
-                status = "boundary"
-                continue
-            if g.upper() < 0 or (strict and g.upper() <= 0):
-                return "outside"
-            if not (g.lower() > 0 or (not strict and g.lower() >= 0)):
-                status = "boundary"
-        return status
+        return judge((fn(cell)[0], strict) for fn, strict in self.tests)
 
 
 def difference_space(cost, fields: Sequence[str]) -> ProofSpace | None:

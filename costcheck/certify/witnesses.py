@@ -33,11 +33,10 @@ from flint import arb
 
 from ..verdict import Evidence, Verdict
 from . import balls, quantities
-from .enclosures import FieldEnclosures
+from .enclosures import TENSOR_FIELDS, FieldEnclosures
 from .region import Locator
 
 BITS = 128
-_TENSOR_FIELDS = ("dxy", "dxxy", "dxyy", "dxxyy")
 
 
 def _point(values) -> list:
@@ -45,7 +44,7 @@ def _point(values) -> list:
 
 
 def _mtw(cost, w, orthogonal: bool):
-    f = FieldEnclosures(cost, _TENSOR_FIELDS).at_balls(_point(list(w.x) + list(w.y)))
+    f = FieldEnclosures(cost, TENSOR_FIELDS).at_balls(_point(list(w.x) + list(w.y)))
     if f is None:
         return None, "a derivative has no enclosure at the witness"
     inv = quantities.inverse(f["dxy"])
@@ -76,16 +75,9 @@ def _segment_continuous(cost, fields, a: np.ndarray, b: np.ndarray, pieces: int 
     return True
 
 
-def _det_of(cost, fields, z):
+def _det_of(fields, z):
     f = fields.at_balls(_point(z))
-    if f is None:
-        return None
-    M = f["dxy"]
-    n, m = cost.n, cost.m
-    if n == m:
-        return quantities.det(M)
-    G = quantities.gram(M) if n > m else quantities.gram(quantities.transpose(M))
-    return quantities.det(G)
+    return None if f is None else quantities.rank_determinant(f["dxy"])
 
 
 def _nondegenerate(cost, w, method):
@@ -97,7 +89,7 @@ def _nondegenerate(cost, w, method):
     a = np.array(list(v["bracket_a_x"]) + list(v["bracket_a_y"]), dtype=float)
     b = np.array(list(v["bracket_b_x"]) + list(v["bracket_b_y"]), dtype=float)
     fields = FieldEnclosures(cost, ("dxy",))
-    da, db = _det_of(cost, fields, a), _det_of(cost, fields, b)
+    da, db = _det_of(fields, a), _det_of(fields, b)
     if da is None or db is None or not (balls.excludes_zero(da) and balls.excludes_zero(db)):
         return None, "the determinant at the bracket ends is not enclosed away from 0"
     if balls.positive(da) == balls.positive(db):
