@@ -182,10 +182,7 @@ def test_a_proved_strong_mtw_bound_is_below_every_sampled_margin():
     from costcheck.checks import tensor
     zs = _dense_points(cost, 400, 7)
     d = cost.derivatives(order=4)(zs[:, :2], zs[:, 2:])
-    T, _ = tensor.mtw_tensor(d)
-    inv, _, _ = tensor.mixed_inverse(d.dxy)
-    p = tensor.quartic_coefficients(T, inv)
-    minimum, _ = tensor.quartic_minimum(p)
+    minimum = tensor.a3w_margin(d).raw
     assert outcome.bound > 0 and np.all(minimum >= outcome.bound - 1e-12)
 
 

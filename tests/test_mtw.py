@@ -263,25 +263,6 @@ def test_half_percent_violation_is_refuted_with_a_confirmed_witness():
 
 # --------------------------------------------------------------------------- tensor code, internal
 
-def test_quartic_minimum_is_exact():
-    """The companion-matrix minimum of S(θ) matches a dense angle grid, also for degenerate quartics."""
-    rng = np.random.default_rng(0)
-    p = rng.standard_normal((120, 5))
-    p[:40, 3] = 0.0  # the tan θ quartic drops a degree
-    p[40:60, :] = 0.0
-    p[40:60, 0] = p[40:60, 4] = 1.0  # S = cos⁴ + sin⁴
-    p[60:70, :] = [1.0, 0.0, 2.0, 0.0, 1.0]  # S ≡ 1
-    p[70:80, :] = 0.0  # S ≡ 0
-    value, theta = tensor.quartic_minimum(p)
-    grid = np.linspace(0, np.pi, 20001)
-    c, s = np.cos(grid), np.sin(grid)
-    S = sum(p[:, q, None] * c ** (4 - q) * s**q for q in range(5))
-    assert np.all(value <= S.min(axis=1) + 1e-12)  # never above the grid minimum (computed here)
-    assert np.allclose(value, S.min(axis=1), atol=1e-6)
-    at = sum(p[:, q] * np.cos(theta) ** (4 - q) * np.sin(theta) ** q for q in range(5))
-    assert np.allclose(at, value, atol=1e-12)
-
-
 def _random_derivs(n: int, count: int, rng) -> Derivatives:
     """Random derivative arrays with the symmetries of real ones (c_{ij,k} = c_{ji,k}, ...)."""
     dxy = rng.standard_normal((count, n, n)) + 2 * np.eye(n)

@@ -30,21 +30,22 @@ terms that cancel to make it: a value near ``1e-16`` is rounding, a value of ``-
 half-percent violation.  Where ``scale == 0`` (``T`` vanishes exactly) the margin is exactly 0.
 
 For ``n = 2`` the A3w margin is exact: with ``ξ = (cos θ, sin θ)`` and ``η = (-sin θ, cos θ)``,
-``S(θ)`` is a homogeneous quartic in ``(cos θ, sin θ)`` whose critical points are the roots of
-a quartic polynomial in ``tan θ`` (found as batched companion-matrix eigenvalues) plus
-``θ = π/2``; no angle grid.
+``S(θ)`` is a homogeneous quartic in ``(cos θ, sin θ)`` whose minimum is found exactly, with a
+certificate, by :mod:`costcheck.checks.quartic`; the plane's algebra is written out on columns
+in :mod:`costcheck.checks.plane_margin`.
 """
 
 from __future__ import annotations
 
-import itertools
 from typing import NamedTuple
 
 import mpmath
 import numpy as np
 
+from . import plane_margin
+
 #: pairs whose mixed Hessian has ``σ_min / σ_max`` below this are treated as singular (A2 fails there)
-SINGULAR_RCOND = 1e-12
+SINGULAR_RCOND = plane_margin.SINGULAR_RCOND
 
 #: directions of ξ sampled on the half-sphere for ``n >= 3`` (then polished by :func:`sphere_descent`)
 DEFAULT_DIRECTIONS = 96
@@ -54,11 +55,6 @@ DEFAULT_DIRECTIONS = 96
 #: in the descent loop, and every pair is computed independently, so the results do not depend on it)
 _CHUNK = 2048
 
-_J = np.array([[0.0, -1.0], [1.0, 0.0]])
-
-#: companion matrix of t^4 - 1 (roots ±1, ±i): harmless candidates where the polynomial is unusable
-_FALLBACK_COMPANION = np.diag([1.0, 1.0, 1.0], -1)
-_FALLBACK_COMPANION[0, 3] = 1.0
 
 
 class Margins(NamedTuple):
@@ -130,61 +126,6 @@ def _relative(raw, normaliser):
     with np.errstate(all="ignore"):
         rel = np.where(normaliser > 0, raw / np.where(normaliser > 0, normaliser, 1.0), 0.0)
     return np.where(np.isfinite(normaliser), rel, np.nan)
-
-
-# --------------------------------------------------------------------------- n = 2, exact A3w
-
-#: index tuples (i, j, a, b) in {0,1}^4 grouped by the number of 1s (the power of sin θ)
-_QUARTIC_GROUPS = [[t for t in itertools.product((0, 1), repeat=4) if sum(t) == q] for q in range(5)]
-
-
-def quartic_coefficients(T: np.ndarray, inv: np.ndarray) -> np.ndarray:
-    """``p (N, 5)`` with ``S(θ) = sum_q p_q cos^{4-q}θ sin^qθ`` for ξ = (cos θ, sin θ), η = (-sin θ, cos θ)."""
-    B = inv @ _J  # η' = M^{-1} J u with u = (cos θ, sin θ)
-    N = T.shape[0]
-    # U_{ijab} = sum_kl T_{ijkl} B_{ka} B_{lb}, as two batched products (same sums as the einsum)
-    V = (T.reshape(N, 8, 2) @ B).reshape(N, 4, 2, 2)            # [ij, k, b]
-    U = (np.swapaxes(B, 1, 2)[:, None] @ V).reshape(N, 2, 2, 2, 2)  # [ij, a, b]
-    return np.stack([sum(U[(slice(None),) + t] for t in group) for group in _QUARTIC_GROUPS], axis=1)
-
-
-def _quartic_value(p: np.ndarray, theta: np.ndarray) -> np.ndarray:
-    """``S(θ)`` for p (N, 5) and θ (N, K)."""
-    c, s = np.cos(theta), np.sin(theta)
-    return sum(p[:, q, None] * c ** (4 - q) * s**q for q in range(5))
-
-
-def quartic_minimum(p: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
-    """Exact minimum over θ of the quartic form with coefficients p (N, 5): ``(value, θ)``.
-
-    ``S(θ) = cos^4θ P(tan θ)`` and ``dS/dθ = cos^4θ [(1 + t^2) P'(t) - 4 t P(t)]``: the bracket is
-    a polynomial of degree at most 4 in ``t = tan θ`` (the ``t^5`` terms cancel).  Its roots,
-    plus ``θ = π/2`` (``t = ∞``), are all the critical points.
-    """
-    p0, p1, p2, p3, p4 = (p[:, k] for k in range(5))
-    q = np.stack([p1, 2 * p2 - 4 * p0, 3 * p3 - 3 * p1, 4 * p4 - 2 * p2, -p3], axis=1)  # ascending powers
-    N = p.shape[0]
-    qmax = np.max(np.abs(q), axis=1)
-    lead = q[:, 4].copy()
-    # a vanishing leading coefficient sends a root to t = ∞ (θ = π/2, a candidate anyway); a tiny
-    # stand-in keeps the companion matrix finite and moves the other roots by O(1e-13) only
-    tiny = np.abs(lead) < 1e-13 * qmax
-    lead = np.where(tiny, np.where(lead < 0, -1.0, 1.0) * 1e-13 * qmax, lead)
-    constant = qmax == 0  # S is constant in θ: any angle is a minimiser
-    lead = np.where(constant, 1.0, lead)
-    monic = np.where(constant[:, None], np.array([-1.0, 0, 0, 0]), q[:, :4] / lead[:, None])
-    comp = np.zeros((N, 4, 4))
-    comp[:, 1:, :3] = np.eye(3)
-    comp[:, :, 3] = -monic
-    ok = np.all(np.isfinite(comp.reshape(N, -1)), axis=1)
-    comp[~ok] = _FALLBACK_COMPANION
-    roots = np.linalg.eigvals(comp)
-    theta = np.concatenate([np.arctan(roots.real), np.full((N, 1), np.pi / 2), np.zeros((N, 1))], axis=1)
-    values = _quartic_value(p, theta)
-    values = np.where(np.isfinite(values), values, np.inf)
-    best = np.argmin(values, axis=1)
-    rows = np.arange(N)
-    return values[rows, best], theta[rows, best]
 
 
 # --------------------------------------------------------------------------- n >= 3 helpers
@@ -439,20 +380,18 @@ def _polished_scan(G, valid, orthogonal, directions, polish, starts: int = 3):
 def a3w_margin(derivs, *, directions: int = DEFAULT_DIRECTIONS, polish: int = 20) -> Margins:
     """Per pair: the A3w margin ``min S(ξ, η)`` over unit ``ξ ⊥ η``, scale-free and raw, and its minimisers.
 
-    ``n = 2``: exact (critical points of the quartic ``S(θ)``).  ``n >= 3``: ``directions``
+    ``n = 2``: exact (the certified minimum of the quartic ``S(θ)``).  ``n >= 3``: ``directions``
     quasi-uniform ξ, then ``polish`` steps of :func:`sphere_descent` from each pair's 3 best directions.  ``n = 1``: the
     condition is empty (ξ^⊥ = {0}); every margin is reported as 0.
     """
     n = np.shape(derivs.dxy)[1]
-    T, inv, G, normalising, valid = _prepare(derivs, need_g=n >= 3)  # the exact n = 2 path needs no G
+    if n == 2:  # written out on columns, no tensor arrays
+        m = plane_margin.a3w_margin(derivs)
+        return Margins(m.rel, m.raw, m.xi, m.eta, m.normaliser, m.valid)
+    T, inv, G, normalising, valid = _prepare(derivs, need_g=n >= 3)
     N = T.shape[0]
     if n == 1:
         return _finish(np.zeros(N), np.ones((N, 1)), np.zeros((N, 1)), normalising, valid)
-    if n == 2:
-        raw, theta = quartic_minimum(quartic_coefficients(T, inv))
-        xi = np.stack([np.cos(theta), np.sin(theta)], axis=1)
-        eta = np.stack([-np.sin(theta), np.cos(theta)], axis=1)
-        return _finish(raw, xi, eta, normalising, valid)
     raw, xi, eta = _polished_scan(G, valid, True, sphere_directions(n, directions), polish)
     return _finish(raw, xi, eta, normalising, valid)
 

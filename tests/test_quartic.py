@@ -1,0 +1,116 @@
+"""The certified, eigenvalue-free minimum of the n = 2 quartic S(θ), and the columnwise plane margin.
+
+References used here are computed in the tests themselves: a dense angle grid (20,001 angles)
+and the companion-matrix route (all critical points, LAPACK eigenvalues).
+"""
+
+import numpy as np
+import pytest
+from hypothesis import given, settings
+from hypothesis import strategies as st
+from hypothesis.extra.numpy import arrays
+
+import costcheck
+from costcheck.checks import plane_margin, quartic, tensor
+
+GRID = np.linspace(0.0, np.pi, 20001)
+
+
+def _dense_minimum(p):
+    c, s = np.cos(GRID), np.sin(GRID)
+    return np.min(sum(p[:, q, None] * c ** (4 - q) * s**q for q in range(5)), axis=1)
+
+
+def _value_at(p, cos, sin):
+    return sum(p[:, q] * cos ** (4 - q) * sin**q for q in range(5))
+
+
+def _families(rng, count=3000):
+    p = rng.standard_normal((count, 5))
+    p[:200, 3] = 0.0                                  # the tan θ quartic drops a degree
+    p[200:300] = [1.0, 0.0, 0.0, 0.0, 1.0]            # cos⁴ + sin⁴: four minima of equal value
+    p[300:400] = [1.0, 0.0, 2.0, 0.0, 1.0]            # S ≡ 1
+    p[400:500] = 0.0                                  # S ≡ 0
+    p[500:600] = [1.0, 0.0, 2.0, 0.0, 1.0] + 1e-15 * rng.standard_normal((100, 5))  # S ≡ 1 up to rounding
+    p[600:700] *= 1e-200                              # tiny scale
+    p[700:800, 1:4] = 0.0                             # p0 cos⁴ + p4 sin⁴
+    return p
+
+
+def test_exact_minimum_matches_dense_grid_and_eigenvalues():
+    p = _families(np.random.default_rng(1))
+    found = quartic.exact_minimum(p)
+    slow = quartic.minimum_by_eigenvalues(p)
+    reference = np.minimum(_dense_minimum(p), slow.value)
+    scale = np.max(np.abs(p), axis=1)
+    scale = np.where(scale > 0, scale, 1.0)
+    assert np.all(np.abs(found.value - reference) <= 1e-12 * scale)
+    # the value is S at the returned unit vector: a real angle, never below the true minimum
+    assert np.allclose(found.cos**2 + found.sin**2, 1.0, atol=1e-14)
+    assert np.all(np.abs(_value_at(p, found.cos, found.sin) - found.value) <= 1e-13 * scale)
+
+
+def test_the_certificate_is_honest_and_mostly_granted():
+    # rows the fast path certifies must be exact without any help from the eigenvalue route
+    p = _families(np.random.default_rng(2))
+    fast = quartic.minimum(p)
+    reference = np.minimum(_dense_minimum(p), quartic.minimum_by_eigenvalues(p).value)
+    scale = np.maximum(np.max(np.abs(p), axis=1), 1e-300)
+    ok = fast.certified
+    assert np.all(np.abs(fast.value[ok] - reference[ok]) <= 1e-12 * scale[ok])
+    assert np.all(fast.value >= reference - 1e-12 * scale)  # uncertified rows: still S at a real angle
+    assert ok[300:500].all()                                   # exactly constant: certified
+    assert np.mean(ok[800:]) > 0.95                            # random quartics: measured ~0.97
+
+
+@settings(max_examples=60, deadline=None)
+@given(arrays(np.float64, (16, 5), elements=st.floats(-1e3, 1e3, allow_subnormal=False)))
+def test_certified_rows_are_exact_for_arbitrary_coefficients(p):
+    fast = quartic.minimum(p)
+    reference = np.minimum(_dense_minimum(p), quartic.minimum_by_eigenvalues(p).value)
+    scale = np.max(np.abs(p), axis=1) + 1e-300
+    ok = fast.certified
+    assert np.all(np.abs(fast.value[ok] - reference[ok]) <= 1e-11 * scale[ok])
+    patched = quartic.exact_minimum(p)
+    assert np.all(np.abs(patched.value - reference) <= 1e-9 * scale)
+
+
+def test_jitted_stages_match_numpy():
+    pytest.importorskip("jax")
+    from costcheck.derivatives.jax_backend import _jax
+
+    jax, jnp = _jax()
+    p = _families(np.random.default_rng(3), 1024)
+    stage = jax.jit(lambda q: quartic.bracket(q, jnp))(jnp.asarray(p))
+    out = jax.jit(lambda q, s: quartic.polish(q, s, jnp))(jnp.asarray(p), stage)
+    ref = quartic.minimum(p)
+    scale = np.max(np.abs(p), axis=1)
+    assert np.mean(np.asarray(out.certified) == ref.certified) > 0.99  # XLA may round differently
+    np.testing.assert_allclose(np.asarray(out.value), ref.value, rtol=0, atol=1e-12)
+    # the minimiser may differ where S is flat (constant up to rounding); it must attain the value
+    attained = _value_at(p, np.asarray(out.cos), np.asarray(out.sin))
+    assert np.all(np.abs(attained - np.asarray(out.value)) <= 1e-12 * scale)
+
+
+def test_plane_margin_matches_the_tensor_written_out_on_catalog_costs():
+    # the columnwise algebra against the general (N, n, n, n, n) tensor code and a dense angle grid
+    for name in ("euclidean/power-0.5.yaml", "sphere/sphere-dist-sq.yaml", "euclidean/power-3.yaml"):
+        cost = costcheck.load(f"catalog/{name}")
+        from costcheck.checks.sampler import sample_pairs
+
+        s = sample_pairs(cost.domain, 2, 2, 300, 5)
+        d = cost.derivatives(order=4)(s.xs, s.ys)
+        m = plane_margin.a3w_margin(d)
+        T, scale = tensor.mtw_tensor(d)
+        inv = np.linalg.inv(d.dxy)
+        xi = np.stack([np.cos(GRID[::20]), np.sin(GRID[::20])], axis=1)
+        eta = np.stack([-xi[:, 1], xi[:, 0]], axis=1)
+        eta_p = np.einsum("nkl,tl->ntk", inv, eta)
+        grid = np.einsum("nijkl,ti,tj,ntk,ntl->nt", T, xi, xi, eta_p, eta_p).min(axis=1)
+        ok = m.valid
+        assert ok.mean() > 0.9
+        size = scale[ok] * np.max(np.sum(eta_p[ok] ** 2, axis=2), axis=1)
+        assert np.all(m.raw[ok] <= grid[ok] + 1e-12 * size)          # never above the grid
+        assert np.all(m.raw[ok] >= grid[ok] - 1e-5 * size)           # and close to it (1,001 angles)
+        attained = tensor.form_at(d, m.xi, m.eta)
+        assert np.allclose(attained[ok], m.raw[ok], rtol=1e-10, atol=1e-12 * np.max(size))
