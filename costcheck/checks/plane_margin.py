@@ -38,14 +38,14 @@ _MULTIPLICITY = {(0, 0): 1.0, (0, 1): 2.0, (1, 1): 1.0}
 class Prepared(NamedTuple):
     """Columns the minimisation and the normaliser need (all of length N)."""
 
-    p: object          # (N, 5) coefficients of S(θ)
+    T: tuple           # T_{ij,kl} for (ij, kl) in _PAIRS × _PAIRS, row-major: 9 columns
     inv: tuple         # M⁻¹ entries (i00, i01, i10, i11); the identity where not valid
     scale: object      # |c_{ij,r} c^{r,s} c_{s,kl}|_F + |c_{ij,kl}|_F
     valid: object      # finite derivatives, invertible M, finite scale
 
 
 def prepare(dxy, dxxy, dxyy, dxxyy, xp=np) -> Prepared:
-    """From the derivative fields (shapes (N,2,2), (N,2,2,2), (N,2,2,2), (N,2,2,2,2)) to ``S``'s coefficients."""
+    """From the derivative fields (shapes (N,2,2), (N,2,2,2), (N,2,2,2), (N,2,2,2,2)) to ``T`` and ``M⁻¹``."""
     m00, m01, m10, m11 = dxy[:, 0, 0], dxy[:, 0, 1], dxy[:, 1, 0], dxy[:, 1, 1]
     det = m00 * m11 - m01 * m10
     frob = m00 * m00 + m01 * m01 + m10 * m10 + m11 * m11
@@ -62,7 +62,7 @@ def prepare(dxy, dxxy, dxyy, dxxyy, xp=np) -> Prepared:
 
     # c_{ij,r} c^{r,s}: the row vectors w_{ij} = c_{ij,·} M⁻¹
     w = {ij: [sum(entry(dxxy, *ij, r) * I[r][s] for r in range(2)) for s in range(2)] for ij in _PAIRS}
-    T, first_sq, fourth_sq = {}, 0.0, 0.0
+    T, first_sq, fourth_sq = [], 0.0, 0.0
     for ij in _PAIRS:
         for kl in _PAIRS:
             first = sum(w[ij][s] * entry(dxyy, s, *kl) for s in range(2))
@@ -70,23 +70,28 @@ def prepare(dxy, dxxy, dxyy, dxxyy, xp=np) -> Prepared:
             weight = _MULTIPLICITY[ij] * _MULTIPLICITY[kl]
             first_sq = first_sq + weight * first * first
             fourth_sq = fourth_sq + weight * fourth * fourth
-            T[ij, kl] = first - fourth
+            T.append(first - fourth)
     scale = xp.sqrt(first_sq) + xp.sqrt(fourth_sq)
     valid = valid & xp.isfinite(scale)
+    return Prepared(tuple(xp.where(valid, t, 0.0) for t in T), inv, xp.where(valid, scale, xp.nan), valid)
+
+
+def coefficients(prepared: Prepared, xp=np):
+    """``p (N, 5)``: ``S(θ) = Σ_q p_q cos^{4−q}θ sin^qθ`` (cheap; recomputed by each stage that needs it)."""
+    i00, i01, i10, i11 = prepared.inv
     # B = M⁻¹ J with J = [[0, -1], [1, 0]]: B[k][0] = c^{k,1}, B[k][1] = -c^{k,0}
-    B = ((I[0][1], -I[0][0]), (I[1][1], -I[1][0]))
+    B = ((i01, -i00), (i11, -i10))
+    T = dict(zip([(ij, kl) for ij in _PAIRS for kl in _PAIRS], prepared.T))
     U = {}
     for ij in _PAIRS:
         t = {(k, l): T[ij, tuple(sorted((k, l)))] for k in range(2) for l in range(2)}
         for a, b in _PAIRS:
             U[ij, (a, b)] = sum(t[k, l] * B[k][a] * B[l][b] for k in range(2) for l in range(2))
-    p = [U[(0, 0), (0, 0)],
-         2 * U[(0, 1), (0, 0)] + 2 * U[(0, 0), (0, 1)],
-         U[(1, 1), (0, 0)] + 4 * U[(0, 1), (0, 1)] + U[(0, 0), (1, 1)],
-         2 * U[(1, 1), (0, 1)] + 2 * U[(0, 1), (1, 1)],
-         U[(1, 1), (1, 1)]]
-    p = xp.stack([xp.where(valid, q, 0.0) for q in p], axis=-1)
-    return Prepared(p, inv, xp.where(valid, scale, xp.nan), valid)
+    return xp.stack([U[(0, 0), (0, 0)],
+                     2 * U[(0, 1), (0, 0)] + 2 * U[(0, 0), (0, 1)],
+                     U[(1, 1), (0, 0)] + 4 * U[(0, 1), (0, 1)] + U[(0, 0), (1, 1)],
+                     2 * U[(1, 1), (0, 1)] + 2 * U[(0, 1), (1, 1)],
+                     U[(1, 1), (1, 1)]], axis=-1)
 
 
 class PlaneMargins(NamedTuple):
@@ -133,6 +138,7 @@ def a3w_margin(derivs) -> PlaneMargins:
         for begin in range(0, max(N, 1), CHUNK):
             chunk = [f[begin:begin + CHUNK] for f in fields]
             prepared = prepare(*chunk)
-            found = quartic.patch_uncertified(prepared.p, quartic.minimum(prepared.p))
+            p = coefficients(prepared)
+            found = quartic.patch_uncertified(p, quartic.minimum(p))  # exact everywhere
             parts.append(finish(prepared, found))
     return PlaneMargins(*(np.concatenate([getattr(part, name) for part in parts]) for name in PlaneMargins._fields))

@@ -115,35 +115,41 @@ def _chain(combine, items):
     return out
 
 
-class Bracketing(NamedTuple):
-    """The grid stage's result per row: the candidate so far (``value`` at ``u`` in ``chart``: 0 for
-    A, 1 for B; it is ``S(−π/4)``), the first and last cell holding a local minimum (cells of A are 0..K-1, of B K..2K-1),
-    how many such cells there are, and whether every cell was certified."""
+#: the grid stage's four small integers per row travel packed in one float (exact below 2⁵³):
+#: ``first + B (last + 1) + B² count + B³ certified`` with ``B = 2K + 1``
+_BASE = 2 * CELLS + 1
 
-    value: object
-    u: object
-    chart: object
-    first: object
-    last: object
-    count: object
-    certified: object
+
+def unpack(packed, xp=np):
+    """``(first, last, count, certified)`` from :func:`bracket`'s packed column.
+
+    ``first`` and ``last`` are the first and last cell holding a local minimum (the cells of
+    chart A are 0..K-1, those of chart B K..2K-1), ``count`` how many cells hold one, and
+    ``certified`` whether every cell was certified.
+    """
+    rest, first = xp.divmod(packed, float(_BASE))
+    rest, last = xp.divmod(rest, float(_BASE))
+    certified, count = xp.divmod(rest, float(_BASE))
+    return first, last - 1.0, count, certified > 0.5
 
 
 def minimum(p, xp=np) -> QuarticMinimum:
     """Exact ``min_θ S(θ)`` for coefficient rows ``p (N, 5)`` (see the module docstring).
 
     Two stages, :func:`bracket` and :func:`polish`; a jitted kernel should compile them as two
-    programs (XLA would otherwise fuse the grid stage into every Newton step and run it six times
-    over; the CPU compiler drops optimisation barriers).
+    programs (XLA would otherwise fuse the grid stage into every Newton step and run it several
+    times over; its CPU compiler drops optimisation barriers).
     """
     return polish(p, bracket(p, xp), xp)
 
 
-def bracket(p, xp=np) -> Bracketing:
-    """The grid stage: node values, certificates and the cells holding local minima.
+def bracket(p, xp=np):
+    """The grid stage: certificates and the cells holding local minima, packed in one column
+    (:func:`unpack`).
 
-    Written on whole columns with elementwise operations only (no gathers, no argmin), so that a
-    jitted kernel fuses it into one loop and numpy works on one short column at a time.
+    Written on whole columns with elementwise operations only (no gathers, no argmin) and with
+    a single output, so that a jitted kernel fuses it into one loop (with several outputs XLA
+    would recompute the shared cells for each) and numpy works on one short column at a time.
     """
     columns = [p[:, k] for k in range(5)]
     finite = xp.all(xp.isfinite(p), axis=-1)
@@ -181,21 +187,21 @@ def bracket(p, xp=np) -> Bracketing:
         constant = constant & (c == 0)
     # a degree-2 trigonometric polynomial in 2θ has at most two local minima per period (a
     # minimum exactly on a shared chart end counts twice: then the eigenvalue route decides)
-    certified = constant | (covered & (count <= 2))
-
-    # θ = −π/4 (u = −1 in chart A; the same point as u = −1 in chart B) is the first candidate:
-    # it is the one node no cell's closed right end reaches, and the answer when S is constant
-    p0, p1, p2, p3, p4 = columns
-    value, zero = 0.25 * (p0 - p1 + p2 - p3 + p4), xp.zeros_like(p0)
-    return Bracketing(value, zero - 1.0, zero, first, last, count, certified & finite)
+    certified = (constant | (covered & (count <= 2))) & finite
+    B = float(_BASE)
+    return first + B * (last + 1.0) + B * B * count + B**3 * xp.where(certified, 1.0, 0.0)
 
 
-def polish(p, stage: Bracketing, xp=np) -> QuarticMinimum:
+def polish(p, packed, xp=np) -> QuarticMinimum:
     """The polishing stage: Newton's method in the (at most two) cells holding a local minimum."""
     columns = [p[:, k] for k in range(5)]
     w = 1.0 / CELLS
-    value, u, chart, count, certified = stage.value, stage.u, stage.chart, stage.count, stage.certified
-    for cell in (xp.where(count > 0, stage.first, 0.0), xp.where(count > 0, stage.last, 0.0)):
+    first, last, count, certified = unpack(packed, xp)
+    # θ = −π/4 (u = −1 in chart A; the same point as u = −1 in chart B) is the first candidate:
+    # it is the one node no cell's closed right end reaches, and the answer when S is constant
+    p0, p1, p2, p3, p4 = columns
+    value, u, chart = 0.25 * (p0 - p1 + p2 - p3 + p4), xp.zeros_like(p0) - 1.0, xp.zeros_like(p0)
+    for cell in (xp.where(count > 0, first, 0.0), xp.where(count > 0, last, 0.0)):
         in_b = cell >= CELLS
         a = -1.0 + 2.0 * w * (cell - xp.where(in_b, float(CELLS), 0.0))
         P = [xp.where(in_b, q, o) for q, o in zip(columns[::-1], columns)]

@@ -100,53 +100,72 @@ def _function_table(jnp):
     }
 
 
+def _translator(jax, jnp, known: dict):
+    """``walk(expr)``: the JAX value of a sympy expression, given the values in ``known``
+    (symbols, and shared subexpressions already computed); every node is translated once."""
+    table = _function_table(jnp)
+
+    def walk(e):
+        if e in known:
+            return known[e]
+        if e.is_Number or e in (sp.pi, sp.E):
+            v = jnp.asarray(float(e), dtype=jnp.float64)
+        elif e.is_Add:
+            v = walk(e.args[0])
+            for a in e.args[1:]:
+                v = v + walk(a)
+        elif e.is_Mul:
+            v = walk(e.args[0])
+            for a in e.args[1:]:
+                v = v * walk(a)
+        elif e.is_Pow:
+            base, exponent = e.args
+            if exponent.is_Integer:
+                v = jax.lax.integer_pow(walk(base), int(exponent))
+            elif exponent == sp.Rational(1, 2):
+                v = jnp.sqrt(walk(base))
+            elif exponent == -sp.Rational(1, 2):
+                v = 1.0 / jnp.sqrt(walk(base))
+            elif base == sp.E:
+                v = jnp.exp(walk(exponent))
+            else:
+                v = jnp.power(walk(base), walk(exponent))
+        elif e.func in table and len(e.args) == 1:
+            v = table[e.func](walk(e.args[0]))
+        else:
+            raise UsageError(f"the JAX backend cannot translate {e.func.__name__}")
+        known[e] = v
+        return v
+
+    return walk
+
+
 def sympy_to_jax(expr: sp.Expr, xs: Sequence[sp.Symbol], ys: Sequence[sp.Symbol]) -> Callable:
     """A JAX-traceable ``f(x, y)`` computing ``expr`` (x, y are 1-D arrays)."""
     jax, jnp = _jax()
-    table = _function_table(jnp)
-    x_index = {s: i for i, s in enumerate(xs)}
-    y_index = {s: i for i, s in enumerate(ys)}
 
     def f(x, y):
-        cache: dict = {}
+        known = {s: x[i] for i, s in enumerate(xs)}
+        known.update({s: y[k] for k, s in enumerate(ys)})
+        return _translator(jax, jnp, known)(expr)
 
-        def walk(e):
-            if e in cache:
-                return cache[e]
-            if e in x_index:
-                v = x[x_index[e]]
-            elif e in y_index:
-                v = y[y_index[e]]
-            elif e.is_Number or e in (sp.pi, sp.E):
-                v = jnp.asarray(float(e), dtype=jnp.float64)
-            elif e.is_Add:
-                v = walk(e.args[0])
-                for a in e.args[1:]:
-                    v = v + walk(a)
-            elif e.is_Mul:
-                v = walk(e.args[0])
-                for a in e.args[1:]:
-                    v = v * walk(a)
-            elif e.is_Pow:
-                base, exponent = e.args
-                if exponent.is_Integer:
-                    v = jax.lax.integer_pow(walk(base), int(exponent))
-                elif exponent == sp.Rational(1, 2):
-                    v = jnp.sqrt(walk(base))
-                elif exponent == -sp.Rational(1, 2):
-                    v = 1.0 / jnp.sqrt(walk(base))
-                elif base == sp.E:
-                    v = jnp.exp(walk(exponent))
-                else:
-                    v = jnp.power(walk(base), walk(exponent))
-            elif e.func in table and len(e.args) == 1:
-                v = table[e.func](walk(e.args[0]))
-            else:
-                raise UsageError(f"the JAX backend cannot translate {e.func.__name__}")
-            cache[e] = v
-            return v
+    return f
 
-        return walk(expr)
+
+def sympy_columns_to_jax(exprs: Sequence[sp.Expr], symbols: Sequence[sp.Symbol]) -> Callable:
+    """A JAX-traceable ``f(columns)`` returning the list of ``exprs`` evaluated on the columns (one
+    array per symbol).  Common subexpressions are found once by ``sympy.cse`` and computed once:
+    the symbolic route to derivatives, which for high orders does far less arithmetic than
+    nesting forward-mode transforms."""
+    jax, jnp = _jax()
+    replacements, reduced = sp.cse(list(exprs))
+
+    def f(columns):
+        known = dict(zip(symbols, columns))
+        walk = _translator(jax, jnp, known)
+        for symbol, e in replacements:
+            known[symbol] = walk(e)
+        return [jnp.broadcast_to(walk(e), columns[0].shape) for e in reduced]
 
     return f
 

@@ -1,0 +1,125 @@
+"""The n = 2 A3w margin as compiled kernels: derivatives and margin fused, for large budgets.
+
+The sympy route evaluates the derivative fields with numpy and then the margin
+(:mod:`costcheck.checks.plane_margin`), each step a pass over memory.  Here the same
+mathematics is traced once into three XLA programs (``jax.jit``):
+
+1. the cost's derivatives up to order 4, from the symbolic derivatives with shared
+   subexpressions (:func:`costcheck.derivatives.jax_backend.sympy_columns_to_jax`), then
+   ``M⁻¹`` and ``T`` (:func:`costcheck.checks.plane_margin.prepare`);
+2. the quartic ``S(θ)`` and the grid stage of its certified minimum
+   (:func:`costcheck.checks.quartic.bracket`);
+3. the Newton polish (:func:`costcheck.checks.quartic.polish`) and the margins.
+
+Three programs, not one: XLA fuses elementwise producers into each consumer, so in one
+program the grid stage would be computed again inside every Newton step and for every
+output (its CPU compiler drops optimisation barriers); a program's outputs are computed once.  Rows the quartic
+certificate leaves open are redone on the host by the eigenvalue route, so every minimum is
+exact, as on the sympy route.  Batches are padded to a fixed chunk, so one compilation serves
+every batch size, and JAX's persistent compilation cache keeps it between runs.
+
+Compilation takes seconds: worth it for large budgets, not for one small check
+(:func:`worthwhile`).
+"""
+
+from __future__ import annotations
+
+from functools import lru_cache
+
+import numpy as np
+
+from . import plane_margin, quartic
+
+#: pairs per compiled call (padded); bounds the memory of one call to a few tens of MB
+CHUNK = 1 << 16
+
+#: below this many pairs the compilation costs more than it saves
+WORTHWHILE_PAIRS = 1 << 18
+
+_FIELDS = ("dxy", "dxxy", "dxyy", "dxxyy")
+_SHAPES = {"dxy": (2, 2), "dxxy": (2, 2, 2), "dxyy": (2, 2, 2), "dxxyy": (2, 2, 2, 2)}
+
+
+def applicable(cost) -> bool:
+    """A symbolic cost with n = m = 2 (a Python-function cost has no symbolic derivatives)."""
+    return cost.expr is not None and cost.n == 2 and cost.m == 2
+
+
+def worthwhile(cost, pairs: int) -> bool:
+    return applicable(cost) and pairs >= WORTHWHILE_PAIRS
+
+
+@lru_cache(maxsize=16)
+def _programs(expr, xs, ys):
+    from ..derivatives.jax_backend import _jax, sympy_columns_to_jax
+    from ..derivatives.sympy_backend import symbolic_derivatives
+
+    jax, jnp = _jax()
+    sym = symbolic_derivatives(expr, xs, ys, 4)
+    flat, layout = [], {}
+    for name in _FIELDS:
+        entries = np.array(sym[name], dtype=object).reshape(-1)
+        layout[name] = []
+        for e in entries:
+            if e not in flat:
+                flat.append(e)
+            layout[name].append(flat.index(e))
+    columns_of = sympy_columns_to_jax(flat, list(xs) + list(ys))
+
+    def algebra(z):
+        cols = columns_of([z[:, k] for k in range(z.shape[1])])
+        fields = [jnp.stack([cols[i] for i in layout[name]], axis=-1).reshape((-1,) + _SHAPES[name])
+                  for name in _FIELDS]
+        return plane_margin.prepare(*fields, xp=jnp)
+
+    def grid(prepared):
+        return quartic.bracket(plane_margin.coefficients(prepared, jnp), jnp)
+
+    def minimum(prepared, packed):
+        p = plane_margin.coefficients(prepared, jnp)
+        return plane_margin.finish(prepared, quartic.polish(p, packed, jnp), jnp), p
+
+    return jax.jit(algebra), jax.jit(grid), jax.jit(minimum)
+
+
+def a3w_margin(cost, xs: np.ndarray, ys: np.ndarray) -> plane_margin.PlaneMargins:
+    """Exact n = 2 A3w margins at the pairs ``(xs, ys)``, computed by the compiled kernels."""
+    algebra, grid, minimum = _programs(cost.expr, tuple(cost.x_symbols), tuple(cost.y_symbols))
+    z = np.concatenate([np.asarray(xs, float), np.asarray(ys, float)], axis=1)
+    N = z.shape[0]
+    parts = []
+    for begin in range(0, N, CHUNK):
+        block = z[begin:begin + CHUNK]
+        count = block.shape[0]
+        if count < CHUNK:  # pad with a copy of the first pair: one compiled shape for every call
+            block = np.concatenate([block, np.repeat(block[:1], CHUNK - count, axis=0)])
+        prepared = algebra(block)
+        out, p = minimum(prepared, grid(prepared))
+        parts.append((prepared, p, out, count))
+    return _assemble(parts)
+
+
+def _assemble(parts) -> plane_margin.PlaneMargins:
+    pieces = []
+    for prepared, p, out, count in parts:
+        out = plane_margin.PlaneMargins(*(np.asarray(a)[:count] for a in out))
+        redo = np.flatnonzero(~out.certified)
+        if redo.size:  # the eigenvalue route, on the host, for the rows left open
+            p = np.asarray(p)[:count][redo]
+
+            def rows(column):
+                return np.asarray(column)[:count][redo]
+
+            sub = plane_margin.Prepared(tuple(rows(c) for c in prepared.T), tuple(rows(c) for c in prepared.inv),
+                                        rows(prepared.scale), rows(prepared.valid))
+            with np.errstate(all="ignore"):
+                fixed = plane_margin.finish(sub, quartic.patch_uncertified(p, quartic.minimum(p)))
+            out = plane_margin.PlaneMargins(*(_replaced(a, b, redo) for a, b in zip(out, fixed)))
+        pieces.append(out)
+    return plane_margin.PlaneMargins(*(np.concatenate([getattr(p, f) for p in pieces]) for f in plane_margin.PlaneMargins._fields))
+
+
+def _replaced(whole, part, rows):
+    whole = np.array(whole, copy=True)
+    whole[rows] = part
+    return whole
