@@ -114,3 +114,27 @@ def test_plane_margin_matches_the_tensor_written_out_on_catalog_costs():
         assert np.all(m.raw[ok] >= grid[ok] - 1e-5 * size)           # and close to it (1,001 angles)
         attained = tensor.form_at(d, m.xi, m.eta)
         assert np.allclose(attained[ok], m.raw[ok], rtol=1e-10, atol=1e-12 * np.max(size))
+
+
+def test_fused_kernel_matches_the_numpy_route_and_the_check_uses_it(monkeypatch):
+    pytest.importorskip("jax")
+    from costcheck.checks import fused_margin
+    from costcheck.checks.sampler import sample_pairs
+
+    cost = costcheck.load("catalog/sphere/sphere-dist-sq.yaml")
+    s = sample_pairs(cost.domain, 2, 2, 700, 3)
+    fused = fused_margin.a3w_margin(cost, s.xs, s.ys, chunk=256)  # three chunks, the last one padded
+    ref = plane_margin.a3w_margin(cost.derivatives(order=4)(s.xs, s.ys))
+    np.testing.assert_array_equal(fused.valid, ref.valid)
+    ok = ref.valid
+    np.testing.assert_allclose(fused.raw[ok], ref.raw[ok], rtol=0, atol=1e-12 * np.max(ref.normaliser[ok]))
+    np.testing.assert_allclose(fused.rel[ok], ref.rel[ok], rtol=0, atol=1e-11)
+    # a sample above the threshold runs on the kernel, with the same verdict and margin
+    plain = costcheck.check(cost, budget=512, conditions=["mtw"]).verdicts["mtw"]
+    calls = []
+    original = fused_margin.a3w_margin
+    monkeypatch.setattr(fused_margin, "WORTHWHILE_PAIRS", 256)
+    monkeypatch.setattr(fused_margin, "a3w_margin", lambda *a, **k: calls.append(1) or original(*a, **k))
+    kernel = costcheck.check(cost, budget=512, conditions=["mtw"]).verdicts["mtw"]
+    assert calls
+    assert plain.verdict == kernel.verdict and kernel.value == pytest.approx(plain.value, rel=1e-9, abs=1e-12)

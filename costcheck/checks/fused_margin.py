@@ -33,8 +33,12 @@ from . import plane_margin, quartic
 #: pairs per compiled call (padded); bounds the memory of one call to a few tens of MB
 CHUNK = 1 << 16
 
-#: below this many pairs the compilation costs more than it saves
-WORTHWHILE_PAIRS = 1 << 18
+#: from this many sampled pairs on, the MTW check uses the kernel.  The check's sample shares its
+#: numpy derivatives with the other conditions, so the kernel replaces only the numpy margin
+#: (about 0.5M pairs/s against the kernel's 1–2M with its own derivatives, measured on this
+#: 2-core machine): it saves ~1.4 µs a pair and costs 4–8 s of compilation when the persistent
+#: cache is cold, so it pays from a few million pairs
+WORTHWHILE_PAIRS = 1 << 22
 
 _FIELDS = ("dxy", "dxxy", "dxyy", "dxxyy")
 _SHAPES = {"dxy": (2, 2), "dxxy": (2, 2, 2), "dxyy": (2, 2, 2), "dxxyy": (2, 2, 2, 2)}
@@ -82,17 +86,18 @@ def _programs(expr, xs, ys):
     return jax.jit(algebra), jax.jit(grid), jax.jit(minimum)
 
 
-def a3w_margin(cost, xs: np.ndarray, ys: np.ndarray) -> plane_margin.PlaneMargins:
-    """Exact n = 2 A3w margins at the pairs ``(xs, ys)``, computed by the compiled kernels."""
+def a3w_margin(cost, xs: np.ndarray, ys: np.ndarray, *, chunk: int = CHUNK) -> plane_margin.PlaneMargins:
+    """Exact n = 2 A3w margins at the pairs ``(xs, ys)``, computed by the compiled kernels
+    (``chunk`` pairs per call; each new chunk size is a new compilation)."""
     algebra, grid, minimum = _programs(cost.expr, tuple(cost.x_symbols), tuple(cost.y_symbols))
     z = np.concatenate([np.asarray(xs, float), np.asarray(ys, float)], axis=1)
     N = z.shape[0]
     parts = []
-    for begin in range(0, N, CHUNK):
-        block = z[begin:begin + CHUNK]
+    for begin in range(0, N, chunk):
+        block = z[begin:begin + chunk]
         count = block.shape[0]
-        if count < CHUNK:  # pad with a copy of the first pair: one compiled shape for every call
-            block = np.concatenate([block, np.repeat(block[:1], CHUNK - count, axis=0)])
+        if count < chunk:  # pad with a copy of the first pair: one compiled shape for every call
+            block = np.concatenate([block, np.repeat(block[:1], chunk - count, axis=0)])
         prepared = algebra(block)
         out, p = minimum(prepared, grid(prepared))
         parts.append((prepared, p, out, count))

@@ -94,6 +94,21 @@ def _separated_starts(points: np.ndarray, order: np.ndarray, count: int, spacing
     return chosen
 
 
+def _sample_margins(ctx, margin_fn):
+    """The margins at every sampled pair.
+
+    A sample large enough to repay the compilation (:data:`fused_margin.WORTHWHILE_PAIRS`) of a
+    symbolic n = 2 cost gets its A3w margins from the fused kernel (the same exact minimum, to
+    rounding); otherwise numpy computes them from the shared derivatives.
+    """
+    from . import fused_margin
+
+    if margin_fn is tensor.a3w_margin and fused_margin.worthwhile(ctx.cost, ctx.sample.xs.shape[0]):
+        m = fused_margin.a3w_margin(ctx.cost, ctx.sample.xs, ctx.sample.ys)
+        return tensor.Margins(m.rel, m.raw, m.xi, m.eta, m.normaliser, m.valid)
+    return margin_fn(ctx.derivs)
+
+
 def search_minimum(ctx, margin_fn, orthogonal: bool, *, starts: int = STARTS,
                    iterations: int = ITERATIONS) -> Search | None:
     """Smallest scale-free margin over the sample, then local searches from the worst samples."""
@@ -101,7 +116,7 @@ def search_minimum(ctx, margin_fn, orthogonal: bool, *, starts: int = STARTS,
     n = cost.n
     derivs = ctx.derivs
     defined = ctx.defined
-    margins = margin_fn(derivs)
+    margins = _sample_margins(ctx, margin_fn)
     valid = margins.valid & defined
     if not valid.any():
         return None
