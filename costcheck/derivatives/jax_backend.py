@@ -104,6 +104,21 @@ def _translator(jax, jnp, known: dict):
     """``walk(expr)``: the JAX value of a sympy expression, given the values in ``known``
     (symbols, and shared subexpressions already computed); every node is translated once."""
     table = _function_table(jnp)
+    roots: dict = {}
+
+    def _root(b, fraction):
+        key = (id(b), fraction)
+        if key not in roots:
+            if fraction == sp.Rational(1, 2):
+                r = jnp.sqrt(b)
+            elif fraction == sp.Rational(1, 4):
+                r = jnp.sqrt(jnp.sqrt(b))
+            elif fraction == sp.Rational(3, 4):
+                r = jnp.sqrt(b) * jnp.sqrt(jnp.sqrt(b))
+            else:
+                r = jnp.power(b, float(fraction))
+            roots[key] = (b, r)  # holding b keeps its id unique while the key lives
+        return roots[key][1]
 
     def walk(e):
         if e in known:
@@ -122,10 +137,14 @@ def _translator(jax, jnp, known: dict):
             base, exponent = e.args
             if exponent.is_Integer:
                 v = jax.lax.integer_pow(walk(base), int(exponent))
-            elif exponent == sp.Rational(1, 2):
-                v = jnp.sqrt(walk(base))
-            elif exponent == -sp.Rational(1, 2):
-                v = 1.0 / jnp.sqrt(walk(base))
+            elif exponent.is_Rational:
+                # b^q = b^(q - k) · b^k with k = floor(q): one root per base and fraction, shared
+                # by every power of it (derivatives of b^q bring b^(q-1), b^(q-2), ...), and
+                # square roots where the fraction allows: a general power is a log and an exp
+                k = int(sp.floor(exponent))
+                v = _root(walk(base), exponent - k)
+                if k:
+                    v = v * jax.lax.integer_pow(walk(base), k)
             elif base == sp.E:
                 v = jnp.exp(walk(exponent))
             else:
