@@ -41,7 +41,6 @@ CHUNK = 1 << 16
 WORTHWHILE_PAIRS = 1 << 22
 
 _FIELDS = ("dxy", "dxxy", "dxyy", "dxxyy")
-_SHAPES = {"dxy": (2, 2), "dxxy": (2, 2, 2), "dxyy": (2, 2, 2), "dxxyy": (2, 2, 2, 2)}
 
 
 def applicable(cost) -> bool:
@@ -60,21 +59,19 @@ def _programs(expr, xs, ys):
 
     jax, jnp = _jax()
     sym = symbolic_derivatives(expr, xs, ys, 4)
-    flat, layout = [], {}
+    flat, where = [], {}
     for name in _FIELDS:
-        entries = np.array(sym[name], dtype=object).reshape(-1)
-        layout[name] = []
-        for e in entries:
+        entries = np.array(sym[name], dtype=object)
+        for index in np.ndindex(entries.shape):
+            e = entries[index]
             if e not in flat:
                 flat.append(e)
-            layout[name].append(flat.index(e))
+            where[name, index] = flat.index(e)
     columns_of = sympy_columns_to_jax(flat, list(xs) + list(ys))
 
     def algebra(z):
         cols = columns_of([z[:, k] for k in range(z.shape[1])])
-        fields = [jnp.stack([cols[i] for i in layout[name]], axis=-1).reshape((-1,) + _SHAPES[name])
-                  for name in _FIELDS]
-        return plane_margin.prepare(*fields, xp=jnp)
+        return plane_margin.prepare(lambda name, *index: cols[where[name, index]], jnp)
 
     def grid(prepared):
         return quartic.bracket(plane_margin.coefficients(prepared, jnp), jnp)

@@ -44,9 +44,14 @@ class Prepared(NamedTuple):
     valid: object      # finite derivatives, invertible M, finite scale
 
 
-def prepare(dxy, dxxy, dxyy, dxxyy, xp=np) -> Prepared:
-    """From the derivative fields (shapes (N,2,2), (N,2,2,2), (N,2,2,2), (N,2,2,2,2)) to ``T`` and ``M⁻¹``."""
-    m00, m01, m10, m11 = dxy[:, 0, 0], dxy[:, 0, 1], dxy[:, 1, 0], dxy[:, 1, 1]
+def prepare(column, xp=np) -> Prepared:
+    """From the derivative fields to ``T`` and ``M⁻¹``.
+
+    ``column(name, *index)`` returns one entry of a field of
+    :class:`~costcheck.derivatives.Derivatives` as an ``N``-long column, e.g.
+    ``column("dxxy", 0, 1, 1)`` is ``c_{01,1}`` (:func:`field_columns` makes one from arrays).
+    """
+    m00, m01, m10, m11 = (column("dxy", i, k) for i in range(2) for k in range(2))
     det = m00 * m11 - m01 * m10
     frob = m00 * m00 + m01 * m01 + m10 * m10 + m11 * m11
     smax2 = 0.5 * (frob + xp.sqrt(xp.maximum(frob * frob - 4 * det * det, 0.0)))
@@ -57,16 +62,16 @@ def prepare(dxy, dxxy, dxyy, dxxyy, xp=np) -> Prepared:
            xp.where(valid, -m10 / one, 0.0), xp.where(valid, m00 / one, 1.0))
     I = ((inv[0], inv[1]), (inv[2], inv[3]))
 
-    def entry(field, *index):
-        return xp.where(valid, field[(slice(None),) + index], 0.0)
+    def entry(name, *index):
+        return xp.where(valid, column(name, *index), 0.0)
 
     # c_{ij,r} c^{r,s}: the row vectors w_{ij} = c_{ij,·} M⁻¹
-    w = {ij: [sum(entry(dxxy, *ij, r) * I[r][s] for r in range(2)) for s in range(2)] for ij in _PAIRS}
+    w = {ij: [sum(entry("dxxy", *ij, r) * I[r][s] for r in range(2)) for s in range(2)] for ij in _PAIRS}
     T, first_sq, fourth_sq = [], 0.0, 0.0
     for ij in _PAIRS:
         for kl in _PAIRS:
-            first = sum(w[ij][s] * entry(dxyy, s, *kl) for s in range(2))
-            fourth = entry(dxxyy, *ij, *kl)
+            first = sum(w[ij][s] * entry("dxyy", s, *kl) for s in range(2))
+            fourth = entry("dxxyy", *ij, *kl)
             weight = _MULTIPLICITY[ij] * _MULTIPLICITY[kl]
             first_sq = first_sq + weight * first * first
             fourth_sq = fourth_sq + weight * fourth * fourth
@@ -74,6 +79,11 @@ def prepare(dxy, dxxy, dxyy, dxxyy, xp=np) -> Prepared:
     scale = xp.sqrt(first_sq) + xp.sqrt(fourth_sq)
     valid = valid & xp.isfinite(scale)
     return Prepared(tuple(xp.where(valid, t, 0.0) for t in T), inv, xp.where(valid, scale, xp.nan), valid)
+
+
+def field_columns(fields: dict):
+    """A ``column`` function for :func:`prepare` over arrays ``{"dxy": (N,2,2), ...}``."""
+    return lambda name, *index: fields[name][(slice(None),) + index]
 
 
 def coefficients(prepared: Prepared, xp=np):
@@ -131,13 +141,12 @@ def a3w_margin(derivs) -> PlaneMargins:
     Rows the quartic certificate leaves open are redone by the eigenvalue route, so every
     returned minimum is exact; ``certified`` says which rows needed no redoing.
     """
-    fields = [np.asarray(getattr(derivs, name), dtype=float) for name in ("dxy", "dxxy", "dxyy", "dxxyy")]
-    N = fields[0].shape[0]
+    fields = {name: np.asarray(getattr(derivs, name), dtype=float) for name in ("dxy", "dxxy", "dxyy", "dxxyy")}
+    N = fields["dxy"].shape[0]
     parts = []
     with np.errstate(all="ignore"):
         for begin in range(0, max(N, 1), CHUNK):
-            chunk = [f[begin:begin + CHUNK] for f in fields]
-            prepared = prepare(*chunk)
+            prepared = prepare(field_columns({k: v[begin:begin + CHUNK] for k, v in fields.items()}))
             p = coefficients(prepared)
             found = quartic.patch_uncertified(p, quartic.minimum(p))  # exact everywhere
             parts.append(finish(prepared, found))
