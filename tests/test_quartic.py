@@ -81,8 +81,10 @@ def test_jitted_stages_match_numpy():
 
     jax, jnp = _jax()
     p = _families(np.random.default_rng(3), 1024)
-    stage = jax.jit(lambda q: quartic.bracket(q, jnp))(jnp.asarray(p))
-    out = jax.jit(lambda q, s: quartic.polish(q, s, jnp))(jnp.asarray(p), stage)
+    q = jnp.asarray(p)
+    packed = jax.jit(lambda q: quartic.bracket(q, jnp))(q)
+    found = jax.jit(lambda q, s: quartic.roots(q, s, jnp))(q, packed)
+    out = jax.jit(lambda q, s, f: quartic.choose(q, s, f, jnp))(q, packed, found)
     ref = quartic.minimum(p)
     scale = np.max(np.abs(p), axis=1)
     assert np.mean(np.asarray(out.certified) == ref.certified) > 0.99  # XLA may round differently

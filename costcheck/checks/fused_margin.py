@@ -2,18 +2,20 @@
 
 The sympy route evaluates the derivative fields with numpy and then the margin
 (:mod:`costcheck.checks.plane_margin`), each step a pass over memory.  Here the same
-mathematics is traced once into three XLA programs (``jax.jit``):
+mathematics is traced once into four XLA programs (``jax.jit``):
 
 1. the cost's derivatives up to order 4, from the symbolic derivatives with shared
    subexpressions (:func:`costcheck.derivatives.jax_backend.sympy_columns_to_jax`), then
    ``M⁻¹`` and ``T`` (:func:`costcheck.checks.plane_margin.prepare`);
 2. the quartic ``S(θ)`` and the grid stage of its certified minimum
    (:func:`costcheck.checks.quartic.bracket`);
-3. the Newton polish (:func:`costcheck.checks.quartic.polish`) and the margins.
+3. the Newton polish of the (at most two) local minima (:func:`costcheck.checks.quartic.roots`);
+4. the choice among them (:func:`costcheck.checks.quartic.choose`); the normaliser and the
+   scale-free margins are a few numpy passes on the host.
 
-Three programs, not one: XLA fuses elementwise producers into each consumer, so in one
-program the grid stage would be computed again inside every Newton step and for every
-output (its CPU compiler drops optimisation barriers); a program's outputs are computed once.  Rows the quartic
+Four programs, not one: XLA fuses elementwise producers into each consumer, so in one
+program the grid stage and the Newton steps would be computed again for every output (its
+CPU compiler drops optimisation barriers); a program's inputs are computed once.  Rows the quartic
 certificate leaves open are redone on the host by the eigenvalue route, so every minimum is
 exact, as on the sympy route.  Batches are padded to a fixed chunk, so one compilation serves
 every batch size, and JAX's persistent compilation cache keeps it between runs.
@@ -76,17 +78,19 @@ def _programs(expr, xs, ys):
     def grid(prepared):
         return quartic.bracket(plane_margin.coefficients(prepared, jnp), jnp)
 
-    def minimum(prepared, packed):
-        p = plane_margin.coefficients(prepared, jnp)
-        return plane_margin.finish(prepared, quartic.polish(p, packed, jnp), jnp), p
+    def polish(prepared, packed):
+        return quartic.roots(plane_margin.coefficients(prepared, jnp), packed, jnp)
 
-    return jax.jit(algebra), jax.jit(grid), jax.jit(minimum)
+    def choose(prepared, packed, found):
+        return quartic.choose(plane_margin.coefficients(prepared, jnp), packed, found, jnp)
+
+    return tuple(jax.jit(f) for f in (algebra, grid, polish, choose))
 
 
 def a3w_margin(cost, xs: np.ndarray, ys: np.ndarray, *, chunk: int = CHUNK) -> plane_margin.PlaneMargins:
     """Exact n = 2 A3w margins at the pairs ``(xs, ys)``, computed by the compiled kernels
     (``chunk`` pairs per call; each new chunk size is a new compilation)."""
-    algebra, grid, minimum = _programs(cost.expr, tuple(cost.x_symbols), tuple(cost.y_symbols))
+    algebra, grid, polish, choose = _programs(cost.expr, tuple(cost.x_symbols), tuple(cost.y_symbols))
     z = np.concatenate([np.asarray(xs, float), np.asarray(ys, float)], axis=1)
     N = z.shape[0]
     parts = []
@@ -96,29 +100,37 @@ def a3w_margin(cost, xs: np.ndarray, ys: np.ndarray, *, chunk: int = CHUNK) -> p
         if count < chunk:  # pad with a copy of the first pair: one compiled shape for every call
             block = np.concatenate([block, np.repeat(block[:1], chunk - count, axis=0)])
         prepared = algebra(block)
-        out, p = minimum(prepared, grid(prepared))
-        parts.append((prepared, p, out, count))
+        packed = grid(prepared)
+        parts.append((prepared, choose(prepared, packed, polish(prepared, packed)), count))
     return _assemble(parts)
 
 
 def _assemble(parts) -> plane_margin.PlaneMargins:
+    """The margins on the host (a few numpy passes), with the rows the certificate left open
+    redone by the eigenvalue route."""
     pieces = []
-    for prepared, p, out, count in parts:
-        out = plane_margin.PlaneMargins(*(np.asarray(a)[:count] for a in out))
-        redo = np.flatnonzero(~out.certified)
-        if redo.size:  # the eigenvalue route, on the host, for the rows left open
-            p = np.asarray(p)[:count][redo]
-
-            def rows(column):
-                return np.asarray(column)[:count][redo]
-
-            sub = plane_margin.Prepared(tuple(rows(c) for c in prepared.T), tuple(rows(c) for c in prepared.inv),
-                                        rows(prepared.scale), rows(prepared.valid))
-            with np.errstate(all="ignore"):
-                fixed = plane_margin.finish(sub, quartic.patch_uncertified(p, quartic.minimum(p)))
-            out = plane_margin.PlaneMargins(*(_replaced(a, b, redo) for a, b in zip(out, fixed)))
-        pieces.append(out)
+    for prepared, found, count in parts:
+        prepared = plane_margin.Prepared(*(_head(f, count) for f in prepared))
+        found = quartic.QuarticMinimum(*(_head(f, count) for f in found))
+        with np.errstate(all="ignore"):
+            redo = np.flatnonzero(~found.certified)
+            if redo.size:
+                p = plane_margin.coefficients(plane_margin.Prepared(*(_rows(f, redo) for f in prepared)))
+                fixed = quartic.patch_uncertified(p, quartic.QuarticMinimum(*(_rows(f, redo) for f in found)))
+                found = quartic.QuarticMinimum(*(_replaced(a, b, redo) for a, b in zip(found, fixed)))
+            pieces.append(plane_margin.finish(prepared, found))
     return plane_margin.PlaneMargins(*(np.concatenate([getattr(p, f) for p in pieces]) for f in plane_margin.PlaneMargins._fields))
+
+
+def _head(field, count):
+    """The first ``count`` rows, as numpy (a tuple of columns stays a tuple)."""
+    if isinstance(field, tuple):
+        return tuple(np.asarray(c)[:count] for c in field)
+    return np.asarray(field)[:count]
+
+
+def _rows(field, rows):
+    return tuple(c[rows] for c in field) if isinstance(field, tuple) else field[rows]
 
 
 def _replaced(whole, part, rows):

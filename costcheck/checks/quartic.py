@@ -23,8 +23,8 @@ by the exact Taylor expansion of the quartic ``R`` about each cell's midpoint ``
   at most one root, found by a sign change and polished by Newton's method clipped to the cell.
 
 A pair whose cells are all certified gets the exact minimum (to rounding): the smaller of the
-polished local minima (a periodic function's minimum is a critical point) and ``S(−π/4)``.  A pair with an uncertified cell (a double root of
-``R``, or ``R`` lost in rounding) is marked, and the caller solves it by the eigenvalue route
+polished local minima (a periodic function's minimum is a critical point) and ``S(−π/4)``.
+A pair with an uncertified cell (a double root of ``R``, or ``R`` lost in rounding) is marked, and the caller solves it by the eigenvalue route
 (:func:`minimum_by_eigenvalues`, the roots of ``R`` in ``tan θ`` as companion-matrix eigenvalues).
 Either way the value returned is ``S`` at a real angle, never below the true minimum.
 
@@ -90,22 +90,40 @@ def _taylor(r, m: float):
             6 * r3 + m * 24 * r4)
 
 
-def _polish(r, a, b, ra, rb, xp):
+def _newton(r, a, b, xp):
     """The root of ``R`` in ``[a, b]`` with ``R(a) < 0 <= R(b)``, ``R`` monotone there: a
-    regula-falsi start, then Newton's method clipped to the cell; ``(root, converged)``.
-
-    ``converged`` asks that the last step moved ``u`` by at most ``1e-7`` of the cell.  Newton's
-    error after a step of size ``δ`` is of order ``δ²`` (quadratic convergence), so the root is then
-    good to about ``1e-14`` of the cell, and ``S``, stationary there, to the square of that; a pair
-    where Newton did not settle is sent to the eigenvalue route instead.
-    """
+    regula-falsi start, then Newton's method clipped to the cell."""
+    ra, rb = _horner(r, a)[0], _horner(r, b)[0]
     u = xp.clip(a - ra * (b - a) / xp.where(rb != ra, rb - ra, 1.0), a, b)
-    moved = b - a
     for _ in range(NEWTON_STEPS):
         value, slope = _horner(r, u)
-        nxt = xp.clip(u - value / xp.where(slope != 0, slope, 1.0), a, b)
-        moved, u = xp.abs(nxt - u), nxt
-    return u, moved <= 1e-7 * (b - a)
+        u = xp.clip(u - value / xp.where(slope != 0, slope, 1.0), a, b)
+    return u
+
+
+def _settled(r, u, width, xp):
+    """Newton's next step from ``u`` is at most ``1e-7`` of the cell.
+
+    Newton's error after a step of size ``δ`` is of order ``δ²`` (quadratic convergence), so the
+    root is then good to about ``1e-14`` of the cell, and ``S``, stationary there, to the square
+    of that; a pair where Newton did not settle is sent to the eigenvalue route instead.
+    """
+    value, slope = _horner(r, u)
+    return (slope != 0) & (xp.abs(value) <= 1e-7 * width * xp.abs(slope))
+
+
+def _cells(p, packed, xp):
+    """For the first and last cell holding a local minimum: ``(in chart B, left end, P, R)``."""
+    columns = [p[:, k] for k in range(5)]
+    first, last, count, _ = unpack(packed, xp)
+    w = 1.0 / CELLS
+    out = []
+    for cell in (xp.where(count > 0, first, 0.0), xp.where(count > 0, last, 0.0)):
+        in_b = cell >= CELLS
+        a = -1.0 + 2.0 * w * (cell - xp.where(in_b, float(CELLS), 0.0))
+        P = [xp.where(in_b, q, o) for q, o in zip(columns[::-1], columns)]
+        out.append((in_b, a, P, _critical(P)))
+    return out
 
 
 def _chain(combine, items):
@@ -136,11 +154,13 @@ def unpack(packed, xp=np):
 def minimum(p, xp=np) -> QuarticMinimum:
     """Exact ``min_θ S(θ)`` for coefficient rows ``p (N, 5)`` (see the module docstring).
 
-    Two stages, :func:`bracket` and :func:`polish`; a jitted kernel should compile them as two
-    programs (XLA would otherwise fuse the grid stage into every Newton step and run it several
-    times over; its CPU compiler drops optimisation barriers).
+    Three stages, :func:`bracket`, :func:`roots` and :func:`choose`; a jitted kernel should
+    compile them as separate programs: XLA fuses a producer into each of its consumers, so in
+    one program the grid stage and the Newton steps would be recomputed for every output (its
+    CPU compiler drops optimisation barriers).
     """
-    return polish(p, bracket(p, xp), xp)
+    packed = bracket(p, xp)
+    return choose(p, packed, roots(p, packed, xp), xp)
 
 
 def bracket(p, xp=np):
@@ -192,22 +212,22 @@ def bracket(p, xp=np):
     return first + B * (last + 1.0) + B * B * count + B**3 * xp.where(certified, 1.0, 0.0)
 
 
-def polish(p, packed, xp=np) -> QuarticMinimum:
-    """The polishing stage: Newton's method in the (at most two) cells holding a local minimum."""
-    columns = [p[:, k] for k in range(5)]
+def roots(p, packed, xp=np):
+    """The polishing stage: the roots of ``R`` in the first and last cell holding a local minimum
+    (two outputs, each its own chain of Newton steps)."""
     w = 1.0 / CELLS
-    first, last, count, certified = unpack(packed, xp)
+    return tuple(_newton(r, a, a + 2 * w, xp) for _, a, _, r in _cells(p, packed, xp))
+
+
+def choose(p, packed, found, xp=np) -> QuarticMinimum:
+    """The minimum among ``S(−π/4)`` and ``S`` at the polished roots ``found``."""
+    _, _, count, certified = unpack(packed, xp)
     # θ = −π/4 (u = −1 in chart A; the same point as u = −1 in chart B) is the first candidate:
     # it is the one node no cell's closed right end reaches, and the answer when S is constant
-    p0, p1, p2, p3, p4 = columns
+    p0, p1, p2, p3, p4 = (p[:, k] for k in range(5))
     value, u, chart = 0.25 * (p0 - p1 + p2 - p3 + p4), xp.zeros_like(p0) - 1.0, xp.zeros_like(p0)
-    for cell in (xp.where(count > 0, first, 0.0), xp.where(count > 0, last, 0.0)):
-        in_b = cell >= CELLS
-        a = -1.0 + 2.0 * w * (cell - xp.where(in_b, float(CELLS), 0.0))
-        P = [xp.where(in_b, q, o) for q, o in zip(columns[::-1], columns)]
-        r = _critical(P)
-        root, converged = _polish(r, a, a + 2 * w, _horner(r, a)[0], _horner(r, a + 2 * w)[0], xp)
-        certified = certified & (converged | (count == 0))
+    for (in_b, _, P, r), root in zip(_cells(p, packed, xp), found):
+        certified = certified & (_settled(r, root, 2.0 / CELLS, xp) | (count == 0))
         S = xp.where(count > 0, _horner(P, root)[0] / (1 + root * root) ** 2, xp.inf)
         better = S < value
         value, u = xp.where(better, S, value), xp.where(better, root, u)
