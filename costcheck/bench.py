@@ -80,7 +80,7 @@ def measure_margin(cost, backend: str, xs, ys) -> dict:
         t0 = time.perf_counter()
         m = fused_margin.a3w_margin(cost, xs, ys)
         total = time.perf_counter() - t0
-        stages = {}
+        stages = _fused_stages(cost, xs, ys)
     else:
         evaluator = cost.derivatives(backend=backend, order=4)
         tensor.a3w_margin(evaluator(xs, ys))  # JAX compiles for this batch shape here
@@ -96,6 +96,48 @@ def measure_margin(cost, backend: str, xs, ys) -> dict:
             "path": "fused jitted kernel" if fused else f"{backend} derivatives + numpy margin",
             "build_s": warm, **stages,
             "valid_fraction": float(np.mean(m.valid)), "min_rel_margin": float(np.nanmin(m.rel))}
+
+
+def _fused_stages(cost, xs, ys, repeats: int = 3) -> dict:
+    """Pairs per second of each of the fused kernel's programs on one chunk (best of ``repeats``):
+    the profile that says where its time goes."""
+    import jax
+
+    from .checks import fused_margin
+
+    algebra, grid, polish, choose = fused_margin._programs(cost.expr, tuple(cost.x_symbols), tuple(cost.y_symbols))
+    z = np.concatenate([xs, ys], axis=1)[: fused_margin.CHUNK]
+    if z.shape[0] < fused_margin.CHUNK:
+        z = np.concatenate([z, np.repeat(z[:1], fused_margin.CHUNK - z.shape[0], axis=0)])
+    best = np.full(4, np.inf)
+    for _ in range(repeats):
+        marks = [time.perf_counter()]
+        prepared = jax.block_until_ready(algebra(z))
+        marks.append(time.perf_counter())
+        packed = jax.block_until_ready(grid(prepared))
+        marks.append(time.perf_counter())
+        found = jax.block_until_ready(polish(prepared, packed))
+        marks.append(time.perf_counter())
+        jax.block_until_ready(choose(prepared, packed, found))
+        marks.append(time.perf_counter())
+        best = np.minimum(best, np.diff(marks))
+    names = ("derivatives_and_tensor", "quartic_grid_stage", "newton_roots", "choice")
+    return {"stage_pairs_per_s": {name: z.shape[0] / t for name, t in zip(names, best)},
+            "derivative_operations_per_pair": _derivative_operations(cost)}
+
+
+def _derivative_operations(cost) -> int:
+    """Arithmetic and function nodes of the order-2..4 derivatives after common-subexpression
+    elimination: the work the kernel's first program does per pair before the tensor algebra."""
+    import sympy as sp
+
+    from .derivatives.sympy_backend import symbolic_derivatives
+
+    sym = symbolic_derivatives(cost.expr, cost.x_symbols, cost.y_symbols, 4)
+    flat = list(dict.fromkeys(e for name in ("dxy", "dxxy", "dxyy", "dxxyy")
+                              for e in np.array(sym[name], dtype=object).reshape(-1)))
+    replacements, reduced = sp.cse(flat)
+    return int(sum(sp.count_ops(e) for _, e in replacements) + sum(sp.count_ops(e) for e in reduced))
 
 
 # --------------------------------------------------------------------------- naive reference
