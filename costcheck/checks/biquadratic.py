@@ -334,7 +334,8 @@ def orthogonal_biquadratic_min(G, *, xp=numpy, directions: int = DEFAULT_DIRECTI
     ``G (N, 3, 3, 3, 3)`` as from :func:`costcheck.checks.tensor.eta_form_tensor` (its part
     symmetric in ``(i, j)`` and ``(a, b)`` is used).  ``xp`` is ``numpy`` or ``jax.numpy`` (the
     function is then traceable by ``jax.jit`` with ``directions``, ``seeds``, ``iterations``
-    static).  ``raw`` is the form at the returned unit, orthogonal ``ξ, η``.  Memory is about
+    static).  ``raw`` is the form at the returned unit, orthogonal ``ξ, η`` (NaN where ``G`` is
+not finite).  Memory is about
     ``N · (4 · directions + 200 · seeds)`` floats: callers chunk large N.
     """
     if tuple(G.shape[1:]) != (3, 3, 3, 3):
@@ -349,4 +350,5 @@ def orthogonal_biquadratic_min(G, *, xp=numpy, directions: int = DEFAULT_DIRECTI
     f = xp.where(f == f, f, xp.inf).reshape(S, N)
     best = xp.argmin(f, axis=0)[None]  # (1, N)
     pick = lambda v: xp.take_along_axis(xp.stack(v).reshape(3, S, N), best[None], axis=1)[:, 0].T
-    return xp.take_along_axis(f, best, axis=0)[0], pick(xi), pick(eta)
+    raw = xp.take_along_axis(f, best, axis=0)[0]
+    return xp.where(xp.isfinite(raw), raw, xp.nan), pick(xi), pick(eta)
