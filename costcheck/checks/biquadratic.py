@@ -52,8 +52,10 @@ import numpy
 DEFAULT_DIRECTIONS = 96
 #: best scan directions polished by Newton's method
 DEFAULT_SEEDS = 2
-#: Newton iterations per seed
+#: Newton iterations in all; the first ``DEFAULT_SEED_ITERATIONS`` run from every seed, the rest from the
+#: best seed per pair only (fewer is faster; on random tensors 2 leaves about 1% of pairs short)
 DEFAULT_ITERATIONS = 6
+DEFAULT_SEED_ITERATIONS = 6
 #: largest rotation angle of one Newton step (radians)
 _MAX_ANGLE = 0.5
 
@@ -298,11 +300,15 @@ def scan_seeds(g36, xp=numpy, directions: int = DEFAULT_DIRECTIONS, seeds: int =
     more than ``separation`` radians from every earlier seed (so that seeds sit in different
     basins where there are several), each with its minimising η.  ``g36`` is ``G`` packed, (36, N)."""
     xi_d, P_d, L, cos = scan_plan(directions)
-    R = xp.transpose(g36) @ xp.asarray(L.T)  # (N, 3D): one matrix product for the whole scan
+    # the scan only ranks directions, and Newton polishes whatever it picks in float64: single
+    # precision (after scaling each pair to max |G| = 1, so nothing overflows) halves its cost
+    size = xp.max(xp.abs(g36), axis=0)
+    g = g36 / xp.where(size > 0, size, 1.0)
+    g = xp.where(g == g, g, 0.0)  # NaN pairs: any seed (their polish stays NaN)
+    R = xp.transpose(g).astype(xp.float32) @ xp.asarray(L.T, dtype=xp.float32)  # (N, 3D): one matrix product
     D = directions
     mean, half, off = R[:, :D], R[:, D:2 * D], R[:, 2 * D:]
     lam = mean - xp.sqrt(half * half + off * off)
-    lam = xp.where(lam == lam, lam, xp.inf)  # NaN pairs: any seed
     near = xp.asarray(cos > numpy.cos(separation))
     picks = []
     for _ in range(seeds):
@@ -312,7 +318,7 @@ def scan_seeds(g36, xp=numpy, directions: int = DEFAULT_DIRECTIONS, seeds: int =
     idx = xp.stack(picks, axis=1)  # (N, S)
     take = lambda a: xp.transpose(xp.take_along_axis(a, idx, axis=1))  # (S, N)
     # eigenvector of the smaller eigenvalue of [[m + h, o], [o, m − h]]: at half the angle, plus π/2
-    ang = 0.5 * xp.arctan2(take(off), take(half)) + numpy.pi / 2
+    ang = 0.5 * xp.arctan2(take(off), take(half)).astype(g36.dtype) + numpy.pi / 2
     P = xp.asarray(P_d)[xp.transpose(idx)]  # (S, N, 3, 2)
     eta = xp.moveaxis(P[..., 0] * xp.cos(ang)[..., None] + P[..., 1] * xp.sin(ang)[..., None], 2, 0)
     xi = xp.moveaxis(xp.asarray(xi_d)[xp.transpose(idx)], 2, 0)
@@ -328,13 +334,15 @@ def pack(G, xp=numpy):
 
 
 def orthogonal_biquadratic_min(G, *, xp=numpy, directions: int = DEFAULT_DIRECTIONS,
-                               seeds: int = DEFAULT_SEEDS, iterations: int = DEFAULT_ITERATIONS):
+                               seeds: int = DEFAULT_SEEDS, iterations: int = DEFAULT_ITERATIONS,
+                               seed_iterations: int = DEFAULT_SEED_ITERATIONS):
     """``(raw (N,), ξ (N, 3), η (N, 3))``: ``min G(ξ, ξ, η, η)`` over unit ``ξ ⊥ η`` and a minimiser.
 
     ``G (N, 3, 3, 3, 3)`` as from :func:`costcheck.checks.tensor.eta_form_tensor` (its part
     symmetric in ``(i, j)`` and ``(a, b)`` is used).  ``xp`` is ``numpy`` or ``jax.numpy`` (the
-    function is then traceable by ``jax.jit`` with ``directions``, ``seeds``, ``iterations``
-    static).  ``raw`` is the form at the returned unit, orthogonal ``ξ, η`` (NaN where ``G`` is
+    function is then traceable by ``jax.jit`` with ``directions``, ``seeds``, ``iterations``,
+    ``seed_iterations`` static).  Every seed gets ``seed_iterations`` Newton iterations, the best
+    of them per pair the remaining ``iterations − seed_iterations``.  ``raw`` is the form at the returned unit, orthogonal ``ξ, η`` (NaN where ``G`` is
 not finite).  Memory is about
     ``N · (4 · directions + 200 · seeds)`` floats: callers chunk large N.
     """
@@ -344,11 +352,17 @@ not finite).  Memory is about
     g36 = pack(G, xp)
     xi, eta = scan_seeds(g36, xp, directions, seeds)
     S = xi.shape[1]
-    tiled = xp.concatenate([g36] * S, axis=1) if S > 1 else g36  # seed-major: column s·N + pair
-    g6 = tuple(tuple(tiled[6 * p + q] for q in range(6)) for p in range(6))
-    f, xi, eta = newton_polish(g6, tuple(xi.reshape(3, S * N)), tuple(eta.reshape(3, S * N)), xp, iterations)
-    f = xp.where(f == f, f, xp.inf).reshape(S, N)
-    best = xp.argmin(f, axis=0)[None]  # (1, N)
-    pick = lambda v: xp.take_along_axis(xp.stack(v).reshape(3, S, N), best[None], axis=1)[:, 0].T
-    raw = xp.take_along_axis(f, best, axis=0)[0]
-    return xp.where(xp.isfinite(raw), raw, xp.nan), pick(xi), pick(eta)
+    split = lambda a: tuple(tuple(a[6 * p + q] for q in range(6)) for p in range(6))
+    first = min(seed_iterations, iterations)
+    if S > 1:
+        # every seed gets `first` iterations; the best of them per pair gets the rest
+        tiled = xp.concatenate([g36] * S, axis=1)  # seed-major: column s·N + pair
+        f, xi, eta = newton_polish(split(tiled), tuple(xi.reshape(3, S * N)), tuple(eta.reshape(3, S * N)), xp, first)
+        f = xp.where(f == f, f, xp.inf).reshape(S, N)
+        best = xp.argmin(f, axis=0)[None]  # (1, N)
+        pick = lambda v: xp.take_along_axis(xp.stack(v).reshape(3, S, N), best[None], axis=1)[:, 0]
+        xi, eta, rest = pick(xi), pick(eta), iterations - first
+    else:
+        xi, eta, rest = xi[:, 0], eta[:, 0], iterations
+    raw, xi, eta = newton_polish(split(g36), tuple(xi), tuple(eta), xp, rest)
+    return xp.where(xp.isfinite(raw), raw, xp.nan), xp.stack(xi, axis=1), xp.stack(eta, axis=1)
