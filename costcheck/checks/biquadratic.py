@@ -8,19 +8,22 @@ with ``G`` from :func:`costcheck.checks.tensor.eta_form_tensor` (symmetric in ``
 ``(a, b)``; Ma, Trudinger & Wang, Arch. Ration. Mech. Anal. 177 (2005) 151–183; see
 ``shared/reference/conditions.md``).  A biquadratic form on orthogonal unit pairs has no closed-form
 minimum for ``n >= 3`` (it is the "M-eigenvalue" problem of an elasticity-type tensor: Qi, Dai & Han,
-"Conditions for strong ellipticity and M-eigenvalues", Front. Math. China 4 (2009) 349–364), so
+"Conditions for strong ellipticity and M-eigenvalues", Front. Math. China 4 (2009) 349–364,
+cited from memory), so
 the minimum is found numerically, in two stages with fixed work per pair:
 
 1. **Scan.**  For each of ``D`` fixed directions ``ξ_d`` on the half-sphere (±ξ give the same
    value), the exact minimum over ``η ⊥ ξ_d`` is the smallest eigenvalue of ``Q_ξ = G(ξ, ξ, ·, ·)``
    restricted to ``ξ_d^⊥``, a 2 × 2 symmetric matrix.  Its three entries are linear in ``G``,
-   so the whole scan is one matrix product ``G (N, 81) @ L (81, 3D)`` followed by the closed-form
-   2 × 2 eigenvalue; the ``seeds`` best directions (with their eigenvectors η) start stage 2.
+   so the whole scan is one matrix product of the 36 independent entries of ``G`` (scaled to
+   ``max |G| = 1`` and in single precision: it only ranks directions) with a fixed ``(36, 3D)``
+   matrix, followed by the closed-form 2 × 2 eigenvalue; the ``seeds`` best directions (each
+   further one at least 0.5 rad from the earlier ones) and their eigenvectors η start stage 2.
 2. **Newton polish on SO(3).**  In ``n = 3`` the orthonormal pairs ``(ξ, η)`` are the rotations
    ``[ξ, η, ξ × η]``: a 3-dimensional manifold without boundary.  Rotating both vectors by
    ``exp([ω]×)`` gives ``ξ' = ξ + ω × ξ + ½ ω × (ω × ξ) + O(|ω|³)`` (and the same for η), hence the
-   exact second-order model ``f(ω) = f + g · ω + ωᵀ H ω`` with ``B = G(·, ·, η, η)``,
-   ``Q = G(ξ, ξ, ·, ·)``, ``C_{jb} = G(ξ, ·_j, η, ·_b)``, ``f = ξᵀBξ = ηᵀQη``:
+   exact second-order model ``f(ω) = f + g · ω + ωᵀ H ω`` (``H`` half the Hessian) with
+   ``B = G(·, ·, η, η)``, ``Q = G(ξ, ξ, ·, ·)``, ``C_{jb} = G(ξ, ·_j, η, ·_b)``, ``f = ξᵀBξ = ηᵀQη``:
 
        g = 2 (ξ × Bξ + η × Qη)
        H = [ξ]×ᵀ B [ξ]× + [η]×ᵀ Q [η]× + sym(ξ (Bξ)ᵀ) + sym(η (Qη)ᵀ) − 2 f I
@@ -28,11 +31,14 @@ the minimum is found numerically, in two stages with fixed work per pair:
 
    (``[v]×`` the cross-product matrix, ``sym(M) = (M + Mᵀ)/2``).  Each iteration takes the
    regularised Newton step ``ω = −½ (H + μ I)⁻¹ g`` with ``μ`` lifting the smallest eigenvalue
-   of ``H`` above zero (a Levenberg–Marquardt-type shift: Nocedal & Wright, *Numerical
-   Optimization*, 2nd ed. (2006), §3.4), the angle capped, and keeps the best of the current
-   point, the full step and a quarter step; the value never increases.  From a scan seed the
-   convergence is quadratic where the Hessian is positive definite, so a handful of iterations
-   reaches rounding level.
+   of ``H`` (Smith's closed form) above zero (a Levenberg–Marquardt-type shift: Nocedal & Wright,
+   *Numerical Optimization*, 2nd ed. (2006), §3.4), the angle capped at 0.5 rad, and moves both
+   vectors by the Cayley rotation ``(I − [c]×)⁻¹(I + [c]×)`` with ``c = ω/2``, which agrees with
+   ``exp([ω]×)`` to second order (so the model above is its model too, and Newton's local
+   quadratic convergence is kept: Absil, Mahony & Sepulchre, *Optimization Algorithms on Matrix
+   Manifolds* (2008), §6.3).  A step is kept only where it lowers the value (else the shift
+   grows for the next iteration), so the value never increases; from a scan seed a handful of
+   iterations reaches rounding level where the Hessian is positive definite.
 
 Like any local method this finds the global minimum only when a seed lies in its basin; the
 scan spacing (about 0.26 rad for ``D = 96``) and several seeds guard against a missed basin.
@@ -91,8 +97,8 @@ def scan_plan(directions: int = DEFAULT_DIRECTIONS):
     def restricted(r, s):  # m (6, D): sum_q Q_q m_q = (Pᵀ Q P)_{rs} for packed symmetric Q
         return numpy.stack([P[:, a, r] * P[:, b, s] + (P[:, b, r] * P[:, a, s] if a != b else 0.0) for a, b in _PAIRS])
 
-    m00, m01, m11 = restricted(0, 0), restricted(0, 1), 0.0 + restricted(1, 1)
-    entries = [0.5 * (m00 + m11), 0.5 * (m00 - m11), 0.5 * (m01 + restricted(1, 0))]
+    m00, m01, m11 = restricted(0, 0), restricted(0, 1), restricted(1, 1)
+    entries = [0.5 * (m00 + m11), 0.5 * (m00 - m11), m01]
     L = numpy.concatenate([numpy.einsum("pd,qd->dpq", w, m).reshape(directions, 36) for m in entries])
     cos = numpy.abs(xi @ xi.T)
     for array in (xi, P, L, cos):
@@ -186,11 +192,13 @@ def _solve(S, b, xp):
             (c02 * b[0] + c12 * b[1] + c22 * b[2]) * inv_det)
 
 
-def _rotate(v, k, c, s):
-    """``exp(θ[k]×) v`` (Rodrigues' formula) for the unit axis ``k``, ``c = cos θ``, ``s = sin θ``."""
-    kv = _dot(k, v) * (1 - c)
-    kxv = _cross(k, v)
-    return tuple(v[i] * c + kxv[i] * s + k[i] * kv for i in range(3))
+def _cayley(v, c, xp):
+    """``(I − [c]×)⁻¹(I + [c]×) v = v + 2 (c × v + c × (c × v)) / (1 + |c|²)``: a rotation by ``2 arctan|c|``
+    about ``c`` (A. Cayley, 1846), exactly orthogonal and rational in ``c``."""
+    k = 2.0 / (1.0 + _dot(c, c))
+    cv = _cross(c, v)
+    ccv = _cross(c, cv)
+    return tuple(v[i] + k * (cv[i] + ccv[i]) for i in range(3))
 
 
 def _unit(v, xp):
@@ -273,22 +281,24 @@ def newton_polish(g6, xi, eta, xp=numpy, iterations: int = DEFAULT_ITERATIONS):
         f, g, H = newton_model(g6, xi, eta, B)
         lam = _smallest_eigenvalue(H, xp)
         # shift so that H + μ I >= max(|λ_min|, floor) I: a descent step of bounded length
-        mu = xp.where(lam > floor, 0.0, floor - 2 * lam) + damp
-        omega = _solve(tuple(h + mu if k < 3 else h for k, h in enumerate(H)), g, xp)
-        angle = 0.5 * xp.sqrt(_dot(omega, omega))  # the step is −ω/2
-        moving = angle > 0
-        axis = tuple(-0.5 * w / xp.where(moving, angle, 1.0) for w in omega)
-        angle = xp.minimum(angle, _MAX_ANGLE)
-        c, s = xp.cos(angle), xp.sin(angle)
-        tx = _unit(_rotate(xi, axis, c, s), xp)
-        te = _rotate(eta, axis, c, s)
+        lift = floor + 2 * xp.abs(lam)
+        mu = xp.where(lam > floor, 0.0, lift) + damp
+        step = _solve(tuple(h + mu if k < 3 else h for k, h in enumerate(H)), g, xp)  # the step is −step/2
+        # Cayley's rotation (I − [c]×)⁻¹(I + [c]×) with c = −step/4 agrees with exp(−[step/2]×)
+        # to second order, so the Newton model is the same; its angle is capped at _MAX_ANGLE
+        length = 0.25 * xp.sqrt(_dot(step, step))
+        cap = numpy.tan(0.5 * _MAX_ANGLE)
+        shrink = -0.25 * xp.minimum(1.0, cap / xp.where(length > 0, length, 1.0))
+        c = tuple(w * shrink for w in step)
+        tx = _unit(_cayley(xi, c, xp), xp)
+        te = _cayley(eta, c, xp)
         d = _dot(te, tx)
         te = _unit(tuple(e - d * x for e, x in zip(te, tx)), xp)
         tB = _quadratic_in_second(g6, _square(te))
         tf = _dot(_sym_matvec(tB, tx), tx)
         take = tf < fval
         return (xp.where(take, tf, fval), _where(take, tx, xi, xp), _where(take, te, eta, xp),
-                _where(take, tB, B, xp), xp.where(take, 0.25 * damp, 4 * damp + xp.abs(lam) + floor))
+                _where(take, tB, B, xp), xp.where(take, 0.25 * damp, 4 * damp + lift))
 
     fval, xi, eta, _, _ = _repeat(step, iterations, (fval, xi, eta, B, damp), xp)
     return fval, xi, eta
