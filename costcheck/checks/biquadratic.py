@@ -58,10 +58,12 @@ import numpy
 DEFAULT_DIRECTIONS = 96
 #: best scan directions polished by Newton's method
 DEFAULT_SEEDS = 2
-#: Newton iterations in all; the first ``DEFAULT_SEED_ITERATIONS`` run from every seed, the rest from the
-#: best seed per pair only (fewer is faster; on random tensors 2 leaves about 1% of pairs short)
-DEFAULT_ITERATIONS = 6
-DEFAULT_SEED_ITERATIONS = 6
+#: Newton iterations in all; the first ``DEFAULT_SEED_ITERATIONS`` run from every seed, the rest from
+#: the best seed per pair only.  8 and 4: on 500 random tensors and 4000 power-0.5-3d pairs every value
+#: is within 4e-15·max|G| of 16 iterations (6 and 6 left 1 in 500 random tensors at 6e-10, and the
+#: degenerate minima of the rotation-invariant power cost at up to 8e-13)
+DEFAULT_ITERATIONS = 8
+DEFAULT_SEED_ITERATIONS = 4
 #: largest rotation angle of one Newton step (radians)
 _MAX_ANGLE = 0.5
 
@@ -229,7 +231,7 @@ def _mixed(g6, xi, eta):
 def _repeat(step, count: int, state, xp):
     """``count`` applications of ``step(i, state)``: a Python loop for numpy, ``lax.fori_loop`` for
     JAX (one compiled loop body: unrolled, XLA's fusion duplicates work across iterations)."""
-    if xp is numpy:
+    if xp is numpy or count == 0:
         for i in range(count):
             state = step(i, state)
         return state
