@@ -291,11 +291,11 @@ def run(size: str = "default", backends=("sympy", "jax"), skip_catalog: bool = F
                           "(~8e10 flop/s) would allow ~4e7 pairs/s: the limit is numpy's "
                           "memory-bound, per-call style, not the machine; reaching 2e6 needs a fused "
                           "compiled kernel (e.g. one jitted JAX function for derivatives + margin)",
-        "n3_pairs_per_s": "bottleneck (cProfile): sphere_descent/form_min (96 directions, then 3 starts "
-                          "x 20 descent steps x 5 eigen-evaluations per pair: ~2e5 flops/pair), numpy "
-                          "per-call overhead on small chunks; fp64 peak (~8e10 flop/s) gives ~4e5 "
-                          "pairs/s at 100% efficiency, so 2e5 is at the physical edge even for a "
-                          "fused kernel",
+        "n3_pairs_per_s": "bottleneck (cProfile): checks/biquadratic.py - the 96-direction scan (one "
+                          "float32 matrix product, ~2e4 flops/pair) and 2 seeds x 6 Newton iterations "
+                          "on SO(3) (~800 element-wise numpy passes each); numpy costs ~1 ns per "
+                          "element-op, ~8 us/pair; the ~3e4 flops/pair would allow ~2e6 pairs/s at the "
+                          "fp64 peak of 2 cores: the limit is numpy's one-pass-per-operation style",
         "n2_speedup_vs_naive": "follows from n2_pairs_per_s: the naive per-point loop runs at "
                                "~1e2-1e3 pairs/s",
     }

@@ -47,7 +47,7 @@ from . import plane_margin
 #: pairs whose mixed Hessian has ``σ_min / σ_max`` below this are treated as singular (A2 fails there)
 SINGULAR_RCOND = plane_margin.SINGULAR_RCOND
 
-#: directions of ξ sampled on the half-sphere for ``n >= 3`` (then polished by :func:`sphere_descent`)
+#: directions of ξ sampled on the half-sphere for ``n >= 3`` (then polished: Newton on SO(3) for n = 3, :func:`sphere_descent` above)
 DEFAULT_DIRECTIONS = 96
 
 #: pairs processed together for ``n >= 3`` (bounds the memory of the (N, D, n, n) arrays: about
@@ -377,12 +377,15 @@ def _polished_scan(G, valid, orthogonal, directions, polish, starts: int = 3):
     return raw, xi, eta
 
 
-def a3w_margin(derivs, *, directions: int = DEFAULT_DIRECTIONS, polish: int = 20) -> Margins:
+def a3w_margin(derivs, *, directions: int = DEFAULT_DIRECTIONS, polish: int | None = None) -> Margins:
     """Per pair: the A3w margin ``min S(ξ, η)`` over unit ``ξ ⊥ η``, scale-free and raw, and its minimisers.
 
-    ``n = 2``: exact (the certified minimum of the quartic ``S(θ)``).  ``n >= 3``: ``directions``
-    quasi-uniform ξ, then ``polish`` steps of :func:`sphere_descent` from each pair's 3 best directions.  ``n = 1``: the
-    condition is empty (ξ^⊥ = {0}); every margin is reported as 0.
+    ``n = 2``: exact (the certified minimum of the quartic ``S(θ)``).  ``n = 3``:
+    :func:`costcheck.checks.biquadratic.orthogonal_biquadratic_min` (a scan of ``directions`` ξ
+    with the exact η for each, then ``polish`` Newton iterations on SO(3) from the two best
+    separated directions; ``None``: its default).  ``n >= 4``: ``directions`` quasi-uniform ξ, then
+    ``polish`` (default 20) steps of :func:`sphere_descent` from each pair's 3 best directions.
+    ``n = 1``: the condition is empty (ξ^⊥ = {0}); every margin is reported as 0.
     """
     n = np.shape(derivs.dxy)[1]
     if n == 2:  # written out on columns, no tensor arrays
@@ -392,8 +395,28 @@ def a3w_margin(derivs, *, directions: int = DEFAULT_DIRECTIONS, polish: int = 20
     N = T.shape[0]
     if n == 1:
         return _finish(np.zeros(N), np.ones((N, 1)), np.zeros((N, 1)), normalising, valid)
-    raw, xi, eta = _polished_scan(G, valid, True, sphere_directions(n, directions), polish)
+    if n == 3:
+        raw, xi, eta = _orthogonal_min_3d(G, directions, polish)
+        return _finish(raw, xi, eta, normalising, valid)
+    raw, xi, eta = _polished_scan(G, valid, True, sphere_directions(n, directions), 20 if polish is None else polish)
     return _finish(raw, xi, eta, normalising, valid)
+
+
+#: pairs per call of the n = 3 minimiser (its working arrays take about 3 KB per pair)
+_CHUNK_3D = 4096
+
+
+def _orthogonal_min_3d(G, directions, iterations):
+    """:func:`biquadratic.orthogonal_biquadratic_min` over memory-bounded chunks (pairs are independent)."""
+    from . import biquadratic
+
+    options = {"directions": directions}
+    if iterations is not None:
+        options["iterations"] = iterations
+    parts = [biquadratic.orthogonal_biquadratic_min(G[b:b + _CHUNK_3D], **options) for b in range(0, G.shape[0], _CHUNK_3D)]
+    if not parts:
+        return np.zeros(0), np.zeros((0, 3)), np.zeros((0, 3))
+    return tuple(np.concatenate([part[k] for part in parts]) for k in range(3))
 
 
 def _nncc_2d(G, grid: int = 64, iterations: int = 40):
