@@ -526,3 +526,17 @@ def test_single_point_as_1d_arrays(backend):
     cost = _cost(EXPR_2_2, 2, 2)
     d = evaluate(cost, backend, [0.2, -0.4], [0.5, 0.1], order=1)
     assert d.value.shape == (1,) and d.dx.shape == (1, 2) and d.dy.shape == (1, 2)
+
+
+def test_abs_of_an_expression_sympy_cannot_prove_real():
+    # found by hypothesis: sympy leaves Derivative(sign(u), y1) unevaluated when it cannot prove
+    # u = cos(x1/(sin(y1) + 2)) + 2 real, and lambdify cannot print it; here u > 0, so |u| = u
+    # and the derivatives must equal those of the cost written without abs
+    domain = {"x": {"box": [[-1, 1]]}, "y": {"box": [[-1, 1]]}}
+    kinked = costcheck.from_expression("x1*y1 + abs(cos(x1/(sin(y1) + 2)) + 2)", x=["x1"], y=["y1"], domain=domain)
+    smooth = costcheck.from_expression("x1*y1 + cos(x1/(sin(y1) + 2)) + 2", x=["x1"], y=["y1"], domain=domain)
+    xs, ys = np.array([[0.3], [-0.7]]), np.array([[0.2], [0.9]])
+    for backend in ("sympy", "jax"):
+        a, b = evaluate(kinked, backend, xs, ys), evaluate(smooth, "sympy", xs, ys)
+        for name in ALL_FIELDS:
+            np.testing.assert_allclose(getattr(a, name), getattr(b, name), rtol=1e-12, atol=1e-12)

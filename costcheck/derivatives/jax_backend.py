@@ -151,6 +151,9 @@ def _translator(jax, jnp, known: dict):
                 v = jnp.power(walk(base), walk(exponent))
         elif e.func in table and len(e.args) == 1:
             v = table[e.func](walk(e.args[0]))
+        elif isinstance(e, sp.DiracDelta):  # from sign's derivative: 0 off the kink, undefined on it
+            u = walk(e.args[0])
+            v = jnp.where(u == 0, jnp.nan, 0.0)
         else:
             raise UsageError(f"the JAX backend cannot translate {e.func.__name__}")
         known[e] = v

@@ -31,6 +31,30 @@ def _heaviside(x, *_):
 _MODULES = [{"DiracDelta": _delta, "Heaviside": _heaviside, "sign": np.sign}, "numpy"]
 
 
+def _diff(e: sp.Expr, v: sp.Symbol) -> sp.Expr:
+    """``∂e/∂v``, with ``sign``'s derivative made explicit.
+
+    sympy differentiates ``sign(u)`` only when it can prove ``u`` real; for ``u = cos(x/(sin(y)
+    + 2)) + 2`` it cannot (it does not bound the denominator away from 0) and leaves an
+    unevaluated ``Derivative(sign(u), v)``, which no printer can evaluate.  Every variable here
+    is real, so ``∂ sign(u)/∂v = 2 δ(u) ∂u/∂v`` (``δ`` evaluates to 0 off ``u = 0`` and is
+    undefined on it, like the kink it comes from).
+    """
+    return _explicit_sign(sp.diff(e, v))
+
+
+def _explicit_sign(e: sp.Expr) -> sp.Expr:
+    def evaluate(d):
+        u = d.expr.args[0]
+        variables = list(d.variables)
+        out = 2 * sp.DiracDelta(u) * sp.diff(u, variables[0])
+        for v in variables[1:]:
+            out = sp.diff(out, v)
+        return _explicit_sign(out)
+
+    return e.replace(lambda a: isinstance(a, sp.Derivative) and isinstance(a.expr, sp.sign), evaluate)
+
+
 def symbolic_derivatives(expr: sp.Expr, xs: Sequence[sp.Symbol], ys: Sequence[sp.Symbol], order: int) -> dict:
     """Nested lists of sympy expressions, one entry per field of :class:`Derivatives`.
 
@@ -50,28 +74,28 @@ def _symbolic_derivatives(expr, xs, ys, order) -> dict:
         return {"value": expr}
     out = dict(_symbolic_derivatives(expr, xs, ys, order - 1))
     if order == 1:
-        out["dx"] = [sp.diff(expr, xi) for xi in xs]
-        out["dy"] = [sp.diff(expr, yk) for yk in ys]
+        out["dx"] = [_diff(expr, xi) for xi in xs]
+        out["dy"] = [_diff(expr, yk) for yk in ys]
     elif order == 2:
         gx = out["dx"]
-        out["dxy"] = [[sp.diff(gx[i], ys[k]) for k in range(m)] for i in range(n)]
+        out["dxy"] = [[_diff(gx[i], ys[k]) for k in range(m)] for i in range(n)]
     elif order == 3:
         M = out["dxy"]
         dxxy = [[[None] * m for _ in range(n)] for _ in range(n)]
         for i, j in itertools.combinations_with_replacement(range(n), 2):
             for k in range(m):
-                dxxy[i][j][k] = dxxy[j][i][k] = sp.diff(M[i][k], xs[j])
+                dxxy[i][j][k] = dxxy[j][i][k] = _diff(M[i][k], xs[j])
         dxyy = [[[None] * m for _ in range(m)] for _ in range(n)]
         for i in range(n):
             for k, l in itertools.combinations_with_replacement(range(m), 2):
-                dxyy[i][k][l] = dxyy[i][l][k] = sp.diff(M[i][k], ys[l])
+                dxyy[i][k][l] = dxyy[i][l][k] = _diff(M[i][k], ys[l])
         out["dxxy"], out["dxyy"] = dxxy, dxyy
     else:
         dxxy = out["dxxy"]
         dxxyy = [[[[None] * m for _ in range(m)] for _ in range(n)] for _ in range(n)]
         for i, j in itertools.combinations_with_replacement(range(n), 2):
             for k, l in itertools.combinations_with_replacement(range(m), 2):
-                d = sp.diff(dxxy[i][j][k], ys[l])
+                d = _diff(dxxy[i][j][k], ys[l])
                 for a, b in ((i, j), (j, i)):
                     dxxyy[a][b][k][l] = dxxyy[a][b][l][k] = d
         out["dxxyy"] = dxxyy
