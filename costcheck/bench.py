@@ -284,13 +284,15 @@ def run(size: str = "default", backends=("sympy", "jax"), skip_catalog: bool = F
         t["catalog_peak_mb"] = {"measured": cat["peak_mb"], "target": TARGETS["catalog_peak_mb"],
                                 "lower_is_better": True}
     limits = {
-        "n2_pairs_per_s": "bottleneck (cProfile): batched LAPACK eigvals of the 4x4 companion matrices "
-                          "(~6 us/pair, about half of a3w_margin), then numpy passes over (N,2,2,2,2) "
-                          "temporaries and the derivative evaluation (sphere chart: ~6 us/pair); the "
-                          "arithmetic is ~2e3 flops/pair, so the fp64 peak of 2 AVX2-FMA cores "
-                          "(~8e10 flop/s) would allow ~4e7 pairs/s: the limit is numpy's "
-                          "memory-bound, per-call style, not the machine; reaching 2e6 needs a fused "
-                          "compiled kernel (e.g. one jitted JAX function for derivatives + margin)",
+        "n2_pairs_per_s": "the fused kernel's four programs (margin.<cost>.jax.stage_pairs_per_s) each "
+                          "run at several million pairs/s; end to end about half is lost to the host "
+                          "(copies of the columns out of XLA, the numpy normaliser, chunk padding). "
+                          "Per pair: the derivatives after cse (derivative_operations_per_pair: ~230 "
+                          "for the power cost, ~1,900 for the sphere chart, with acos, square roots "
+                          "and divisions) and ~1,300 flops of the certified quartic grid stage; XLA "
+                          "runs a pure FMA chain at ~2e10 flop/s on these 2 cores, so ~3e3 flops/pair "
+                          "bounds the kernel near 7e6 pairs/s; transcendental calls and selects cost "
+                          "several flops each",
         "n3_pairs_per_s": "bottleneck (cProfile): checks/biquadratic.py - the 96-direction scan (one "
                           "float32 matrix product, ~2e4 flops/pair) and 2 seeds x 6 Newton iterations "
                           "on SO(3) (~800 element-wise numpy passes each); numpy costs ~1 ns per "

@@ -15,7 +15,7 @@ import numpy as np
 import sympy as sp
 
 from . import fields_up_to
-from .sympy_backend import symbolic_derivatives
+from .sympy_backend import shared_cse, symbolic_derivatives
 
 
 def _mp_delta(u, *_):
@@ -43,7 +43,7 @@ class HighPrecision:
         flat = [e for k in self.names for e in np.array(sym[k], dtype=object).reshape(-1)]
         self._sizes = [int(np.prod(self._shapes[k], dtype=int)) for k in self.names]
         self._fn = sp.lambdify(list(xs) + list(ys) + list(extra), flat, modules=[_MP_KINKS, "mpmath"],
-                               dummify=True, cse=True)
+                               dummify=True, cse=shared_cse)
         self.extra_values: tuple = ()
 
     def bound(self, values: Sequence[sp.Expr]) -> "HighPrecision":

@@ -44,6 +44,9 @@ def _diff(e: sp.Expr, v: sp.Symbol) -> sp.Expr:
 
 
 def _explicit_sign(e: sp.Expr) -> sp.Expr:
+    if not e.has(sp.Derivative):  # the usual case: nothing to rebuild
+        return e
+
     def evaluate(d):
         u = d.expr.args[0]
         variables = list(d.variables)
@@ -102,6 +105,24 @@ def _symbolic_derivatives(expr, xs, ys, order) -> dict:
     return out
 
 
+def shared_cse(exprs):
+    """``sympy.cse`` for ``lambdify(..., cse=shared_cse)``, computed once per set of expressions.
+
+    The float64 evaluator and the mpmath one (:mod:`costcheck.derivatives.mp_backend`) lambdify
+    the same derivatives; on a chart of the sphere the elimination takes seconds, so both use
+    this cached result (duplicates are removed first, and put back in the reduced list).
+    """
+    unique = tuple(dict.fromkeys(exprs))
+    replacements, reduced = _cse_of(unique)
+    where = dict(zip(unique, reduced))
+    return list(replacements), [where[e] for e in exprs]
+
+
+@lru_cache(maxsize=32)
+def _cse_of(unique: tuple):
+    return sp.cse(list(unique))
+
+
 def build(expr: sp.Expr, xs: Sequence[sp.Symbol], ys: Sequence[sp.Symbol], order: int, family=None):
     """A function ``(xs (N,n), ys (N,m)) -> Derivatives`` evaluating the symbolic derivatives.
 
@@ -137,7 +158,7 @@ def _build(expr, xs, ys, order, extra=()):
             idx.append(position[e])
         layout[name] = np.array(idx, dtype=int)
 
-    fn = sp.lambdify(list(xs) + list(ys) + list(extra), flat, modules=_MODULES, cse=True, dummify=True)
+    fn = sp.lambdify(list(xs) + list(ys) + list(extra), flat, modules=_MODULES, cse=shared_cse, dummify=True)
 
     def evaluate(x: np.ndarray, y: np.ndarray, values=()) -> Derivatives:
         count = x.shape[0]
