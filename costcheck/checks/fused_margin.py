@@ -2,7 +2,7 @@
 
 The sympy route evaluates the derivative fields with numpy and then the margin
 (:mod:`costcheck.checks.plane_margin`), each step a pass over memory.  Here the same
-mathematics is traced once into four XLA programs (``jax.jit``):
+mathematics is traced once into five XLA programs (``jax.jit``):
 
 1. the cost's derivatives up to order 4, from the symbolic derivatives with shared
    subexpressions (:func:`costcheck.derivatives.jax_backend.sympy_columns_to_jax`), then
@@ -10,10 +10,10 @@ mathematics is traced once into four XLA programs (``jax.jit``):
 2. the quartic ``S(θ)`` and the grid stage of its certified minimum
    (:func:`costcheck.checks.quartic.bracket`);
 3. the Newton polish of the (at most two) local minima (:func:`costcheck.checks.quartic.roots`);
-4. the choice among them (:func:`costcheck.checks.quartic.choose`); the normaliser and the
-   scale-free margins are a few numpy passes on the host.
+4. the choice among them (:func:`costcheck.checks.quartic.choose`);
+5. the normaliser and the scale-free margins (:func:`costcheck.checks.plane_margin.finish`).
 
-Four programs, not one: XLA fuses elementwise producers into each consumer, so in one
+Five programs, not one: XLA fuses elementwise producers into each consumer, so in one
 program the grid stage and the Newton steps would be computed again for every output (its
 CPU compiler drops optimisation barriers); a program's inputs are computed once.  Rows the quartic
 certificate leaves open are redone on the host by the eigenvalue route, so every minimum is
@@ -84,13 +84,16 @@ def _programs(expr, xs, ys):
     def choose(prepared, packed, found):
         return quartic.choose(plane_margin.coefficients(prepared, jnp), packed, found, jnp)
 
-    return tuple(jax.jit(f) for f in (algebra, grid, polish, choose))
+    def finish(prepared, minimum):  # every output is cheap to recompute from these inputs
+        return plane_margin.finish(prepared, minimum, jnp)
+
+    return tuple(jax.jit(f) for f in (algebra, grid, polish, choose, finish))
 
 
 def a3w_margin(cost, xs: np.ndarray, ys: np.ndarray, *, chunk: int = CHUNK) -> plane_margin.PlaneMargins:
     """Exact n = 2 A3w margins at the pairs ``(xs, ys)``, computed by the compiled kernels
     (``chunk`` pairs per call; each new chunk size is a new compilation)."""
-    algebra, grid, polish, choose = _programs(cost.expr, tuple(cost.x_symbols), tuple(cost.y_symbols))
+    algebra, grid, polish, choose, finish = _programs(cost.expr, tuple(cost.x_symbols), tuple(cost.y_symbols))
     z = np.concatenate([np.asarray(xs, float), np.asarray(ys, float)], axis=1)
     N = z.shape[0]
     parts = []
@@ -101,24 +104,26 @@ def a3w_margin(cost, xs: np.ndarray, ys: np.ndarray, *, chunk: int = CHUNK) -> p
             block = np.concatenate([block, np.repeat(block[:1], chunk - count, axis=0)])
         prepared = algebra(block)
         packed = grid(prepared)
-        parts.append((prepared, choose(prepared, packed, polish(prepared, packed)), count))
+        found = choose(prepared, packed, polish(prepared, packed))
+        parts.append((prepared, found, finish(prepared, found), count))
     return _assemble(parts)
 
 
 def _assemble(parts) -> plane_margin.PlaneMargins:
-    """The margins on the host (a few numpy passes), with the rows the certificate left open
-    redone by the eigenvalue route."""
+    """The chunks' margins as numpy, with the rows the certificate left open redone on the host
+    by the eigenvalue route."""
     pieces = []
-    for prepared, found, count in parts:
-        prepared = plane_margin.Prepared(*(_head(f, count) for f in prepared))
-        found = quartic.QuarticMinimum(*(_head(f, count) for f in found))
-        with np.errstate(all="ignore"):
-            redo = np.flatnonzero(~found.certified)
-            if redo.size:
-                p = plane_margin.coefficients(plane_margin.Prepared(*(_rows(f, redo) for f in prepared)))
-                fixed = quartic.patch_uncertified(p, quartic.QuarticMinimum(*(_rows(f, redo) for f in found)))
-                found = quartic.QuarticMinimum(*(_replaced(a, b, redo) for a, b in zip(found, fixed)))
-            pieces.append(plane_margin.finish(prepared, found))
+    for prepared, found, margins, count in parts:
+        margins = plane_margin.PlaneMargins(*(_head(f, count) for f in margins))
+        redo = np.flatnonzero(~margins.certified)
+        if redo.size:
+            with np.errstate(all="ignore"):
+                sub = plane_margin.Prepared(*(_rows(_head(f, count), redo) for f in prepared))
+                fixed = quartic.patch_uncertified(plane_margin.coefficients(sub),
+                                                  quartic.QuarticMinimum(*(_rows(_head(f, count), redo) for f in found)))
+                redone = plane_margin.finish(sub, fixed)
+            margins = plane_margin.PlaneMargins(*(_replaced(a, b, redo) for a, b in zip(margins, redone)))
+        pieces.append(margins)
     return plane_margin.PlaneMargins(*(np.concatenate([getattr(p, f) for p in pieces]) for f in plane_margin.PlaneMargins._fields))
 
 
