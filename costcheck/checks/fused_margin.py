@@ -37,9 +37,9 @@ CHUNK = 1 << 16
 
 #: from this many sampled pairs on, the MTW check uses the kernel.  The check's sample shares its
 #: numpy derivatives with the other conditions, so the kernel replaces only the numpy margin
-#: (about 0.5M pairs/s against the kernel's 1–2M with its own derivatives, measured on this
-#: 2-core machine): it saves ~1.4 µs a pair and costs 4–8 s of compilation when the persistent
-#: cache is cold, so it pays from a few million pairs
+#: (about 0.37M pairs/s against the kernel's 1.0–1.2M with its own derivatives, measured by the
+#: bench on this 2-core machine): it saves ~1.8 µs a pair and costs 3–4 s of compilation when
+#: the persistent cache is cold, so it pays from a few million pairs
 WORTHWHILE_PAIRS = 1 << 22
 
 _FIELDS = ("dxy", "dxxy", "dxyy", "dxxyy")

@@ -35,6 +35,7 @@ from dataclasses import dataclass
 import mpmath
 import numpy as np
 
+from ..errors import UsageError
 from ..verdict import Evidence, Verdict, Witness, not_applicable, undecided
 from . import tensor
 
@@ -104,8 +105,11 @@ def _sample_margins(ctx, margin_fn):
     from . import fused_margin
 
     if margin_fn is tensor.a3w_margin and fused_margin.worthwhile(ctx.cost, ctx.sample.xs.shape[0]):
-        m = fused_margin.a3w_margin(ctx.cost, ctx.sample.xs, ctx.sample.ys)
-        return tensor.Margins(m.rel, m.raw, m.xi, m.eta, m.normaliser, m.valid)
+        try:
+            m = fused_margin.a3w_margin(ctx.cost, ctx.sample.xs, ctx.sample.ys)
+            return tensor.Margins(m.rel, m.raw, m.xi, m.eta, m.normaliser, m.valid)
+        except UsageError:  # a function the JAX translation does not know: the numpy route
+            pass
     return margin_fn(ctx.derivs)
 
 
