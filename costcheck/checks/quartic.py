@@ -62,8 +62,7 @@ class QuarticMinimum(NamedTuple):
 
 def critical_polynomial(p, xp=np):
     """Ascending coefficients ``r (..., 5)`` of ``R(u) = (1 + u²) P'(u) - 4 u P(u)`` for ``P`` with coefficients ``p``."""
-    p0, p1, p2, p3, p4 = (p[..., k] for k in range(5))
-    return xp.stack([p1, 2 * p2 - 4 * p0, 3 * p3 - 3 * p1, 4 * p4 - 2 * p2, -p3], axis=-1)
+    return xp.stack(_critical([p[..., k] for k in range(5)]), axis=-1)
 
 
 def _critical(c):
