@@ -75,7 +75,7 @@ def measure_margin(cost, backend: str, xs, ys) -> dict:
     fused = backend == "jax" and fused_margin.applicable(cost)
     started = time.perf_counter()
     if fused:
-        fused_margin.a3w_margin(cost, xs[:16], ys[:16])  # traces and compiles the three programs
+        fused_margin.a3w_margin(cost, xs[:16], ys[:16])  # traces and compiles the five programs
         warm = time.perf_counter() - started
         t0 = time.perf_counter()
         m = fused_margin.a3w_margin(cost, xs, ys)
