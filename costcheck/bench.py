@@ -134,12 +134,11 @@ def _derivative_operations(cost) -> int:
     elimination: the work the kernel's first program does per pair before the tensor algebra."""
     import sympy as sp
 
-    from .derivatives.sympy_backend import symbolic_derivatives
+    from .checks.fused_margin import FIELDS
+    from .derivatives.sympy_backend import distinct_entries, shared_cse, symbolic_derivatives
 
-    sym = symbolic_derivatives(cost.expr, cost.x_symbols, cost.y_symbols, 4)
-    flat = list(dict.fromkeys(e for name in ("dxy", "dxxy", "dxyy", "dxxyy")
-                              for e in np.array(sym[name], dtype=object).reshape(-1)))
-    replacements, reduced = sp.cse(flat)
+    flat, _ = distinct_entries(symbolic_derivatives(cost.expr, cost.x_symbols, cost.y_symbols, 4), FIELDS)
+    replacements, reduced = shared_cse(flat)  # the kernel's own elimination (cached)
     return int(sum(sp.count_ops(e) for _, e in replacements) + sum(sp.count_ops(e) for e in reduced))
 
 

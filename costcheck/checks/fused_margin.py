@@ -42,7 +42,7 @@ CHUNK = 1 << 16
 #: the persistent cache is cold, so it pays from a few million pairs
 WORTHWHILE_PAIRS = 1 << 22
 
-_FIELDS = ("dxy", "dxxy", "dxyy", "dxxyy")
+FIELDS = ("dxy", "dxxy", "dxyy", "dxxyy")
 
 
 def applicable(cost) -> bool:
@@ -57,23 +57,15 @@ def worthwhile(cost, pairs: int) -> bool:
 @lru_cache(maxsize=16)
 def _programs(expr, xs, ys):
     from ..derivatives.jax_backend import _jax, sympy_columns_to_jax
-    from ..derivatives.sympy_backend import symbolic_derivatives
+    from ..derivatives.sympy_backend import distinct_entries, symbolic_derivatives
 
     jax, jnp = _jax()
-    sym = symbolic_derivatives(expr, xs, ys, 4)
-    flat, where = [], {}
-    for name in _FIELDS:
-        entries = np.array(sym[name], dtype=object)
-        for index in np.ndindex(entries.shape):
-            e = entries[index]
-            if e not in flat:
-                flat.append(e)
-            where[name, index] = flat.index(e)
+    flat, layout = distinct_entries(symbolic_derivatives(expr, xs, ys, 4), FIELDS)
     columns_of = sympy_columns_to_jax(flat, list(xs) + list(ys))
 
     def algebra(z):
         cols = columns_of([z[:, k] for k in range(z.shape[1])])
-        return plane_margin.prepare(lambda name, *index: cols[where[name, index]], jnp)
+        return plane_margin.prepare(lambda name, *index: cols[layout[name][index]], jnp)
 
     def grid(prepared):
         return quartic.bracket(plane_margin.coefficients(prepared, jnp), jnp)

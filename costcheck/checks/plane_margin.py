@@ -147,7 +147,6 @@ def a3w_margin(derivs) -> PlaneMargins:
     with np.errstate(all="ignore"):
         for begin in range(0, max(N, 1), CHUNK):
             prepared = prepare(field_columns({k: v[begin:begin + CHUNK] for k, v in fields.items()}))
-            p = coefficients(prepared)
-            found = quartic.patch_uncertified(p, quartic.minimum(p))  # exact everywhere
+            found = quartic.exact_minimum(coefficients(prepared))
             parts.append(finish(prepared, found))
     return PlaneMargins(*(np.concatenate([getattr(part, name) for part in parts]) for name in PlaneMargins._fields))

@@ -179,8 +179,10 @@ def sympy_columns_to_jax(exprs: Sequence[sp.Expr], symbols: Sequence[sp.Symbol])
     array per symbol).  Common subexpressions are found once by ``sympy.cse`` and computed once:
     the symbolic route to derivatives, which for high orders does far less arithmetic than
     nesting forward-mode transforms."""
+    from .sympy_backend import shared_cse
+
     jax, jnp = _jax()
-    replacements, reduced = sp.cse(list(exprs))
+    replacements, reduced = shared_cse(list(exprs))
 
     def f(columns):
         known = dict(zip(symbols, columns))

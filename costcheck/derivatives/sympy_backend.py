@@ -105,6 +105,25 @@ def _symbolic_derivatives(expr, xs, ys, order) -> dict:
     return out
 
 
+def distinct_entries(sym: dict, names) -> tuple[list, dict]:
+    """``(flat, layout)``: the distinct expressions of the fields ``names`` of ``sym`` (from
+    :func:`symbolic_derivatives`), each once, and for each field an int array (in the field's
+    own shape) of where its entries sit in ``flat``: symmetric entries are computed once."""
+    flat: list[sp.Expr] = []
+    position: dict[sp.Expr, int] = {}
+    layout: dict[str, np.ndarray] = {}
+    for name in names:
+        entries = np.array(sym[name], dtype=object)
+        idx = []
+        for e in entries.reshape(-1):
+            if e not in position:
+                position[e] = len(flat)
+                flat.append(e)
+            idx.append(position[e])
+        layout[name] = np.array(idx, dtype=int).reshape(entries.shape)
+    return flat, layout
+
+
 def shared_cse(exprs):
     """``sympy.cse`` for ``lambdify(..., cse=shared_cse)``, computed once per set of expressions.
 
@@ -143,20 +162,7 @@ def _build(expr, xs, ys, order, extra=()):
     names = fields_up_to(order)
     sym = symbolic_derivatives(expr, xs, ys, order)
     shapes = {name: np.shape(np.array(sym[name], dtype=object)) for name in names}
-
-    # one flat list of distinct expressions; each field records where its entries sit in it
-    flat: list[sp.Expr] = []
-    position: dict[sp.Expr, int] = {}
-    layout: dict[str, np.ndarray] = {}
-    for name in names:
-        entries = np.array(sym[name], dtype=object).reshape(-1)
-        idx = []
-        for e in entries:
-            if e not in position:
-                position[e] = len(flat)
-                flat.append(e)
-            idx.append(position[e])
-        layout[name] = np.array(idx, dtype=int)
+    flat, layout = distinct_entries(sym, names)
 
     fn = sp.lambdify(list(xs) + list(ys) + list(extra), flat, modules=_MODULES, cse=shared_cse, dummify=True)
 
@@ -166,7 +172,7 @@ def _build(expr, xs, ys, order, extra=()):
         table = np.empty((len(flat), count))
         for row, col in enumerate(columns):
             table[row] = np.broadcast_to(np.asarray(col, dtype=float), (count,))
-        result = {name: table[layout[name]].T.reshape((count,) + shapes[name]) for name in names}
+        result = {name: table[layout[name].reshape(-1)].T.reshape((count,) + shapes[name]) for name in names}
         return Derivatives(**result)
 
     return evaluate
