@@ -63,8 +63,14 @@ def _pairs(cost, count: int, seed: int = 1):
 
 # --------------------------------------------------------------------------- vectorised margin
 
+#: timed runs per margin figure; the best is reported (the first run after compiling is slower:
+#: memory is still being mapped, and the machine's other load comes and goes)
+REPEATS = 3
+
+
 def measure_margin(cost, backend: str, xs, ys) -> dict:
-    """Throughput of one backend's margin path (``build_s``, the compilation, excluded).
+    """Throughput of one backend's margin path: the best of :data:`REPEATS` runs after one
+    untimed warm-up run on the same pairs (``build_s``: the warm-up, compilation included).
 
     ``jax`` on a symbolic n = 2 cost is the fused kernel (:mod:`costcheck.checks.fused_margin`):
     derivatives and margin compiled together.  Otherwise the backend's derivative evaluator
@@ -75,25 +81,33 @@ def measure_margin(cost, backend: str, xs, ys) -> dict:
     fused = backend == "jax" and fused_margin.applicable(cost)
     started = time.perf_counter()
     if fused:
-        fused_margin.a3w_margin(cost, xs[:16], ys[:16])  # traces and compiles the five programs
+        fused_margin.a3w_margin(cost, xs, ys)  # traces and compiles the programs for these block sizes
         warm = time.perf_counter() - started
-        t0 = time.perf_counter()
-        m = fused_margin.a3w_margin(cost, xs, ys)
-        total = time.perf_counter() - t0
+        runs = []
+        for _ in range(REPEATS):
+            t0 = time.perf_counter()
+            m = fused_margin.a3w_margin(cost, xs, ys)
+            runs.append(time.perf_counter() - t0)
+        total = min(runs)
         stages = _fused_stages(cost, xs, ys)
     else:
         evaluator = cost.derivatives(backend=backend, order=4)
         tensor.a3w_margin(evaluator(xs, ys))  # JAX compiles for this batch shape here
         warm = time.perf_counter() - started
-        t0 = time.perf_counter()
-        d = evaluator(xs, ys)
-        t1 = time.perf_counter()
-        m = tensor.a3w_margin(d)
-        t2 = time.perf_counter()
-        total = t2 - t0
-        stages = {"derivatives_pairs_per_s": xs.shape[0] / (t1 - t0), "margin_pairs_per_s": xs.shape[0] / (t2 - t1)}
+        runs, parts = [], []
+        for _ in range(REPEATS):
+            t0 = time.perf_counter()
+            d = evaluator(xs, ys)
+            t1 = time.perf_counter()
+            m = tensor.a3w_margin(d)
+            t2 = time.perf_counter()
+            runs.append(t2 - t0)
+            parts.append((t1 - t0, t2 - t1))
+        total = min(runs)
+        best_d, best_m = parts[int(np.argmin(runs))]
+        stages = {"derivatives_pairs_per_s": xs.shape[0] / best_d, "margin_pairs_per_s": xs.shape[0] / best_m}
     return {"pairs": int(xs.shape[0]), "pairs_per_s": xs.shape[0] / total, "seconds": total,
-            "path": "fused jitted kernel" if fused else f"{backend} derivatives + numpy margin",
+            "runs_s": runs, "path": "fused jitted kernel" if fused else f"{backend} derivatives + numpy margin",
             "build_s": warm, **stages,
             "valid_fraction": float(np.mean(m.valid)), "min_rel_margin": float(np.nanmin(m.rel))}
 
@@ -286,21 +300,23 @@ def run(size: str = "default", backends=("sympy", "jax"), skip_catalog: bool = F
         t["catalog_peak_mb"] = {"measured": cat["peak_mb"], "target": TARGETS["catalog_peak_mb"],
                                 "lower_is_better": True}
     limits = {
-        "n2_pairs_per_s": "the fused kernel's five programs (margin.<cost>.jax.stage_pairs_per_s) each "
-                          "run at several million pairs/s; end to end about half is lost between them and "
-                          "on the host (each program's outputs written and read back, copies out of "
-                          "XLA, chunk padding). "
+        "n2_pairs_per_s": "the fused kernel's five programs (margin.<cost>.jax.stage_pairs_per_s), on "
+                          "blocks of 32,768 pairs, two blocks in flight; each program's outputs are "
+                          "written and read back. "
                           "Per pair: the derivatives after cse (derivative_operations_per_pair: ~230 "
                           "for the power cost, ~1,900 for the sphere chart, with acos, square roots "
                           "and divisions) and ~1,300 flops of the certified quartic grid stage; XLA "
                           "runs a pure FMA chain at ~2e10 flop/s on these 2 cores, so ~3e3 flops/pair "
                           "bounds the kernel near 7e6 pairs/s; transcendental calls and selects cost "
                           "several flops each",
-        "n3_pairs_per_s": "bottleneck (cProfile): checks/biquadratic.py - the 96-direction scan (one "
-                          "float32 matrix product, ~2e4 flops/pair) and 2 seeds x 6 Newton iterations "
-                          "on SO(3) (~800 element-wise numpy passes each); numpy costs ~1 ns per "
-                          "element-op, ~8 us/pair; the ~3e4 flops/pair would allow ~2e6 pairs/s at the "
-                          "fp64 peak of 2 cores: the limit is numpy's one-pass-per-operation style",
+        "n3_pairs_per_s": "bottleneck (cProfile): checks/biquadratic.py, ~8 us/pair - the 96-direction "
+                          "scan (one float32 matrix product, ~2e4 flops/pair) and 2 seeds x 6 Newton "
+                          "iterations on SO(3) (~800 element-wise passes each) - and the tensor "
+                          "preparation (SVD of M, batched 3x3 products for G), ~5 us/pair. "
+                          "The ~3e4 flops/pair would allow ~2e6 pairs/s at the fp64 peak of 2 cores; "
+                          "the same minimiser under jax.jit measured no faster than numpy (111k against "
+                          "118k pairs/s), so reaching the target needs fewer operations per pair "
+                          "(e.g. fewer Newton passes, a closed-form 3x3 inverse), not only compilation",
         "n2_speedup_vs_naive": "follows from n2_pairs_per_s: the naive per-point loop runs at "
                                "~1e2-1e3 pairs/s",
     }

@@ -118,6 +118,19 @@ def test_plane_margin_matches_the_tensor_written_out_on_catalog_costs():
         assert np.allclose(attained[ok], m.raw[ok], rtol=1e-10, atol=1e-12 * np.max(size))
 
 
+@pytest.mark.parametrize("count", [1, 4095, 4096, 4097, 200_000, 3 * (1 << 15), 1_000_001])
+def test_kernel_blocks_cover_the_batch_with_little_padding_and_few_shapes(count):
+    from costcheck.checks import fused_margin as fm
+
+    spans = fm.blocks(count)
+    assert [b for b, _, _ in spans] == list(np.cumsum([0] + [size for _, _, size in spans[:-1]]))
+    assert sum(rows for _, rows, _ in spans) == count
+    assert all(rows == size for _, rows, size in spans[:-1])  # only the last block is padded
+    assert spans[-1][2] - spans[-1][1] < fm.SMALLEST_BLOCK
+    sizes = {size for _, _, size in spans}
+    assert all(s & (s - 1) == 0 and fm.SMALLEST_BLOCK <= s <= fm.CHUNK for s in sizes)
+
+
 def test_fused_kernel_matches_the_numpy_route_and_the_check_uses_it(monkeypatch):
     pytest.importorskip("jax")
     from costcheck.checks import fused_margin

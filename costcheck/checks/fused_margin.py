@@ -17,8 +17,9 @@ Five programs, not one: XLA fuses elementwise producers into each consumer, so i
 program the grid stage and the Newton steps would be computed again for every output (its
 CPU compiler drops optimisation barriers); a program's inputs are computed once.  Rows the quartic
 certificate leaves open are redone on the host by the eigenvalue route, so every minimum is
-exact, as on the sympy route.  Batches are padded to a fixed chunk, so one compilation serves
-every batch size, and JAX's persistent compilation cache keeps it between runs.
+exact, as on the sympy route.  Batches are cut into blocks of a few fixed sizes (:func:`blocks`),
+so a handful of compilations serve every batch size, and JAX's persistent compilation cache
+keeps them between runs; two blocks are computed at a time.
 
 Compilation takes seconds: worth it for large budgets, not for one small check
 (:func:`worthwhile`).
@@ -26,20 +27,24 @@ Compilation takes seconds: worth it for large budgets, not for one small check
 
 from __future__ import annotations
 
+from concurrent.futures import ThreadPoolExecutor
 from functools import lru_cache
 
 import numpy as np
 
 from . import plane_margin, quartic
 
-#: pairs per compiled call (padded); bounds the memory of one call to a few tens of MB
-CHUNK = 1 << 16
+#: pairs per compiled call; bounds the memory of one call to a few tens of MB.  2^15 measured
+#: faster than 2^16 and 2^14 (bench, 200,000 pairs, two blocks in flight: 3.9M / 3.2M / 2.6M
+#: pairs/s for power-0.5): smaller blocks stay in cache and share out evenly between the
+#: workers, while per-call overhead grows below it
+CHUNK = 1 << 15
 
 #: from this many sampled pairs on, the MTW check uses the kernel.  The check's sample shares its
 #: numpy derivatives with the other conditions, so the kernel replaces only the numpy margin
-#: (about 0.37M pairs/s against the kernel's 1.0–1.2M with its own derivatives, measured by the
-#: bench on this 2-core machine): it saves ~1.8 µs a pair and costs 3–4 s of compilation when
-#: the persistent cache is cold, so it pays from a few million pairs
+#: (about 0.37M pairs/s against the kernel's 2–3.5M with its own derivatives, measured by the
+#: bench on this 2-core machine): it saves ~2.3 µs a pair and costs 4–5 s of compilation per
+#: block size when the persistent cache is cold, so it pays from a few million pairs
 WORTHWHILE_PAIRS = 1 << 22
 
 FIELDS = ("dxy", "dxxy", "dxyy", "dxxyy")
@@ -84,21 +89,58 @@ def _programs(expr, xs, ys):
 
 def a3w_margin(cost, xs: np.ndarray, ys: np.ndarray, *, chunk: int = CHUNK) -> plane_margin.PlaneMargins:
     """Exact n = 2 A3w margins at the pairs ``(xs, ys)``, computed by the compiled kernels
-    (``chunk`` pairs per call; each new chunk size is a new compilation)."""
-    algebra, grid, polish, choose, finish = _programs(cost.expr, tuple(cost.x_symbols), tuple(cost.y_symbols))
+    (at most ``chunk`` pairs per call; each new block size is a new compilation, see :func:`blocks`)."""
+    programs = _programs(cost.expr, tuple(cost.x_symbols), tuple(cost.y_symbols))
     z = np.concatenate([np.asarray(xs, float), np.asarray(ys, float)], axis=1)
-    N = z.shape[0]
-    parts = []
-    for begin in range(0, N, chunk):
-        block = z[begin:begin + chunk]
-        count = block.shape[0]
-        if count < chunk:  # pad with a copy of the first pair: one compiled shape for every call
-            block = np.concatenate([block, np.repeat(block[:1], chunk - count, axis=0)])
-        prepared = algebra(block)
-        packed = grid(prepared)
-        found = choose(prepared, packed, polish(prepared, packed))
-        parts.append((prepared, found, finish(prepared, found), count))
+    spans = blocks(z.shape[0], chunk)
+    # two blocks in flight: XLA keeps the cores busy only part of the time within one program
+    # (the bench measured 1.3-1.5 cores busy with one block at a time, 1.7-1.8 with two, and
+    # 1.25-1.3x the throughput); more workers than cores made it slower
+    with ThreadPoolExecutor(max_workers=IN_FLIGHT) as pool:
+        parts = list(pool.map(lambda span: _block(programs, z, *span), spans))
     return _assemble(parts)
+
+
+#: blocks computed at the same time (this machine has 2 cores)
+IN_FLIGHT = 2
+
+#: the smallest compiled block: a remainder is split into powers of two down to this size
+SMALLEST_BLOCK = 1 << 12
+
+
+def blocks(count: int, chunk: int = CHUNK) -> list[tuple[int, int, int]]:
+    """``(begin, rows, size)`` of each call: whole chunks, then the remainder split into
+    powers of two (largest first, at least :data:`SMALLEST_BLOCK`), the last one padded.
+
+    Padding a remainder to a whole chunk wasted up to a chunk of work (31 % of 200,000 pairs);
+    this wastes under :data:`SMALLEST_BLOCK` rows and compiles at most log2(chunk /
+    SMALLEST_BLOCK) + 1 shapes, which JAX's persistent cache keeps between runs.
+    """
+    out, begin = [], 0
+    while begin < count:
+        left = count - begin
+        size = chunk if left >= chunk else max(SMALLEST_BLOCK, 1 << (left.bit_length() - 1))
+        size = min(size, chunk)
+        out.append((begin, min(size, left), size))
+        begin += size
+    return out
+
+
+def _block(programs, z, begin, rows, size):
+    from ..derivatives.jax_backend import _jax
+
+    algebra, grid, polish, choose, finish = programs
+    block = z[begin:begin + rows]
+    if rows < size:  # pad with a copy of the first pair: one compiled shape per block size
+        block = np.concatenate([block, np.repeat(block[:1], size - rows, axis=0)])
+    prepared = algebra(block)
+    packed = grid(prepared)
+    found = choose(prepared, packed, polish(prepared, packed))
+    margins = finish(prepared, found)
+    # wait here, in the worker: JAX dispatches asynchronously, and a worker that returned at
+    # once would leave all the blocks queued one after another
+    _jax()[0].block_until_ready(margins)
+    return prepared, found, margins, rows
 
 
 def _assemble(parts) -> plane_margin.PlaneMargins:
