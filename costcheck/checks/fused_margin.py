@@ -34,9 +34,9 @@ import numpy as np
 
 from . import plane_margin, quartic
 
-#: pairs per compiled call; bounds the memory of one call to a few tens of MB.  2^15 measured
-#: faster than 2^16 and 2^14 (bench, 200,000 pairs, two blocks in flight: 3.9M / 3.2M / 2.6M
-#: pairs/s for power-0.5): smaller blocks stay in cache and share out evenly between the
+#: pairs per compiled call; bounds the memory of one call to a few tens of MB.  Measured on
+#: 200,000 pairs of power-0.5, two blocks in flight: 2^16 gave 3.2M pairs/s, 2^15 3.9M and
+#: 2^14 2.6M: smaller blocks stay in cache and share out evenly between the
 #: workers, while per-call overhead grows below it
 CHUNK = 1 << 15
 
@@ -95,13 +95,13 @@ def a3w_margin(cost, xs: np.ndarray, ys: np.ndarray, *, chunk: int = CHUNK) -> p
     spans = blocks(z.shape[0], chunk)
     # two blocks in flight: XLA keeps the cores busy only part of the time within one program
     # (the bench measured 1.3-1.5 cores busy with one block at a time, 1.7-1.8 with two, and
-    # 1.25-1.3x the throughput); more workers than cores made it slower
+    # 1.15-1.3x the throughput); more workers than cores made it slower
     with ThreadPoolExecutor(max_workers=IN_FLIGHT) as pool:
         parts = list(pool.map(lambda span: _block(programs, z, *span), spans))
     return _assemble(parts)
 
 
-#: blocks computed at the same time (this machine has 2 cores)
+#: blocks computed at the same time (measured on this 2-core machine: 4 was slower than 2)
 IN_FLIGHT = 2
 
 #: the smallest compiled block: a remainder is split into powers of two down to this size
