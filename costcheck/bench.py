@@ -83,33 +83,36 @@ def measure_margin(cost, backend: str, xs, ys) -> dict:
     if fused:
         fused_margin.a3w_margin(cost, xs, ys)  # traces and compiles the programs for these block sizes
         warm = time.perf_counter() - started
-        runs = []
-        for _ in range(REPEATS):
-            t0 = time.perf_counter()
-            m = fused_margin.a3w_margin(cost, xs, ys)
-            runs.append(time.perf_counter() - t0)
-        total = min(runs)
+        runs, (m, _) = _best_of(lambda: (fused_margin.a3w_margin(cost, xs, ys), None))
         stages = _fused_stages(cost, xs, ys)
     else:
         evaluator = cost.derivatives(backend=backend, order=4)
         tensor.a3w_margin(evaluator(xs, ys))  # JAX compiles for this batch shape here
         warm = time.perf_counter() - started
-        runs, parts = [], []
-        for _ in range(REPEATS):
+
+        def margins():
             t0 = time.perf_counter()
             d = evaluator(xs, ys)
-            t1 = time.perf_counter()
-            m = tensor.a3w_margin(d)
-            t2 = time.perf_counter()
-            runs.append(t2 - t0)
-            parts.append((t1 - t0, t2 - t1))
-        total = min(runs)
-        best_d, best_m = parts[int(np.argmin(runs))]
-        stages = {"derivatives_pairs_per_s": xs.shape[0] / best_d, "margin_pairs_per_s": xs.shape[0] / best_m}
+            return tensor.a3w_margin(d), time.perf_counter() - t0
+
+        runs, (m, derivatives_s) = _best_of(margins)
+        stages = {"derivatives_pairs_per_s": xs.shape[0] / derivatives_s,
+                  "margin_pairs_per_s": xs.shape[0] / (min(runs) - derivatives_s)}
+    total = min(runs)
     return {"pairs": int(xs.shape[0]), "pairs_per_s": xs.shape[0] / total, "seconds": total,
             "runs_s": runs, "path": "fused jitted kernel" if fused else f"{backend} derivatives + numpy margin",
             "build_s": warm, **stages,
             "valid_fraction": float(np.mean(m.valid)), "min_rel_margin": float(np.nanmin(m.rel))}
+
+
+def _best_of(run):
+    """``(seconds of each of REPEATS calls of run(), the result of the fastest call)``."""
+    runs, results = [], []
+    for _ in range(REPEATS):
+        t0 = time.perf_counter()
+        results.append(run())
+        runs.append(time.perf_counter() - t0)
+    return runs, results[int(np.argmin(runs))]
 
 
 def _fused_stages(cost, xs, ys, repeats: int = 3) -> dict:
@@ -121,9 +124,7 @@ def _fused_stages(cost, xs, ys, repeats: int = 3) -> dict:
 
     algebra, grid, polish, choose, finish = fused_margin._programs(cost.expr, tuple(cost.x_symbols),
                                                                    tuple(cost.y_symbols))
-    z = np.concatenate([xs, ys], axis=1)[: fused_margin.CHUNK]
-    if z.shape[0] < fused_margin.CHUNK:
-        z = np.concatenate([z, np.repeat(z[:1], fused_margin.CHUNK - z.shape[0], axis=0)])
+    z = fused_margin.padded(np.concatenate([xs, ys], axis=1)[: fused_margin.CHUNK], fused_margin.CHUNK)
     best = np.full(5, np.inf)
     for _ in range(repeats):
         marks = [time.perf_counter()]

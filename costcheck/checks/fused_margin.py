@@ -126,14 +126,18 @@ def blocks(count: int, chunk: int = CHUNK) -> list[tuple[int, int, int]]:
     return out
 
 
+def padded(block: np.ndarray, size: int) -> np.ndarray:
+    """``block`` grown to ``size`` rows with copies of its first row (one compiled shape per size)."""
+    if block.shape[0] >= size:
+        return block
+    return np.concatenate([block, np.repeat(block[:1], size - block.shape[0], axis=0)])
+
+
 def _block(programs, z, begin, rows, size):
     from ..derivatives.jax_backend import _jax
 
     algebra, grid, polish, choose, finish = programs
-    block = z[begin:begin + rows]
-    if rows < size:  # pad with a copy of the first pair: one compiled shape per block size
-        block = np.concatenate([block, np.repeat(block[:1], size - rows, axis=0)])
-    prepared = algebra(block)
+    prepared = algebra(padded(z[begin:begin + rows], size))
     packed = grid(prepared)
     found = choose(prepared, packed, polish(prepared, packed))
     margins = finish(prepared, found)
