@@ -540,3 +540,25 @@ def test_abs_of_an_expression_sympy_cannot_prove_real():
         a, b = evaluate(kinked, backend, xs, ys), evaluate(smooth, "sympy", xs, ys)
         for name in ALL_FIELDS:
             np.testing.assert_allclose(getattr(a, name), getattr(b, name), rtol=1e-12, atol=1e-12)
+
+
+def test_chunks_on_threads_give_the_one_call_numbers(monkeypatch):
+    # the sympy evaluator runs its lambdified function on chunks of rows, two at a time; the
+    # numbers must be those of one call over all rows, and no warning may escape a worker
+    # (numpy's error state belongs to each thread)
+    from costcheck.derivatives import sympy_backend
+
+    cost = _cost("sqrt(x1 - y1) + x2*y1", 2, 1)
+    rng = np.random.default_rng(8)
+    xs, ys = rng.uniform(-1, 1, (50, 2)), rng.uniform(-1, 1, (50, 1))
+    ys[::7, 0] = xs[::7, 0]  # on the boundary: infinite derivatives
+    ev = cost.derivatives(backend="sympy")
+    monkeypatch.setattr(sympy_backend, "CHUNK", 10**9)
+    whole = ev(xs, ys)
+    monkeypatch.setattr(sympy_backend, "CHUNK", 7)
+    with warnings.catch_warnings():
+        warnings.simplefilter("error")
+        chunked = ev(xs, ys)
+    for name in ALL_FIELDS:
+        np.testing.assert_array_equal(getattr(chunked, name), getattr(whole, name))
+    assert not whole.defined.all() and whole.defined.any()

@@ -381,9 +381,9 @@ def a3w_margin(derivs, *, directions: int = DEFAULT_DIRECTIONS, polish: int | No
     """Per pair: the A3w margin ``min S(ξ, η)`` over unit ``ξ ⊥ η``, scale-free and raw, and its minimisers.
 
     ``n = 2``: exact (the certified minimum of the quartic ``S(θ)``).  ``n = 3``:
-    :func:`costcheck.checks.biquadratic.orthogonal_biquadratic_min` (a scan of ``directions`` ξ
-    with the exact η for each, then ``polish`` Newton iterations on SO(3) from the two best
-    separated directions; ``None``: its default).  ``n >= 4``: ``directions`` quasi-uniform ξ, then
+    :func:`costcheck.checks.space_margin.a3w_margin`, compiled per pair (a scan of ``directions``
+    ξ with the exact η for each, then at most ``polish`` Newton iterations on SO(3) from the two
+    best separated directions; ``None``: its default).  ``n >= 4``: ``directions`` quasi-uniform ξ, then
     ``polish`` (default 20) steps of :func:`sphere_descent` from each pair's 3 best directions.
     ``n = 1``: the condition is empty (ξ^⊥ = {0}); every margin is reported as 0.
     """
@@ -391,32 +391,16 @@ def a3w_margin(derivs, *, directions: int = DEFAULT_DIRECTIONS, polish: int | No
     if n == 2:  # written out on columns, no tensor arrays
         m = plane_margin.a3w_margin(derivs)
         return Margins(m.rel, m.raw, m.xi, m.eta, m.normaliser, m.valid)
+    if n == 3:  # compiled per pair
+        from . import space_margin
+
+        return space_margin.a3w_margin(derivs, directions=directions, iterations=polish)
     T, inv, G, normalising, valid = _prepare(derivs, need_g=n >= 3)
     N = T.shape[0]
     if n == 1:
         return _finish(np.zeros(N), np.ones((N, 1)), np.zeros((N, 1)), normalising, valid)
-    if n == 3:
-        raw, xi, eta = _orthogonal_min_3d(G, directions, polish)
-        return _finish(raw, xi, eta, normalising, valid)
     raw, xi, eta = _polished_scan(G, valid, True, sphere_directions(n, directions), 20 if polish is None else polish)
     return _finish(raw, xi, eta, normalising, valid)
-
-
-#: pairs per call of the n = 3 minimiser (its working arrays take about 3 KB per pair)
-_CHUNK_3D = 4096
-
-
-def _orthogonal_min_3d(G, directions, iterations):
-    """:func:`biquadratic.orthogonal_biquadratic_min` over memory-bounded chunks (pairs are independent)."""
-    from . import biquadratic
-
-    options = {"directions": directions}
-    if iterations is not None:
-        options["iterations"] = iterations
-    parts = [biquadratic.orthogonal_biquadratic_min(G[b:b + _CHUNK_3D], **options) for b in range(0, G.shape[0], _CHUNK_3D)]
-    if not parts:
-        return np.zeros(0), np.zeros((0, 3)), np.zeros((0, 3))
-    return tuple(np.concatenate([part[k] for part in parts]) for k in range(3))
 
 
 def _nncc_2d(G, grid: int = 64, iterations: int = 40):

@@ -9,6 +9,7 @@ subexpressions are evaluated once per point.
 from __future__ import annotations
 
 import itertools
+from concurrent.futures import ThreadPoolExecutor
 from functools import lru_cache
 from typing import Sequence
 
@@ -142,6 +143,14 @@ def _cse_of(unique: tuple):
     return sp.cse(list(unique))
 
 
+#: rows per call of the lambdified function, whose temporaries (an array per operation) then stay
+#: in cache; chunks go to :data:`THREADS` threads (numpy releases the GIL in its loops).  Measured on
+#: the 2-core machine, power-0.5-3d and sphere-dist-sq at 200,000 pairs: 0.43M and 0.14M pairs/s in
+#: one call, 0.9–1.0M and 0.45M in chunks of 4096–8192 on one thread, 1.1–1.2M and 0.54–0.74M on two
+CHUNK = 8192
+THREADS = 2
+
+
 def build(expr: sp.Expr, xs: Sequence[sp.Symbol], ys: Sequence[sp.Symbol], order: int, family=None):
     """A function ``(xs (N,n), ys (N,m)) -> Derivatives`` evaluating the symbolic derivatives.
 
@@ -168,10 +177,21 @@ def _build(expr, xs, ys, order, extra=()):
 
     def evaluate(x: np.ndarray, y: np.ndarray, values=()) -> Derivatives:
         count = x.shape[0]
-        columns = fn(*x.T, *y.T, *values)
         table = np.empty((len(flat), count))
-        for row, col in enumerate(columns):
-            table[row] = np.broadcast_to(np.asarray(col, dtype=float), (count,))
+
+        def rows(begin):
+            end = min(begin + CHUNK, count)
+            with np.errstate(all="ignore"):  # a worker thread does not inherit the caller's
+                columns = fn(*x[begin:end].T, *y[begin:end].T, *values)
+                for row, col in enumerate(columns):
+                    table[row, begin:end] = np.asarray(col, dtype=float)
+
+        starts = range(0, count, CHUNK)
+        if len(starts) > 1:
+            with ThreadPoolExecutor(max_workers=THREADS) as pool:
+                list(pool.map(rows, starts))
+        elif count:
+            rows(0)
         result = {name: table[layout[name].reshape(-1)].T.reshape((count,) + shapes[name]) for name in names}
         return Derivatives(**result)
 
