@@ -140,3 +140,33 @@ def test_threads_change_no_result(monkeypatch):
     np.testing.assert_array_equal(shared.valid, alone.valid)
     np.testing.assert_allclose(shared.raw, alone.raw, rtol=1e-14)
     np.testing.assert_allclose(shared.rel, alone.rel, rtol=1e-7)
+
+
+def test_compiled_code_cache_follows_every_kernel_module(monkeypatch, tmp_path):
+    from costcheck.checks import compiled
+
+    # every module that compiles with compiled.kernel/inline is in the digest that names the
+    # cache folder (numba itself checks only the file a cached function is defined in)
+    here = Path(compiled.__file__).resolve().parent
+    users = {p.name for p in here.glob("*.py") if "from .compiled import" in p.read_text()}
+    assert users | {"compiled.py"} == set(compiled.KERNEL_MODULES)
+
+    try:
+        monkeypatch.setenv("COSTCHECK_NUMBA_CACHE", "0")
+        compiled.cache_directory.cache_clear()
+        assert compiled.cache_directory() is None
+        monkeypatch.setenv("COSTCHECK_NUMBA_CACHE", str(tmp_path))
+        compiled.cache_directory.cache_clear()
+        first = compiled.cache_directory()
+        assert Path(first).parent == tmp_path and Path(first).is_dir()
+        # another text of a kernel module: another folder
+        copy = tmp_path / "copy"
+        copy.mkdir()
+        for name in compiled.KERNEL_MODULES:
+            (copy / name).write_bytes((here / name).read_bytes())
+        (copy / "small3.py").write_text((here / "small3.py").read_text() + "\n# changed\n")
+        monkeypatch.setattr(compiled, "__file__", str(copy / "compiled.py"))
+        compiled.cache_directory.cache_clear()
+        assert compiled.cache_directory() not in (None, first)
+    finally:
+        compiled.cache_directory.cache_clear()

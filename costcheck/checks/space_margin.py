@@ -43,13 +43,11 @@ THREADS = 2
 #: costs about as much as a few hundred pairs
 SHARED_FROM = 1024
 
-#: (i, j) of each packed index, as biquadratic packs G; and how many entries of a symmetric
-#: pair of indices each stands for (for the Frobenius norms over all 81 entries)
-_ROW = np.array([0, 1, 2, 0, 0, 1])
-_COL = np.array([0, 1, 2, 1, 2, 2])
+#: (i, j) of each packed index and the packed index of (k, l), as biquadratic packs G; and how
+#: many entries of a symmetric pair of indices each stands for (for the Frobenius norms over all
+#: 81 entries)
+_ROW, _COL, _UNPACK = biquadratic._ROW, biquadratic._COL, biquadratic._UNPACK
 _WEIGHT = np.array([1.0, 1.0, 1.0, 2.0, 2.0, 2.0])
-#: packed index of entry (k, l) of a symmetric 3 × 3 matrix
-_UNPACK = biquadratic._UNPACK
 
 
 @kernel
