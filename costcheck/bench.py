@@ -318,9 +318,9 @@ def run(size: str = "default", backends=("sympy", "jax"), skip_catalog: bool = F
                           "blocks of 32,768 pairs, two blocks in flight; each program's outputs are "
                           "written and read back. "
                           "Per pair: the derivatives after cse (derivative_operations_per_pair: ~230 "
-                          "for the power cost, ~1,900 for the sphere chart, with acos, square roots "
-                          "and divisions) and ~1,300 flops of the certified quartic grid stage; XLA "
-                          "runs a pure FMA chain at ~2e10 flop/s on these 2 cores, so ~3e3 flops/pair "
+                          "for the power cost, ~1,900 for the sphere chart: almost all multiplications "
+                          "and additions, one acos, ~30 powers, run at ~6e9 flop/s) and ~1,300 flops "
+                          "of the certified quartic grid stage; XLA runs a pure FMA chain at ~2e10 flop/s on these 2 cores, so ~3e3 flops/pair "
                           "bounds the kernel near 7e6 pairs/s; transcendental calls and selects cost "
                           "several flops each",
         "n3_pairs_per_s": "per pair on one core (measured on power-0.5-3d): the compiled Newton "
