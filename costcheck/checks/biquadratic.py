@@ -130,11 +130,6 @@ def scan_plan(directions: int = DEFAULT_DIRECTIONS, separation: float = 0.5):
     return xi, P, LT, near
 
 
-def form_value(G, xi, eta):
-    """``G(ξ, ξ, η, η)`` for ``G (N, 3, 3, 3, 3)`` and ``ξ, η (N, 3)`` (a plain contraction, for checking)."""
-    return numpy.einsum("nijab,ni,nj,na,nb->n", G, xi, xi, eta, eta)
-
-
 def pack(G):
     """``g (N, 36)``: the part of ``G (N, 3, 3, 3, 3)`` symmetric in (i, j) and (a, b), packed
     (row ``p``, column ``q`` of the packed 6 × 6 at ``6 p + q``, pairs in the order of ``_PAIRS``)."""
