@@ -379,7 +379,7 @@ def orthogonal_biquadratic_min(G, *, directions: int = DEFAULT_DIRECTIONS, seeds
     symmetric in ``(i, j)`` and ``(a, b)`` is used).  Every seed gets ``seed_iterations`` Newton
     iterations, the best of them per pair the remaining ``iterations − seed_iterations``.
     ``raw`` is the form at the returned unit, orthogonal ``ξ, η`` (NaN where ``G`` is not
-    finite).  Memory is about ``N · (2 · directions + 80)`` floats: callers chunk large N.
+    finite).  Memory is about ``N · (1.5 · directions + 60)`` doubles besides ``G``: callers chunk large N.
     """
     G = numpy.asarray(G, dtype=float)
     if G.ndim != 5 or tuple(G.shape[1:]) != (3, 3, 3, 3):

@@ -18,8 +18,9 @@ Mech. Anal. 177 (2005) 151–183), for ``n = m = 3``, in the order the numpy rou
 
 The algebra and the minimum are compiled (numba) and release the GIL; blocks of
 :data:`BLOCK` pairs run on :data:`THREADS` threads.  The numpy route (``tensor._prepare``, an
-SVD per pair, batched products) gives the same numbers to rounding; the tests hold the two
-together.
+SVD per pair, batched products) gives the same validity and the same minimum to rounding (the
+minimiser, and the normaliser taken there, to about √ε: the value is flat to second order around
+it); the tests hold the two together.
 """
 
 from __future__ import annotations
