@@ -158,9 +158,10 @@ def _derivative_operations(cost) -> int:
     import sympy as sp
 
     from .checks.fused_margin import FIELDS
-    from .derivatives.sympy_backend import distinct_entries, shared_cse, symbolic_derivatives
+    from .derivatives.composition import composed_derivatives
+    from .derivatives.sympy_backend import distinct_entries, shared_cse
 
-    flat, _ = distinct_entries(symbolic_derivatives(cost.expr, cost.x_symbols, cost.y_symbols, 4), FIELDS)
+    flat, _ = distinct_entries(composed_derivatives(cost.expr, tuple(cost.x_symbols), tuple(cost.y_symbols), 4), FIELDS)
     replacements, reduced = shared_cse(flat)  # the kernel's own elimination (cached)
     return int(sum(sp.count_ops(e) for _, e in replacements) + sum(sp.count_ops(e) for e in reduced))
 
@@ -317,9 +318,9 @@ def run(size: str = "default", backends=("sympy", "jax"), skip_catalog: bool = F
         "n2_pairs_per_s": "the fused kernel's five programs (margin.<cost>.jax.stage_pairs_per_s), on "
                           "blocks of 32,768 pairs, two blocks in flight; each program's outputs are "
                           "written and read back. "
-                          "Per pair: the derivatives after cse (derivative_operations_per_pair: ~230 "
-                          "for the power cost, ~1,900 for the sphere chart: almost all multiplications "
-                          "and additions, one acos, ~30 powers, run at ~6e9 flop/s) and ~1,300 flops "
+                          "Per pair: the derivatives after cse (derivative_operations_per_pair: ~180 "
+                          "for the power cost, ~830 for the sphere chart, both by Faa di Bruno's formula; "
+                          "almost all multiplications and additions) and ~1,300 flops "
                           "of the certified quartic grid stage; XLA runs a pure FMA chain at ~2e10 flop/s on these 2 cores, so ~3e3 flops/pair "
                           "bounds the kernel near 7e6 pairs/s; transcendental calls and selects cost "
                           "several flops each",

@@ -4,8 +4,10 @@ The sympy route evaluates the derivative fields with numpy and then the margin
 (:mod:`costcheck.checks.plane_margin`), each step a pass over memory.  Here the same
 mathematics is traced once into five XLA programs (``jax.jit``):
 
-1. the cost's derivatives up to order 4, from the symbolic derivatives with shared
-   subexpressions (:func:`costcheck.derivatives.jax_backend.sympy_columns_to_jax`), then
+1. the cost's derivatives up to order 4, from the symbolic derivatives (by Faà di Bruno's
+   formula where the cost is a function of one inner expression:
+   :mod:`costcheck.derivatives.composition`) with shared subexpressions
+   (:func:`costcheck.derivatives.jax_backend.sympy_columns_to_jax`), then
    ``M⁻¹`` and ``T`` (:func:`costcheck.checks.plane_margin.prepare`);
 2. the quartic ``S(θ)`` and the grid stage of its certified minimum
    (:func:`costcheck.checks.quartic.bracket`);
@@ -61,11 +63,12 @@ def worthwhile(cost, pairs: int) -> bool:
 
 @lru_cache(maxsize=16)
 def _programs(expr, xs, ys):
+    from ..derivatives.composition import composed_derivatives
     from ..derivatives.jax_backend import _jax, sympy_columns_to_jax
-    from ..derivatives.sympy_backend import distinct_entries, symbolic_derivatives
+    from ..derivatives.sympy_backend import distinct_entries
 
     jax, jnp = _jax()
-    flat, layout = distinct_entries(symbolic_derivatives(expr, xs, ys, 4), FIELDS)
+    flat, layout = distinct_entries(composed_derivatives(expr, xs, ys, 4), FIELDS)
     columns_of = sympy_columns_to_jax(flat, list(xs) + list(ys))
 
     def algebra(z):
