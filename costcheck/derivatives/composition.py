@@ -9,8 +9,9 @@ Faà di Bruno's formula for mixed partial derivatives,
     ∂_{a₁…a_k} F(t) = Σ_{π a partition of {a₁, …, a_k}} F^{(|π|)}(t) · Π_{B ∈ π} ∂_B t
 
 (the sum over set partitions; M. Hardy, "Combinatorics of partial derivatives", Electron. J.
-Combin. 13 (2006) #R1, cited from memory), only ``t``'s derivatives and ``F``'s univariate ones are formed, and the
-same entries take 833 (counted as the fused kernel forms them: the four mixed fields, after cse).  The values are the same derivatives (to rounding); only the
+Combin. 13 (2006) #R1, cited from memory), only ``t``'s derivatives and ``F``'s univariate
+ones are formed, and the same entries take 833 operations (the four mixed fields the fused
+kernel forms, after cse).  The values are the same derivatives (to rounding); only the
 arithmetic that computes them differs.
 """
 
