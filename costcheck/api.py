@@ -1,4 +1,4 @@
-"""The Python API: three ways to get a :class:`~costcheck.cost.Cost`.
+"""The Python API: three ways to get a :class:`~costcheck.model.cost.Cost`.
 
 >>> import costcheck
 >>> cost = costcheck.from_expression("(x - y)**2 / 2", x=["x"], y=["y"],
@@ -15,11 +15,11 @@ from typing import Callable, Mapping, Sequence
 
 import jsonschema
 
-from .cost import Cost
-from .domain import Domain
+from .model.cost import Cost
+from .model.domain import Domain
 from .errors import CostFileError
-from .loader import _region, build_cost, load_cost
-from .schema import SIDE_DOMAIN_SCHEMA
+from .spec.loader import _region, build_cost, load_cost
+from .spec.schema import SIDE_DOMAIN_SCHEMA
 
 
 def load(path: str | Path, **param_overrides: float) -> Cost:
@@ -102,16 +102,16 @@ def from_function(
 
 def check(cost: Cost, *, budget: int | None = None, seed: int | None = None, backend: str = "sympy",
           conditions: Sequence[str] | None = None, prove: bool | dict = False):
-    """Run the condition checks on ``cost``; returns a :class:`~costcheck.checks.runner.CostReport`.
+    """Run the condition checks on ``cost``; returns a :class:`~costcheck.run.runner.CostReport`.
 
     ``prove=True`` (or a dict of :class:`~costcheck.certify.ProofOptions` fields such as
     ``{"seconds": 60}``) also tries to prove each sampled "holds" on the whole domain.
 
-    ``report.verdicts[name]`` is a :class:`~costcheck.verdict.Verdict` (verdict word, evidence,
+    ``report.verdicts[name]`` is a :class:`~costcheck.model.verdict.Verdict` (verdict word, evidence,
     worst value, witness); ``report.mismatches`` lists expectations of a file that were not met.
     """
-    from .checks.runner import DEFAULT_SEED, run_checks
-    from .checks.sampler import DEFAULT_BUDGET
+    from .defaults import DEFAULT_BUDGET, DEFAULT_SEED
+    from .run.runner import run_checks
 
     options = None
     if prove:
@@ -123,6 +123,6 @@ def check(cost: Cost, *, budget: int | None = None, seed: int | None = None, bac
 
 def mtw_tensor(cost: Cost, simplify_seconds: float = 10.0):
     """The MTW tensor ``T_ijkl`` in closed form: a list of components ``(index, sympy expression, simplified)``."""
-    from .symbolic_tensor import mtw_tensor_symbolic
+    from .numerics.curvature.symbolic import mtw_tensor_symbolic
 
     return mtw_tensor_symbolic(cost, simplify_seconds=simplify_seconds)

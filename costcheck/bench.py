@@ -3,7 +3,7 @@
 Every figure is measured in the same run (nothing is copied from earlier runs):
 
 * ``margin``: MTW (A3w) margin throughput in (x, y) pairs per second — derivative evaluation
-  plus :func:`costcheck.checks.tensor.a3w_margin` (the orthogonal-pair minimum) — per cost and
+  plus :func:`costcheck.numerics.curvature.margins.a3w_margin` (the orthogonal-pair minimum) — per cost and
   backend; ``build_s`` (evaluator construction, symbolic differentiation, JAX tracing and
   compilation, first call) is reported separately and excluded from the throughput;
 * ``naive``: the same margin computed the way a user would write it — every derivative entry
@@ -58,7 +58,7 @@ def _log(message: str) -> None:
 
 
 def _pairs(cost, count: int, seed: int = 1):
-    from .checks.sampler import sample_pairs
+    from .numerics.sampling import sample_pairs
 
     s = sample_pairs(cost.domain, cost.n, cost.m, count, seed)
     return s.xs, s.ys
@@ -75,11 +75,12 @@ def measure_margin(cost, backend: str, xs, ys) -> dict:
     """Throughput of one backend's margin path: the best of :data:`REPEATS` runs after one
     untimed warm-up run on the same pairs (``build_s``: the warm-up, compilation included).
 
-    ``jax`` on a symbolic n = 2 cost is the fused kernel (:mod:`costcheck.checks.fused_margin`):
+    ``jax`` on a symbolic n = 2 cost is the fused kernel (:mod:`costcheck.numerics.curvature.n2.fused_margin`):
     derivatives and margin compiled together.  Otherwise the backend's derivative evaluator
-    feeds :func:`costcheck.checks.tensor.a3w_margin` (numpy for n = 2, compiled per pair for n = 3).
+    feeds :func:`costcheck.numerics.curvature.margins.a3w_margin` (numpy for n = 2, compiled per pair for n = 3).
     """
-    from .checks import fused_margin, tensor
+    from .numerics.curvature.n2 import fused_margin
+    from .numerics.curvature import margins as tensor
 
     fused = backend == "jax" and fused_margin.applicable(cost)
     started = time.perf_counter()
@@ -128,7 +129,7 @@ def _fused_stages(cost, xs, ys, repeats: int = 3) -> dict:
     the profile that says where its time goes."""
     import jax
 
-    from .checks import fused_margin
+    from .numerics.curvature.n2 import fused_margin
 
     algebra, grid, polish, choose, finish = fused_margin._programs(cost.expr, tuple(cost.x_symbols),
                                                                    tuple(cost.y_symbols))
@@ -157,7 +158,7 @@ def _derivative_operations(cost) -> int:
     elimination: the work the kernel's first program does per pair before the tensor algebra."""
     import sympy as sp
 
-    from .checks.fused_margin import FIELDS
+    from .numerics.curvature.n2.fused_margin import FIELDS
     from .derivatives.composition import composed_derivatives
     from .derivatives.sympy_backend import distinct_entries, shared_cse
 
@@ -187,7 +188,7 @@ def _naive_directions(n: int):
     if n == 2:
         t = np.arange(NAIVE_GRID) * np.pi / NAIVE_GRID
         return np.stack([np.cos(t), np.sin(t)], axis=1)
-    from .checks.tensor import sphere_directions
+    from .numerics.curvature.margins import sphere_directions
 
     return sphere_directions(n, NAIVE_GRID)
 

@@ -1,6 +1,6 @@
-"""The n = 3 orthogonal-pair minimum (costcheck.checks.biquadratic) against independent references.
+"""The n = 3 orthogonal-pair minimum (costcheck.numerics.curvature.n3.biquadratic) against independent references.
 
-The references use only the older machinery of costcheck.checks.tensor (a dense direction scan
+The references use only the older machinery of costcheck.numerics.curvature.margins (a dense direction scan
 with LAPACK eigenvalues on ξ^⊥, then its own sphere descent), not the code under test.  The
 tolerance 1e-6 · max|G| is the accuracy the A3w verdicts need (common practice for a margin that
 is compared with rounding-level thresholds far below the violations it reports).
@@ -9,9 +9,10 @@ is compared with rounding-level thresholds far below the violations it reports).
 import numpy as np
 import pytest
 
-from costcheck.checks import biquadratic, tensor
-from costcheck.loader import load_cost
-from costcheck.checks.sampler import sample_pairs
+from costcheck.numerics.curvature.n3 import biquadratic
+from costcheck.numerics.curvature import margins as tensor
+from costcheck.spec.loader import load_cost
+from costcheck.numerics.sampling import sample_pairs
 from pathlib import Path
 
 CATALOG = Path(__file__).resolve().parent.parent / "catalog"

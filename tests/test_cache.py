@@ -10,10 +10,10 @@ import textwrap
 import threading
 from pathlib import Path
 
-from costcheck.cache import ResultCache, cache_key
+from costcheck.run.cache import ResultCache, cache_key
 from costcheck.cli import main
-from costcheck.reading import read_cost_data, read_yaml
-from costcheck.verdict import Evidence, Verdict, Witness
+from costcheck.spec.reading import read_cost_data, read_yaml
+from costcheck.model.verdict import Evidence, Verdict, Witness
 from small_costs import line_quadratic
 
 ROOT = Path(__file__).resolve().parent.parent

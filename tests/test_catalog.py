@@ -27,8 +27,8 @@ from pathlib import Path
 import pytest
 
 import costcheck
-from costcheck.loader import find_cost_files, read_yaml
-from costcheck.schema import VERDICT_WORDS
+from costcheck.spec.loader import find_cost_files, read_yaml
+from costcheck.spec.schema import VERDICT_WORDS
 
 CATALOG = Path(__file__).resolve().parent.parent / "catalog"
 SUBFOLDERS = ("euclidean", "sphere", "hyperbolic", "economics", "degenerate")
@@ -110,7 +110,7 @@ def test_published_verdict(relpath, condition):
     # reference table names it; "computed here" / "(from memory)" where the table says so).
     # It is repeated in every assertion message, so a failing case names the published
     # result it disagrees with.
-    from costcheck.checks.runner import run_checks
+    from costcheck.run.runner import run_checks
 
     cost = load(relpath)
     expected = cost.expect[condition]

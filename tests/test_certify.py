@@ -25,9 +25,9 @@ import costcheck
 from costcheck.certify import ProofOptions, balls, identity, proofs, quantities
 from costcheck.certify.arb_eval import BallFunction, Unsupported
 from costcheck.certify.branch_bound import Budget
-from costcheck.checks.runner import run_checks
+from costcheck.run.runner import run_checks
 from costcheck.derivatives.sympy_backend import symbolic_derivatives
-from costcheck.expression import parse_expression
+from costcheck.spec.expression import parse_expression
 from strategies import costs
 
 CATALOG = Path(__file__).resolve().parent.parent / "catalog"
@@ -179,7 +179,7 @@ def test_a_proved_strong_mtw_bound_is_below_every_sampled_margin():
                                      domain={"x": {"box": [[0, 0.1], [0, 0.1]]}, "y": {"box": [[0, 0.1], [0, 0.1]]}})
     outcome, _ = proofs.mtw_strong(cost, Budget(seconds=30, cells=3000))
     assert outcome.proved and outcome.coverage == 1.0
-    from costcheck.checks import tensor
+    from costcheck.numerics.curvature import margins as tensor
     zs = _dense_points(cost, 400, 7)
     d = cost.derivatives(order=4)(zs[:, :2], zs[:, 2:])
     minimum = tensor.a3w_margin(d).raw

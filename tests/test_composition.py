@@ -83,7 +83,7 @@ def _assert_same_derivatives(cost, xs, ys):
                                   "hyperbolic/hyperbolic-dist-sq.yaml", "euclidean/power-0.5.yaml",
                                   "euclidean/neg-log-dist.yaml", "euclidean/power-0.5-3d.yaml"])
 def test_catalog_costs_same_derivatives(name):
-    from costcheck.checks.sampler import sample_pairs
+    from costcheck.numerics.sampling import sample_pairs
 
     cost = costcheck.load(CATALOG / name)
     assert inner_expression(cost.expr, list(cost.x_symbols) + list(cost.y_symbols)) is not None

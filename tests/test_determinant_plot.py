@@ -6,10 +6,10 @@ from pathlib import Path
 
 import numpy as np
 
-from costcheck.checks.runner import run_checks
-from costcheck.loader import load_cost
-from costcheck.plots import write_figures
-from costcheck.plots.determinant import scaled_determinant
+from costcheck.run.runner import run_checks
+from costcheck.spec.loader import load_cost
+from costcheck.render.plots import write_figures
+from costcheck.render.plots.determinant import scaled_determinant
 
 ROOT = Path(__file__).resolve().parent.parent
 

@@ -1,4 +1,4 @@
-"""The safe expression language (costcheck.expression), alone and as a cost file sees it.
+"""The safe expression language (costcheck.spec.expression), alone and as a cost file sees it.
 
 Each rejection kind is checked twice: the parser raises ExpressionError with a
 sentence saying what is wrong, and a cost file carrying the same text is refused
@@ -16,7 +16,7 @@ import sympy as sp
 import yaml
 
 from costcheck.errors import CostFileError, ExpressionError
-from costcheck.expression import (
+from costcheck.spec.expression import (
     CONSTANTS,
     FUNCTIONS,
     MAX_DEPTH,
@@ -26,7 +26,7 @@ from costcheck.expression import (
     parse_inequalities,
     referenced_names,
 )
-from costcheck.loader import load_cost
+from costcheck.spec.loader import load_cost
 
 x1, x2, y1, y2 = (sp.Symbol(n, real=True) for n in ("x1", "x2", "y1", "y2"))
 NAMES = {"x1": x1, "x2": x2, "y1": y1, "y2": y2}

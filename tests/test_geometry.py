@@ -15,11 +15,11 @@ import numpy as np
 import pytest
 
 import costcheck
-from costcheck.checks.context import CheckContext
-from costcheck.checks.runner import run_checks
+from costcheck.conditions.context import CheckContext
+from costcheck.run.runner import run_checks
 from costcheck.errors import UsageError
-from costcheck.geometry.csegment import SOLVED, GradientMap, solve_direct, solve_segments
-from costcheck.verdict import CODES
+from costcheck.numerics.geometry.csegment import SOLVED, GradientMap, solve_direct, solve_segments
+from costcheck.model.verdict import CODES
 
 CATALOG = Path(__file__).resolve().parent.parent / "catalog"
 QUADRATIC = "((x1 - y1)**2 + (x2 - y2)**2) / 2"
@@ -224,5 +224,5 @@ def test_budget_scales_the_work():
     cost = quadratic()
     small = CheckContext(cost=cost, seed=1, budget=256)
     large = CheckContext(cost=cost, seed=1, budget=8192)
-    from costcheck.checks import target_c_convex
+    from costcheck.conditions import target_c_convex
     assert target_c_convex.check(small).evidence.samples < target_c_convex.check(large).evidence.samples

@@ -1,4 +1,4 @@
-"""Cost files: YAML → schema → meaning → Cost (costcheck.loader), and the Python API paths.
+"""Cost files: YAML → schema → meaning → Cost (costcheck.spec.loader), and the Python API paths.
 
 Every rejection is a CostFileError whose text names the file, the field (where the
 problem has one) and what is wrong.
@@ -14,9 +14,9 @@ import sympy as sp
 import yaml
 
 import costcheck
-from costcheck.domain import Ball, Box
+from costcheck.model.domain import Ball, Box
 from costcheck.errors import CostFileError
-from costcheck.loader import find_cost_files, load_cost
+from costcheck.spec.loader import find_cost_files, load_cost
 
 x1, x2, y1, y2 = (sp.Symbol(n, real=True) for n in ("x1", "x2", "y1", "y2"))
 R2 = (x1 - y1) ** 2 + (x2 - y2) ** 2

@@ -20,8 +20,9 @@ from hypothesis import HealthCheck, given, settings
 from hypothesis import strategies as st
 
 import costcheck
-from costcheck.checks import mtw, tensor
-from costcheck.checks.runner import run_checks
+from costcheck.conditions import mtw
+from costcheck.numerics.curvature import margins as tensor
+from costcheck.run.runner import run_checks
 from costcheck.derivatives import Derivatives
 from strategies import cost_expressions
 

@@ -13,11 +13,11 @@ from pathlib import Path
 import numpy as np
 import pytest
 import costcheck
-from costcheck.checks.runner import run_checks
+from costcheck.run.runner import run_checks
 from costcheck.errors import CostFileError
-from costcheck.expression import parse_expression
-from costcheck.nested.analysis import analyse, map_at
-from costcheck.nested.data import SideSpec
+from costcheck.spec.expression import parse_expression
+from costcheck.conditions.nested.analysis import analyse, map_at
+from costcheck.conditions.nested.data import SideSpec
 
 ROOT = Path(__file__).resolve().parent.parent
 UNIT_SQUARE = {"box": [[0, 1], [0, 1]]}
@@ -189,7 +189,7 @@ def test_rotating_half_planes_are_not_nested_and_the_witness_rechecks(tmp_path):
     assert v.evidence.details["first_break_y_prime"] <= yp
     assert result.map_on_source is None and result.summary["map"] is None
     # the pictures mark the witness and say the verdict (drawn through the shared save path)
-    from costcheck.plots.nested import nested_figures
+    from costcheck.render.plots.nested import nested_figures
 
     figures = nested_figures(result, tmp_path / "plots")
     assert [f.kind for f in figures] == ["nested-level-curves", "nested-levels"]
@@ -252,7 +252,7 @@ def test_bad_csv_is_one_line_naming_file_row_and_column(tmp_path):
     ({"target": {"table": "a.csv"}}, "unknown key 'table'"),
 ])
 def test_data_key_meaning_checks(data, needle, tmp_path):
-    from costcheck.loader import build_cost
+    from costcheck.spec.loader import build_cost
 
     spec = {"id": "t", "x": ["x1", "x2"], "y": ["y"], "expr": "x1*y", "domain": {"x": UNIT_SQUARE, "y": {"box": [[0, 1]]}},
             "data": data}
@@ -283,7 +283,7 @@ def test_index_is_found_by_integrating_the_direction_field():
 def test_levels_report_both_ends_where_the_source_has_a_gap():
     # The definition of k± (Chiappori–McCann–Pass 2017): with mass 1/2 below 0.2 and above 0.7,
     # F(k) = 1/2 on [0.2, 0.7), so k-(1/2) = 0.2 and k+(1/2) = 0.7; elsewhere they agree.
-    from costcheck.nested.levels import quantile_interval, sorted_masses
+    from costcheck.conditions.nested.levels import quantile_interval, sorted_masses
 
     values, cum = sorted_masses(np.array([[0.8, 0.1, 0.7, 0.2]] * 2), np.full(4, 0.25))
     k_minus, k_plus = quantile_interval(values, cum, np.array([0.5, 0.6]))

@@ -3,7 +3,7 @@
 from __future__ import annotations
 
 from costcheck.cli import main
-from costcheck.loader import load_cost
+from costcheck.spec.loader import load_cost
 
 
 def test_new_writes_a_template_that_checks_cleanly(tmp_path, capsys):

@@ -8,8 +8,8 @@ from pathlib import Path
 import pytest
 
 import costcheck
-from costcheck.checks.runner import run_checks
-from costcheck.plots import MAKERS, write_figures
+from costcheck.run.runner import run_checks
+from costcheck.render.plots import MAKERS, write_figures
 
 CATALOG = Path(__file__).resolve().parent.parent / "catalog"
 

@@ -11,7 +11,8 @@ from hypothesis import strategies as st
 from hypothesis.extra.numpy import arrays
 
 import costcheck
-from costcheck.checks import plane_margin, quartic, tensor
+from costcheck.numerics.curvature.n2 import plane_margin, quartic
+from costcheck.numerics.curvature import margins as tensor
 
 GRID = np.linspace(0.0, np.pi, 20001)
 
@@ -98,7 +99,7 @@ def test_plane_margin_matches_the_tensor_written_out_on_catalog_costs():
     # the columnwise algebra against the general (N, n, n, n, n) tensor code and a dense angle grid
     for name in ("euclidean/power-0.5.yaml", "sphere/sphere-dist-sq.yaml", "euclidean/power-3.yaml"):
         cost = costcheck.load(f"catalog/{name}")
-        from costcheck.checks.sampler import sample_pairs
+        from costcheck.numerics.sampling import sample_pairs
 
         s = sample_pairs(cost.domain, 2, 2, 300, 5)
         d = cost.derivatives(order=4)(s.xs, s.ys)
@@ -120,7 +121,7 @@ def test_plane_margin_matches_the_tensor_written_out_on_catalog_costs():
 
 @pytest.mark.parametrize("count", [1, 4095, 4096, 4097, 200_000, 3 * (1 << 15), 1_000_001])
 def test_kernel_blocks_cover_the_batch_with_little_padding_and_few_shapes(count):
-    from costcheck.checks import fused_margin as fm
+    from costcheck.numerics.curvature.n2 import fused_margin as fm
 
     spans = fm.blocks(count)
     assert [b for b, _, _ in spans] == list(np.cumsum([0] + [size for _, _, size in spans[:-1]]))
@@ -133,8 +134,8 @@ def test_kernel_blocks_cover_the_batch_with_little_padding_and_few_shapes(count)
 
 def test_fused_kernel_matches_the_numpy_route_and_the_check_uses_it(monkeypatch):
     pytest.importorskip("jax")
-    from costcheck.checks import fused_margin
-    from costcheck.checks.sampler import sample_pairs
+    from costcheck.numerics.curvature.n2 import fused_margin
+    from costcheck.numerics.sampling import sample_pairs
 
     cost = costcheck.load("catalog/sphere/sphere-dist-sq.yaml")
     s = sample_pairs(cost.domain, 2, 2, 700, 3)

@@ -10,8 +10,8 @@ from pathlib import Path
 import jsonschema
 import pytest
 
-from costcheck.reading import find_cost_files, read_yaml
-from costcheck.schema import COST_FILE_SCHEMA, schema_json
+from costcheck.spec.reading import find_cost_files, read_yaml
+from costcheck.spec.schema import COST_FILE_SCHEMA, schema_json
 
 ROOT = Path(__file__).resolve().parent.parent
 SHIPPED = ROOT / "schema" / "cost-file.schema.json"

@@ -1,9 +1,9 @@
-"""The compiled n = 3 margin (costcheck.checks.space_margin) against the numpy route.
+"""The compiled n = 3 margin (costcheck.numerics.curvature.n3.space_margin) against the numpy route.
 
-The numpy route is the older, independent code of costcheck.checks.tensor: an SVD per pair for
+The numpy route is the older, independent code of costcheck.numerics.curvature.margins: an SVD per pair for
 the singularity test, numpy's inverse, and einsum/batched products for T and G (Ma, Trudinger &
 Wang, Arch. Ration. Mech. Anal. 177 (2005) 151–183).  Both feed the same orthogonal-pair minimum
-(costcheck.checks.biquadratic), so these tests hold the compiled algebra to the numpy one.
+(costcheck.numerics.curvature.n3.biquadratic), so these tests hold the compiled algebra to the numpy one.
 """
 
 from pathlib import Path
@@ -13,10 +13,11 @@ import pytest
 from hypothesis import HealthCheck, given, settings
 from hypothesis import strategies as st
 
-from costcheck.checks import biquadratic, space_margin, tensor
-from costcheck.checks.sampler import sample_pairs
+from costcheck.numerics.curvature.n3 import biquadratic, space_margin
+from costcheck.numerics.curvature import margins as tensor
+from costcheck.numerics.sampling import sample_pairs
 from costcheck.derivatives import Derivatives
-from costcheck.loader import load_cost
+from costcheck.spec.loader import load_cost
 
 from strategies import costs, points_in
 
@@ -143,7 +144,7 @@ def test_threads_change_no_result(monkeypatch):
 
 
 def test_compiled_code_cache_follows_every_kernel_module(monkeypatch, tmp_path):
-    from costcheck.checks import compiled
+    from costcheck.numerics.curvature.n3 import compiled
 
     # every module that compiles with compiled.kernel/inline is in the digest that names the
     # cache folder (numba itself checks only the file a cached function is defined in)

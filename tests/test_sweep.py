@@ -202,7 +202,7 @@ def test_a_family_shares_its_derivatives_and_gives_the_same_numbers():
 
     from costcheck.derivatives.mp_backend import _cached, high_precision
     from costcheck.derivatives.sympy_backend import build
-    from costcheck.loader import load_cost
+    from costcheck.spec.loader import load_cost
 
     rng = np.random.default_rng(3)
     xs, ys = rng.uniform(-1, 1, (40, 2)), rng.uniform(-1, 1, (40, 2))

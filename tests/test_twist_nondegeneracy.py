@@ -16,7 +16,7 @@ import pytest
 import sympy as sp
 
 import costcheck
-from costcheck.checks.runner import run_checks
+from costcheck.run.runner import run_checks
 
 B2 = {"x": {"box": [[-1, 1], [-1, 1]]}, "y": {"box": [[-1, 1], [-1, 1]]}}
 X2, Y2 = ["x1", "x2"], ["y1", "y2"]

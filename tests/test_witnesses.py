@@ -27,7 +27,7 @@ import pytest
 import sympy as sp
 
 import costcheck
-from costcheck.checks.runner import run_checks
+from costcheck.run.runner import run_checks
 
 CATALOG = Path(__file__).resolve().parent.parent / "catalog"
 DIGITS = 40
@@ -163,7 +163,7 @@ def test_failing_witness_reevaluated(path, condition):
 
 
 def _check_nested_witness(cost, w):
-    from costcheck.nested.analysis import source_measure, target_distribution
+    from costcheck.conditions.nested.analysis import source_measure, target_distribution
 
     (y_sym,) = cost.y_symbols
     phi = sp.lambdify(list(cost.x_symbols) + [y_sym], -sp.diff(cost.expr, y_sym), modules="numpy")

@@ -15,7 +15,7 @@ from __future__ import annotations
 import dataclasses
 from dataclasses import dataclass
 
-from ..verdict import Evidence, Verdict
+from ..model.verdict import Evidence, Verdict
 from . import identity, proofs
 from .branch_bound import Budget
 from .witnesses import certify_refutation

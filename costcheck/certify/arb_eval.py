@@ -1,6 +1,6 @@
 """Rigorous evaluation of sympy expressions over boxes: our own sympy → ``arb`` compiler.
 
-Every node of the whitelisted expression language (``costcheck.expression``) and of its
+Every node of the whitelisted expression language (``costcheck.spec.expression``) and of its
 derivatives maps to a ball operation that returns an enclosure of the exact value over the
 input balls, or "no enclosure" (a non-finite ball) where the function may be undefined —
 the box then stays undecided.  Numbers enter exactly: integers and rationals as exact

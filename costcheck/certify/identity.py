@@ -16,9 +16,9 @@ import sympy as sp
 
 import numpy as np
 
-from ..checks.tensor import mtw_tensor
+from ..numerics.curvature.margins import mtw_tensor
 from ..errors import UsageError
-from ..symbolic_tensor import mtw_tensor_symbolic, simplify_all_bounded
+from ..numerics.curvature.symbolic import mtw_tensor_symbolic, simplify_all_bounded
 
 
 def tensor_vanishes(cost, seconds: float, derivs=None) -> tuple[bool, str]:

@@ -20,7 +20,7 @@ without an implemented certificate, a domain the sufficient condition does not c
 
 from __future__ import annotations
 
-from ..domain import Ball, Box
+from ..model.domain import Ball, Box
 from flint import arb
 
 from . import balls, quantities

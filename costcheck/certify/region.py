@@ -16,7 +16,7 @@ from fractions import Fraction
 
 import numpy as np
 
-from ..domain import Ball, Box, Domain
+from ..model.domain import Ball, Box, Domain
 from . import balls
 from .arb_eval import compile_exprs
 

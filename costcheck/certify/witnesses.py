@@ -31,7 +31,7 @@ import dataclasses
 import numpy as np
 from flint import arb
 
-from ..verdict import Evidence, Verdict
+from ..model.verdict import Evidence, Verdict
 from . import balls, quantities
 from .enclosures import TENSOR_FIELDS, FieldEnclosures
 from .region import Locator

@@ -16,7 +16,7 @@ import json
 import math
 
 from .. import __version__
-from ..checks.runner import CostReport
+from ..model.verdict import CostReport
 from ..errors import CostFileError
 
 

@@ -8,9 +8,9 @@ from rich.console import Console
 from rich.table import Table
 from rich.text import Text
 
-from ..checks.runner import CostReport
+from ..model.verdict import CostReport
 from ..errors import CostFileError
-from ..verdict import Verdict, Witness
+from ..model.verdict import Verdict, Witness
 
 _GOOD = {"holds", "strong", "weak"}
 _BAD = {"fails"}

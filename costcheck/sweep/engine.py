@@ -26,15 +26,15 @@ def evaluate_point(path: str, params: dict, budget: int, seed: int, conditions: 
     """Check the cost at ``params``; ``{condition: {verdict, code, kind, value, witness, summary}}``.
 
     With ``cache_dir`` the result cache there answers values already checked (the key holds
-    the parameter values, as :func:`costcheck.batch.check_one` normalises them).
+    the parameter values, as :func:`costcheck.run.batch.check_one` normalises them).
     """
-    from ..batch import check_one
-    from ..cache import ResultCache
-    from ..checks.runner import CONDITION_MODULES
+    from ..run.batch import check_one
+    from ..run.cache import ResultCache
+    from ..conditions import REGISTRY
     from ..errors import CostcheckError
-    from ..reading import read_cost_data
+    from ..spec.reading import read_cost_data
 
-    names = list(conditions or CONDITION_MODULES)
+    names = list(conditions or REGISTRY)
     try:
         cache = ResultCache(cache_dir) if cache_dir is not None else None
         options = {"budget": budget, "seed": seed, "backend": "sympy", "conditions": names}
@@ -129,15 +129,15 @@ def run_sweep(path, axes: list[Axis], *, budget: int, seed: int, conditions: Seq
               on_progress: Callable[[int, int], None] | None = None) -> SweepResult:
     """Check every grid point, then (for one axis, or along each line of a grid) bisect verdict changes.
 
-    ``cache``: answer values already checked from the result cache (:mod:`costcheck.cache`).
+    ``cache``: answer values already checked from the result cache (:mod:`costcheck.run.cache`).
     """
     from ..api import load
-    from ..checks.runner import CONDITION_MODULES
+    from ..conditions import REGISTRY
     from .boundaries import find_boundaries
 
     if tolerance <= 0:
         raise SweepSpecError(f"--tolerance must be positive, got {tolerance}")
-    names = list(conditions or CONDITION_MODULES)
+    names = list(conditions or REGISTRY)
     base = load(path)                      # raises CostFileError for a bad file
     for a in axes:
         if a.name not in base.params:
@@ -145,7 +145,7 @@ def run_sweep(path, axes: list[Axis], *, budget: int, seed: int, conditions: Seq
             raise SweepSpecError(f"--vary: the cost has no parameter named {a.name!r} (parameters: {known})")
     started = time.perf_counter()
     points = plan(axes)
-    from ..cache import default_directory
+    from ..run.cache import default_directory
 
     cache_dir = str(default_directory()) if cache else None
     executor = Executor(path, budget, seed, workers=workers, scheduler=scheduler, client=client, cache_dir=cache_dir)

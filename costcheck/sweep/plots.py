@@ -7,8 +7,8 @@ from __future__ import annotations
 
 from pathlib import Path
 
-from ..plots import VERDICT_STYLE as STYLE
-from ..plots import save_figure
+from ..render.plots import VERDICT_STYLE as STYLE
+from ..render.plots import save_figure
 
 
 def _style(verdict):
@@ -22,7 +22,7 @@ def _save(fig, directory: Path, stem: str) -> list[str]:
 def write_plots(result, directory) -> list[str]:
     from matplotlib.patches import Patch
 
-    from ..plots import pyplot
+    from ..render.plots import pyplot
     plt = pyplot()
 
     directory = Path(directory)

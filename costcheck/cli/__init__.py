@@ -1,0 +1,458 @@
+"""The ``costcheck`` command line.
+
+Exit codes, like a linter's: 0 all fine; 1 an expectation written in a cost file
+was not met; 2 bad input or usage (a one-line message naming the file and the
+field; never a traceback).
+"""
+
+from __future__ import annotations
+
+import argparse
+import json
+import sys
+from contextlib import contextmanager
+from pathlib import Path
+from typing import Sequence
+
+from rich.console import Console
+
+from .. import __version__
+from ..errors import EXIT_BAD_INPUT, EXIT_EXPECTATION_FAILED, EXIT_OK, CostcheckError
+
+
+class _Parser(argparse.ArgumentParser):
+    """argparse, but usage errors are one line plus a hint, with exit status 2."""
+
+    def error(self, message: str):  # noqa: D401 - argparse hook
+        sys.stderr.write(f"costcheck: usage error: {message} (try 'costcheck {self.prog.split()[-1]} --help')\n"
+                         if " " in self.prog else f"costcheck: usage error: {message} (try 'costcheck --help')\n")
+        raise SystemExit(EXIT_BAD_INPUT)
+
+
+def _positive_int(text: str) -> int:
+    try:
+        value = int(text)
+    except ValueError:
+        raise argparse.ArgumentTypeError(f"expected a whole number, got {text!r}") from None
+    if value < 1:
+        raise argparse.ArgumentTypeError(f"expected a positive number, got {value}")
+    return value
+
+
+def _positive_float(text: str) -> float:
+    try:
+        value = float(text)
+    except ValueError:
+        raise argparse.ArgumentTypeError(f"expected a number, got {text!r}") from None
+    if not value > 0:
+        raise argparse.ArgumentTypeError(f"expected a positive number, got {text}")
+    return value
+
+
+def _add_check_options(command, conditions, default_seed: int, default_budget: int) -> None:
+    """The options ``check`` and ``report`` share: which files, and how they are checked."""
+    command.add_argument("paths", nargs="+", metavar="PATH")
+    command.add_argument("--seed", type=int, default=default_seed, help=f"random seed (default {default_seed})")
+    command.add_argument("--budget", type=_positive_int, default=default_budget,
+                         help=f"sampled (x, y) pairs per cost; more is slower and more thorough "
+                              f"(default {default_budget})")
+    command.add_argument("--backend", choices=["sympy", "jax"], default="sympy",
+                         help="derivative backend (default sympy; jax compiles slower, runs faster on large budgets)")
+    command.add_argument("--only", action="append", choices=list(conditions), metavar="CONDITION",
+                         help=f"run only this condition (repeatable): {', '.join(conditions)}")
+    command.add_argument("--no-cache", action="store_true",
+                         help="recompute every result; neither read nor write the result cache")
+    command.add_argument("--prove", action="store_true",
+                         help="try to prove sampled 'holds' verdicts on the whole domain (ball arithmetic, branch "
+                              "and bound; MTW identities); a failed attempt reports the coverage reached")
+    command.add_argument("--prove-seconds", type=_positive_float, default=20.0, metavar="S",
+                         help="time for each condition's proof attempt (default 20)")
+    command.add_argument("--prove-cells", type=_positive_int, default=20000, metavar="N",
+                         help="cells (boxes) for each condition's proof attempt (default 20000)")
+
+
+def _build_parser() -> argparse.ArgumentParser:
+    from ..defaults import DEFAULT_BUDGET, DEFAULT_SEED
+    from ..conditions import REGISTRY
+
+    parser = _Parser(prog="costcheck", description="Check transport costs and matching surpluses for twist, "
+                     "non-degeneracy, MTW, cross-curvature and related conditions, with witnesses.")
+    parser.add_argument("--version", action="version", version=f"costcheck {__version__}")
+    sub = parser.add_subparsers(dest="command", metavar="COMMAND", parser_class=_Parser)
+
+    check = sub.add_parser("check", help="check cost files (files or folders, searched recursively)")
+    check.add_argument("--json", action="store_true", help="print one JSON document instead of tables")
+    check.add_argument("--junit", metavar="FILE", default=None,
+                       help="also write JUnit XML to FILE: one test case per cost and condition")
+    check.add_argument("--quiet", action="store_true",
+                       help="print tables only for costs with an unmet expectation, then the summary line")
+    report = sub.add_parser("report", help="write a design-review report (HTML page and Markdown) of cost files")
+    report.add_argument("--out", metavar="DIR", required=True, help="folder for index.html, report.md, figures/")
+    check.add_argument("--plots", metavar="DIR", default=None,
+                       help="also write every picture of each cost (PNG and SVG) into DIR/<cost id>/")
+    for command in (check, report):
+        _add_check_options(command, REGISTRY, DEFAULT_SEED, DEFAULT_BUDGET)
+
+    sub.add_parser("schema", help="print the JSON Schema of cost files (draft 2020-12)")
+    new = sub.add_parser("new", help="write a commented template cost file NAME.yaml to start from")
+    new.add_argument("name", metavar="NAME", help="file to write (.yaml is added if missing); its stem is the id")
+
+    show = sub.add_parser("show", help="show a parsed cost file: expression, domain, derivative sizes")
+    show.add_argument("file", metavar="FILE")
+    show.add_argument("--json", action="store_true")
+
+    tensor = sub.add_parser("tensor", help="print the MTW tensor T_ijkl of a cost in closed form")
+    tensor.add_argument("file", metavar="FILE")
+    tensor.add_argument("--latex", action="store_true", help="print LaTeX instead of plain text")
+    tensor.add_argument("--json", action="store_true")
+    tensor.add_argument("--simplify-seconds", type=float, default=10.0,
+                        help="time allowed for simplification, in total (default 10; 0 skips it)")
+
+    sweep = sub.add_parser("sweep", help="check a cost over a range (or grid) of parameter values and "
+                           "locate where verdicts change")
+    sweep.add_argument("file", metavar="FILE")
+    sweep.add_argument("--vary", action="append", metavar="NAME=SPEC", required=True,
+                       help="NAME=start:stop:count (inclusive) or NAME=v1,v2,...; twice for a grid")
+    sweep.add_argument("--only", action="append", choices=list(REGISTRY), metavar="CONDITION",
+                       help=f"run only this condition (repeatable): {', '.join(REGISTRY)}")
+    sweep.add_argument("--json", action="store_true", help="print one JSON document instead of tables")
+    sweep.add_argument("--seed", type=int, default=DEFAULT_SEED, help=f"random seed (default {DEFAULT_SEED})")
+    sweep.add_argument("--budget", type=_positive_int, default=DEFAULT_BUDGET,
+                       help=f"sampled (x, y) pairs per value (default {DEFAULT_BUDGET})")
+    sweep.add_argument("--workers", type=_positive_int, default=None,
+                       help="local worker processes (default: the number of CPUs; 1 runs in this process)")
+    sweep.add_argument("--scheduler", metavar="ADDRESS", default=None,
+                       help="run on a Dask distributed scheduler at ADDRESS instead of local processes")
+    sweep.add_argument("--tolerance", type=float, default=1e-3,
+                       help="bisect verdict boundaries to this width (default 1e-3)")
+    sweep.add_argument("--no-bisect", action="store_true", help="report grid changes only, no bisection")
+    sweep.add_argument("--plots", metavar="DIR", default=None, help="write PNG and SVG pictures into DIR")
+
+    from ..defaults import DEFAULT_LEVELS
+    nested = sub.add_parser("nested", help="decide nestedness of a model with a one-dimensional target (m = 1) "
+                            "on its data, and build the matching map")
+    nested.add_argument("file", metavar="FILE")
+    nested.add_argument("--source", metavar="CSV", default=None,
+                        help="weighted source points (columns: the x names, optional weight) instead of the file's data")
+    nested.add_argument("--target", metavar="CSV", default=None,
+                        help="weighted target points (columns: the y name, optional weight) instead of the file's data")
+    nested.add_argument("--at", metavar="CSV", default=None, help="evaluate the map T at the points of this CSV")
+    nested.add_argument("--levels", type=_positive_int, default=DEFAULT_LEVELS,
+                        help=f"levels of y on which k(y) is computed (default {DEFAULT_LEVELS})")
+    nested.add_argument("--out", metavar="DIR", default=None,
+                        help="write nested.json, levels.csv (k(y)) and the map as CSV into DIR")
+    nested.add_argument("--json", action="store_true", help="print one JSON document instead of text")
+    nested.add_argument("--plots", metavar="DIR", default=None, help="write PNG and SVG pictures into DIR")
+    sweep.add_argument("--no-cache", action="store_true",
+                       help="recompute every value; neither read nor write the result cache")
+    return parser
+
+
+#: ``check`` options that only choose where results go; every other option reaches the checks
+#: and therefore the cache key (so a new option is part of the key unless listed here)
+OUTPUT_ONLY_OPTIONS = {"command", "paths", "json", "junit", "quiet", "no_cache", "out", "plots"}
+
+
+def _run_options(args) -> dict:
+    """The options handed to ``run_checks``: all of ``check``'s options but the output-only ones."""
+    options = {k: v for k, v in vars(args).items() if k not in OUTPUT_ONLY_OPTIONS}
+    options["conditions"] = options.pop("only")
+    # the proof budget travels as one JSON-able mapping (part of the cache key), or None
+    seconds, cells = options.pop("prove_seconds"), options.pop("prove_cells")
+    options["prove"] = {"seconds": seconds, "cells": cells} if options.pop("prove") else None
+    return options
+
+
+def _checked(args, err: Console, *, full_costs: bool = False, on_report=None):
+    """Find and check ``args.paths`` (through the cache unless ``--no-cache``); ``None`` if no files."""
+    from ..run.batch import check_files
+    from ..run.cache import ResultCache
+    from ..spec.reading import find_cost_files
+
+    files = find_cost_files(args.paths)
+    if not files:
+        _error(f"no cost files (*.yaml, *.yml) under {' '.join(args.paths)}")
+        return None
+
+    @contextmanager
+    def progress(cost_id):
+        if not err.is_terminal:
+            yield None
+            return
+        with err.status(f"checking {cost_id}…", spinner="dots") as status:
+            yield lambda name: status.update(f"checking {cost_id}: {name}…")
+
+    return check_files(files, _run_options(args), cache=None if args.no_cache else ResultCache(),
+                       full_costs=full_costs, progress=progress, on_report=on_report, on_error=_error)
+
+
+def _exit_code(result) -> int:
+    if result.errors:
+        return EXIT_BAD_INPUT
+    if any(r.mismatches for r in result.reports):
+        return EXIT_EXPECTATION_FAILED
+    return EXIT_OK
+
+
+def _cmd_check(args, out: Console, err: Console) -> int:
+    from ..render import terminal
+
+    def show(report):
+        if not args.json and not (args.quiet and not report.mismatches):
+            terminal.render_report(out, report)
+        if args.plots:
+            _write_plots(report, args.plots, err)
+
+    result = _checked(args, err, full_costs=bool(args.plots), on_report=show)
+    if result is None:
+        return EXIT_BAD_INPUT
+    code = _exit_code(result)
+    if args.junit:
+        from ..render.junit import run_to_junit
+        try:
+            Path(args.junit).write_text(run_to_junit(result.reports, result.errors), encoding="utf-8")
+        except OSError as exc:
+            _error(f"{args.junit}: cannot write the JUnit file: {exc.strerror}")
+            code = EXIT_BAD_INPUT
+    if args.json:
+        from ..render import json_out
+        options = {"seed": args.seed, "budget": args.budget, "backend": args.backend, "only": args.only,
+                   "prove": _run_options(args)["prove"]}
+        print(json_out.run_to_json(result.reports, result.errors, options, code))
+    else:
+        terminal.render_summary(out, result.reports, result.errors)
+    if result.cached and err.is_terminal:  # said on the terminal only: the outputs stay identical
+        err.print(f"{result.cached} of {len(result.reports)} result(s) from the cache; --no-cache recomputes",
+                  style="dim", markup=False)
+    return code
+
+
+def _cmd_report(args, out: Console, err: Console) -> int:
+    from ..render.report import write_report
+
+    result = _checked(args, err, full_costs=True)
+    if result is None:
+        return EXIT_BAD_INPUT
+    written = write_report(result.reports, result.errors, args.out, options=_run_options(args))
+    for path in written:
+        out.print(f"wrote {path}", markup=False)
+    return _exit_code(result)
+
+
+def _cmd_schema(args) -> int:
+    from ..spec.schema import schema_json
+
+    sys.stdout.write(schema_json())
+    return EXIT_OK
+
+
+def _cmd_new(args, out: Console) -> int:
+    from ..spec.template import write_template
+
+    path = write_template(args.name)
+    out.print(f"wrote {path}; edit it, then run: costcheck check {path}", markup=False)
+    return EXIT_OK
+
+
+def _write_plots(report, directory: str, err: Console) -> None:
+    """Every maker's pictures of one cost into ``directory/<cost id>/``, listed on stderr."""
+    from ..errors import UsageError
+    from ..render.plots import write_figures
+
+    target = Path(directory) / report.cost.id
+    try:
+        target.mkdir(parents=True, exist_ok=True)
+        figures = write_figures(report, target)
+    except OSError as exc:
+        raise UsageError(f"cannot write pictures into {target}: {exc.strerror or exc} (option --plots)") from None
+    if figures:
+        err.print(f"pictures of {report.cost.id} in {target}: " + ", ".join(f.png.stem for f in figures)
+                  + " (PNG and SVG)", markup=False, highlight=False, soft_wrap=True)
+    else:
+        err.print(f"no pictures for {report.cost.id} (they need n = m = 2 or a recorded configuration)",
+                  markup=False, highlight=False)
+
+
+class _Null:
+    def __enter__(self):
+        return None
+
+    def __exit__(self, *exc):
+        return False
+
+
+def _cmd_show(args, out: Console) -> int:
+    from ..spec.loader import load_cost
+    from ..derivatives.sympy_backend import symbolic_derivatives
+    import sympy as sp
+
+    cost = load_cost(args.file)
+    order = 4 if cost.n == cost.m else 2
+    derivs = symbolic_derivatives(cost.expr, cost.x_symbols, cost.y_symbols, order)
+    sizes = {}
+    for name, entries in derivs.items():
+        flat = sp.flatten(entries) if isinstance(entries, list) else [entries]
+        sizes[name] = {"entries": len(flat), "operations": int(sum(sp.count_ops(e) for e in flat))}
+    domain = {"x": cost.domain.x.to_json(), "y": cost.domain.y.to_json(), **cost.domain.constraint_texts()}
+    info = {
+        "id": cost.id, "file": cost.file, "title": cost.title, "sense": cost.sense,
+        "x": list(cost.x_names), "y": list(cost.y_names),
+        "params": {k: str(v) for k, v in cost.params.items()},
+        "cost_minimised": str(cost.expr),
+        "domain": domain, "derivative_sizes": sizes,
+        "expect": dict(cost.expect), "source": cost.source,
+        "data": None if cost.data is None else {
+            role: side.describe() for role, side in (("source", cost.data.source), ("target", cost.data.target))
+            if side is not None},
+    }
+    if args.json:
+        print(json.dumps(info, indent=2, ensure_ascii=False))
+        return EXIT_OK
+    out.print(f"[bold]{cost.id}[/] — {cost.title}  [dim]({cost.file})[/]")
+    out.print(f"sense: {cost.sense}" + ("  (checked as the cost c = -s)" if cost.sense == "surplus" else ""))
+    out.print(f"x = ({', '.join(cost.x_names)}), y = ({', '.join(cost.y_names)}), n = {cost.n}, m = {cost.m}")
+    if cost.params:
+        out.print("params: " + ", ".join(f"{k} = {v}" for k, v in cost.params.items()), markup=False)
+    out.print(f"cost (minimised): {cost.expr}", markup=False, highlight=False)
+    out.print(f"domain x: {cost.domain.x.describe(cost.x_names)}", markup=False)
+    out.print(f"domain y: {cost.domain.y.describe(cost.y_names)}", markup=False)
+    for key, texts in cost.domain.constraint_texts().items():
+        for t in texts:
+            out.print(f"{key}: {t}", markup=False)
+    out.print("derivatives (entries, sympy operations):")
+    for name, s in sizes.items():
+        out.print(f"  {name:6s} {s['entries']:4d} entries, {s['operations']} operations")
+    for role, text in (info["data"] or {}).items():
+        out.print(f"data {role}: {text}", markup=False)
+    if cost.expect:
+        out.print("expected: " + ", ".join(f"{k}: {v}" for k, v in cost.expect.items()))
+    if cost.source:
+        out.print(f"source: {cost.source}", markup=False)
+    return EXIT_OK
+
+
+def _cmd_tensor(args, out: Console) -> int:
+    from ..spec.loader import load_cost
+    from ..numerics.curvature.symbolic import mtw_tensor_symbolic
+    import sympy as sp
+
+    cost = load_cost(args.file)
+    components = mtw_tensor_symbolic(cost, simplify_seconds=args.simplify_seconds)
+    label = lambda idx: "".join(str(i + 1) for i in idx)  # noqa: E731
+    if args.json:
+        print(json.dumps({
+            "id": cost.id, "file": cost.file,
+            "convention": "T_ijkl = sum_rs c_ij,r c^r,s c_s,kl - c_ij,kl (cost minimised; symmetric in ij and in kl)",
+            "components": [{"index": label(c.index), "expr": str(c.expr), "latex": sp.latex(c.expr),
+                            "simplified": c.simplified} for c in components],
+        }, indent=2, ensure_ascii=False))
+        return EXIT_OK
+    out.print(f"MTW tensor of {cost.id}: T_ijkl = Σ c_ij,r c^r,s c_s,kl − c_ij,kl "
+              f"(symmetric in ij and in kl; indices 1..{cost.n})", markup=False)
+    for c in components:
+        body = sp.latex(c.expr) if args.latex else str(c.expr)
+        name = f"T_{{{label(c.index)}}}" if args.latex else f"T_{label(c.index)}"
+        note = "" if c.simplified else "   (not simplified within the time limit)"
+        out.print(f"{name} = {body}{note}", markup=False, highlight=False, soft_wrap=True)
+    return EXIT_OK
+
+
+def _cmd_sweep(args, out: Console, err: Console) -> int:
+    from ..spec.loader import load_cost
+    from ..sweep import report
+    from ..sweep.engine import run_sweep
+    from ..sweep.grid import SweepSpecError, parse_axes
+
+    try:
+        cost = load_cost(args.file)
+        axes = parse_axes(args.vary, dict(cost.params))
+        if not args.tolerance > 0:
+            raise SweepSpecError(f"--tolerance must be positive, got {args.tolerance}")
+    except CostcheckError as exc:
+        _error(exc)
+        return EXIT_BAD_INPUT
+    total = 1
+    for a in axes:
+        total *= len(a.values)
+    progress = None
+    if err.is_terminal and total > 4:
+        from rich.progress import Progress
+        progress = Progress(console=err, transient=True)
+    task = None
+    with progress if progress is not None else _Null():
+        if progress is not None:
+            task = progress.add_task("sweeping", total=total)
+
+        def on_progress(done, _total, _p=progress, _t=task):
+            if _p is not None:
+                _p.update(_t, completed=done)
+                if done >= _total:
+                    _p.update(_t, description="bisecting boundaries")
+        result = run_sweep(args.file, axes, budget=args.budget, seed=args.seed, conditions=args.only,
+                           workers=args.workers, scheduler=args.scheduler, tolerance=args.tolerance,
+                           bisect=not args.no_bisect, cache=not args.no_cache, on_progress=on_progress)
+    if args.plots:
+        from ..sweep.plots import write_plots
+        files = write_plots(result, args.plots)
+        if not args.json:
+            err.print(f"wrote {len(files)} pictures into {args.plots}", markup=False)
+    if args.json:
+        print(report.to_json(result, EXIT_OK))
+    else:
+        report.render(out, result)
+    return EXIT_OK
+
+
+def _cmd_nested(args, out: Console) -> int:
+    from . import nested as command
+
+    document, result, _ = command.run(args)
+    if args.json:
+        print(json.dumps(document, indent=2, ensure_ascii=False))
+    else:
+        command.render(out, document, result)
+    return document["exit_code"]
+
+
+def _error(problem) -> None:
+    """One line on stderr (never wrapped, never a traceback)."""
+    text = " ".join(str(problem).split())
+    sys.stderr.write(f"costcheck: error: {text}\n")
+    sys.stderr.flush()
+
+
+def main(argv: Sequence[str] | None = None) -> int:
+    # tables are wider than 80 columns; outside a terminal (CI logs, pipes) use a fixed width
+    out = Console(highlight=False, width=None if sys.stdout.isatty() else 150)
+    err = Console(stderr=True, highlight=False)
+    parser = _build_parser()
+    args = parser.parse_args(argv)
+    if args.command is None:
+        parser.print_help()
+        return EXIT_BAD_INPUT
+    try:
+        if args.command == "check":
+            return _cmd_check(args, out, err)
+        if args.command == "show":
+            return _cmd_show(args, out)
+        if args.command == "tensor":
+            return _cmd_tensor(args, out)
+        if args.command == "sweep":
+            return _cmd_sweep(args, out, err)
+        if args.command == "nested":
+            return _cmd_nested(args, out)
+        if args.command == "report":
+            return _cmd_report(args, out, err)
+        if args.command == "schema":
+            return _cmd_schema(args)
+        if args.command == "new":
+            return _cmd_new(args, out)
+    except CostcheckError as exc:
+        _error(exc)
+        return EXIT_BAD_INPUT
+    except KeyboardInterrupt:
+        _error("interrupted")
+        return 130
+    parser.error(f"unknown command {args.command!r}")
+    return EXIT_BAD_INPUT
+

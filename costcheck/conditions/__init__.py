@@ -1,0 +1,21 @@
+"""The conditions: one module per condition, each exposing ``CONDITION`` and ``check(ctx)``.
+
+Each module's docstring states its condition, the paper it comes from, the sign convention it
+uses and how its verdict is reached.  :mod:`.context` is what every check reads (the sample,
+the derivatives there, evaluators for refinement and high precision); :mod:`.engines` holds
+the search steps two conditions share.  This module imports nothing: the cached path reads
+:data:`REGISTRY` without loading any numerics.
+"""
+
+#: condition name → its module under :mod:`costcheck.conditions`, in the order reports show them
+REGISTRY: dict[str, str] = {
+    "nondegenerate": "nondegenerate",
+    "twist": "twist",
+    "mtw": "mtw",
+    "nncc": "nncc",
+    "target_c_convex": "target_c_convex",
+    "source_c_convex": "source_c_convex",
+    "loeper": "loeper",
+    "index_form": "index_form",
+    "nested": "nested",
+}

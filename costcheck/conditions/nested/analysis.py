@@ -1,0 +1,115 @@
+"""One call from a cost and its two distributions to the nestedness verdict, the levels and the map."""
+
+from __future__ import annotations
+
+import time
+from dataclasses import dataclass, field
+
+import numpy as np
+
+from ...errors import CostFileError
+from ...model.verdict import Verdict, not_applicable
+from . import data as data_mod
+from .decide import CONDITION, find_crossings, nested_verdict
+from .levels import Levels, compute_levels
+from .map import LevelTable, evaluate_map, level_table, mean_surplus, pushforward_distance
+
+from ...defaults import DEFAULT_LEVELS  # noqa: F401 - the default lives in a light module
+
+
+@dataclass
+class NestedResult:
+    cost: object
+    verdict: Verdict
+    source: data_mod.Measure | None = None
+    target: data_mod.Distribution1D | None = None
+    levels: Levels | None = None
+    table: LevelTable | None = None
+    map_on_source: np.ndarray | None = None
+    summary: dict = field(default_factory=dict)
+    seconds: dict = field(default_factory=dict)
+
+
+def source_measure(cost, side: data_mod.SideSpec) -> data_mod.Measure:
+    if side.kind == "points":
+        return data_mod.points_measure(side, cost.x_names, cost.domain.contains_x)
+    return data_mod.density_measure(side, cost.x_symbols, cost.domain.x, cost.domain.contains_x, cost.file)
+
+
+def target_distribution(cost, side: data_mod.SideSpec) -> data_mod.Distribution1D:
+    return data_mod.target_distribution(side, cost.y_names[0], cost.y_symbols[0], cost.domain.y,
+                                        cost.domain.contains_y, cost.file)
+
+
+def sides_of(cost, source: data_mod.SideSpec | None = None, target: data_mod.SideSpec | None = None):
+    """The two sides to use: command-line ones first, then the file's ``data:``."""
+    spec = cost.data or data_mod.DataSpec()
+    return source or spec.source, target or spec.target
+
+
+def applicable(cost, source, target) -> str | None:
+    """Why nestedness cannot be decided here, or None."""
+    if cost.m != 1:
+        return f"nestedness is defined here for a one-dimensional target (m = 1); this cost has m = {cost.m}"
+    missing = [name for name, side in (("source", source), ("target", target)) if side is None]
+    if missing:
+        return (f"nestedness depends on the two distributions, and the {' and '.join(missing)} "
+                f"{'is' if len(missing) == 1 else 'are'} not given (a 'data:' key in the cost file, or --source / "
+                "--target CSV files)")
+    return None
+
+
+def analyse(cost, source_side=None, target_side=None, *, levels: int = DEFAULT_LEVELS, with_map: bool = True,
+            evaluator=None) -> NestedResult:
+    source_side, target_side = sides_of(cost, source_side, target_side)
+    reason = applicable(cost, source_side, target_side)
+    if reason:
+        return NestedResult(cost, not_applicable(CONDITION, reason))
+    started = time.perf_counter()
+    seconds = {}
+    source = source_measure(cost, source_side)
+    target = target_distribution(cost, target_side)
+    seconds["read_data"] = time.perf_counter() - started
+    evaluator = evaluator or cost.derivatives(backend="sympy", order=2)
+    t0 = time.perf_counter()
+    lv = compute_levels(evaluator, cost.domain, source, target, levels)
+    seconds["levels"] = time.perf_counter() - t0
+    t0 = time.perf_counter()
+    crossings = find_crossings(lv)
+    verdict = nested_verdict(cost, lv, crossings, source.points, source.weights, source.description,
+                             target.description)
+    seconds["decide"] = time.perf_counter() - t0
+    result = NestedResult(cost, verdict, source, target, lv, seconds=seconds)
+    summary = {"source": source.description, "target": target.description, "source_points": source.count,
+               "levels": int(lv.ys.shape[0]), "target_support": list(target.support),
+               "k_range": [float(np.nanmin(lv.k)), float(np.nanmax(lv.k))],
+               "convention": "s = -c (surplus maximised); X≤(y, k) = {x : ∂s/∂y(x, y) ≤ k}; "
+                             "μ(X≤(y, k(y))) = ν((-∞, y]) (Chiappori–McCann–Pass 2017)"}
+    if with_map and verdict.verdict == "holds":
+        t0 = time.perf_counter()
+        table = level_table(evaluator, cost.domain, lv, source, target)
+        T, clamped = evaluate_map(evaluator, cost.domain, table, source.points)
+        result.table, result.map_on_source = table, T
+        summary["map"] = {
+            "pushforward_kolmogorov_distance": pushforward_distance(T, source.weights, target),
+            "mean_surplus": mean_surplus(evaluator, cost.domain, source.points, source.weights, T),
+            "T_range": [float(np.min(T)), float(np.max(T))],
+            "clamped_points": clamped,
+            "meaning": "T(x) = inf{y : ∂s/∂y(x, y) ≤ k(y)}; the Kolmogorov distance between T#μ and ν and the mean "
+                       "surplus ∫ s(x, T(x)) dμ are checks of the constructed map",
+        }
+        seconds["map"] = time.perf_counter() - t0
+    elif with_map:
+        summary["map"] = None
+        summary["map_note"] = "no map: the model is not shown nested on the data, so the level sets do not define one"
+    seconds["total"] = time.perf_counter() - started
+    result.summary = summary
+    return result
+
+
+def map_at(result: NestedResult, points: np.ndarray, evaluator=None) -> tuple[np.ndarray, int]:
+    if result.table is None:
+        raise CostFileError("the map T is defined only for a nested model; this one is not shown nested")
+    cost = result.cost
+    evaluator = evaluator or cost.derivatives(backend="sympy", order=2)
+    return evaluate_map(evaluator, cost.domain, result.table, points)

@@ -1,0 +1,329 @@
+"""The two distributions of a matching model: what a cost file's ``data:`` key (or the command line) gives.
+
+A side is either a **density** — an expression in that side's coordinate names, parsed only
+through :mod:`costcheck.spec.expression` and integrated by a midpoint rule on the side's declared
+domain — or **weighted points**, a CSV file whose header names the side's coordinates plus an
+optional ``weight`` column (path relative to the cost file).  Both become a :class:`Measure`:
+points with normalised weights, plus what is needed to say how accurate sums over it are
+(the effective sample size for points, the cell size for quadrature nodes).
+
+Nothing in a data file is executed: CSV cells are read with :mod:`csv` and converted with
+``float`` one by one, and every bad cell is reported with the file, row and column.
+"""
+
+from __future__ import annotations
+
+import csv
+from dataclasses import dataclass
+from pathlib import Path
+from typing import Mapping, Sequence
+
+import numpy as np
+import sympy as sp
+
+from ...errors import CostFileError
+from ...spec.expression import parse_expression
+
+#: quadrature nodes for a source density (split evenly over the axes)
+QUADRATURE_NODES = 40_000
+#: nodes of the cumulative integral of a one-dimensional target density
+TARGET_NODES = 4097
+#: a one-dimensional source needs no more than this (the midpoint rule's error is one cell's mass)
+MAX_NODES_PER_AXIS = 4096
+MAX_CSV_BYTES = 64 * 1024 * 1024
+MAX_CSV_ROWS = 2_000_000
+WEIGHT_COLUMN = "weight"
+
+
+@dataclass(frozen=True)
+class SideSpec:
+    """One side's distribution as written: a density expression or a CSV path."""
+
+    role: str  # "source" or "target"
+    kind: str  # "density" or "points"
+    density: sp.Expr | None = None
+    path: Path | None = None
+    written: str = ""
+    #: where it came from, for error messages: the cost file's field or the command-line option
+    origin: str = ""
+
+    def describe(self) -> str:
+        return f"density {self.written}" if self.kind == "density" else f"weighted points from {self.path}"
+
+
+@dataclass(frozen=True)
+class DataSpec:
+    source: SideSpec | None = None
+    target: SideSpec | None = None
+    notes: str = ""
+
+
+@dataclass(frozen=True)
+class Measure:
+    """A finite measure as weighted points: ``points`` (N, d), ``weights`` (N,) summing to 1."""
+
+    points: np.ndarray
+    weights: np.ndarray
+    kind: str  # "points" or "quadrature"
+    description: str
+    #: quadrature: the cell widths per axis; points: None
+    cell: np.ndarray | None = None
+
+    @property
+    def count(self) -> int:
+        return int(self.points.shape[0])
+
+    @property
+    def effective_size(self) -> float:
+        """Kish's effective sample size ``(Σw)² / Σw²`` (N for equal weights)."""
+        return float(1.0 / np.sum(self.weights**2))
+
+
+# --------------------------------------------------------------------------- reading the spec
+
+
+def parse_data_spec(raw: Mapping, x_symbols: Sequence[sp.Symbol], y_symbols: Sequence[sp.Symbol],
+                    constants: Mapping[str, sp.Expr], file: str | None) -> DataSpec:
+    """Meaning checks of a cost file's ``data:`` mapping (its shape was checked by the schema)."""
+    sides = {}
+    for role, symbols in (("source", x_symbols), ("target", y_symbols)):
+        if role not in raw:
+            continue
+        entry = raw[role]
+        field = f"data.{role}"
+        if "density" in entry:
+            sides[role] = density_side(role, entry["density"], symbols, constants, file, f"{field}.density")
+        else:
+            base = Path(file).parent if file else Path.cwd()
+            names = [str(v) for v in symbols]
+            sides[role] = points_side(role, base / entry["points"], file, f"{field}.points", names)
+    return DataSpec(sides.get("source"), sides.get("target"), str(raw.get("notes", "")))
+
+
+def density_side(role: str, text, symbols: Sequence[sp.Symbol], constants: Mapping[str, sp.Expr],
+                 file: str | None, field: str) -> SideSpec:
+    names = {**dict(constants), **{str(s): s for s in symbols}}
+    try:
+        expr = parse_expression(text, names)
+    except CostFileError as exc:
+        raise exc.located(file=file, field_prefix=field) from None
+    stray = expr.free_symbols - set(symbols)
+    if stray:
+        raise CostFileError(f"the {role} density may use only the {role}'s coordinates "
+                            f"({', '.join(map(str, symbols))}); it mentions {sorted(map(str, stray))}",
+                            file=file, field=field)
+    return SideSpec(role, "density", density=expr, written=str(text), origin=field)
+
+
+def points_side(role: str, path: Path, file: str | None, field: str, names: Sequence[str] | None = None) -> SideSpec:
+    """A CSV side; its header is checked now (cheap), its rows when the points are needed."""
+    if not path.is_file():
+        raise CostFileError(f"no such CSV file: {path}", file=file, field=field)
+    if names is not None:
+        try:
+            with path.open(newline="", encoding="utf-8") as handle:
+                header = next(csv.reader(handle), [])
+        except (UnicodeDecodeError, csv.Error) as exc:
+            raise CostFileError(f"unreadable CSV ({exc})", file=str(path)) from None
+        _check_header([h.strip() for h in header], names, str(path))
+    return SideSpec(role, "points", path=path, written=str(path), origin=field)
+
+
+def _check_header(header: list[str], names: Sequence[str], label: str) -> None:
+    if not header:
+        raise CostFileError("the CSV file is empty; its first line must name the columns "
+                            f"({', '.join(names)} and optionally {WEIGHT_COLUMN})", file=label)
+    allowed = list(names) + [WEIGHT_COLUMN]
+    for col in header:
+        if col not in allowed:
+            raise CostFileError(f"row 1: unknown column '{col}'; the columns must be {', '.join(names)} and "
+                                f"optionally {WEIGHT_COLUMN}", file=label)
+    if len(set(header)) != len(header):
+        raise CostFileError("row 1: a column is named twice", file=label)
+    missing = [n for n in names if n not in header]
+    if missing:
+        raise CostFileError(f"row 1: the column '{missing[0]}' is missing (columns needed: {', '.join(names)})",
+                            file=label)
+
+
+# --------------------------------------------------------------------------- measures
+
+
+def read_points(path: Path, names: Sequence[str]) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
+    """Coordinates, raw weights and CSV row numbers from a file whose header is ``names`` plus optional ``weight``."""
+    label = str(path)
+    try:
+        size = path.stat().st_size
+    except OSError as exc:
+        raise CostFileError(f"cannot read: {exc.strerror or exc}", file=label) from None
+    if size > MAX_CSV_BYTES:
+        raise CostFileError(f"the file is {size} bytes; data files are limited to {MAX_CSV_BYTES}", file=label)
+    try:
+        with path.open(newline="", encoding="utf-8") as handle:
+            rows = list(csv.reader(handle))
+    except UnicodeDecodeError:
+        raise CostFileError("not UTF-8 text", file=label) from None
+    except csv.Error as exc:
+        raise CostFileError(f"unreadable CSV ({exc})", file=label) from None
+    header = [h.strip() for h in rows[0]] if rows else []
+    _check_header(header, names, label)
+    body = rows[1:]
+    if len(body) > MAX_CSV_ROWS:
+        raise CostFileError(f"{len(body)} data rows; at most {MAX_CSV_ROWS} are read", file=label)
+    order = [header.index(n) for n in names]
+    wcol = header.index(WEIGHT_COLUMN) if WEIGHT_COLUMN in header else None
+    coords = np.empty((len(body), len(names)))
+    weights = np.ones(len(body))
+    line = np.zeros(len(body), dtype=int)
+    kept = 0
+    for r, row in enumerate(body, start=2):
+        if not row or all(not cell.strip() for cell in row):
+            continue  # blank lines are allowed
+        if len(row) != len(header):
+            raise CostFileError(f"row {r}: {len(row)} cells, but the header has {len(header)}", file=label)
+        for k, c in enumerate(order):
+            coords[kept, k] = _number(row[c], label, r, header[c])
+        if wcol is not None:
+            w = _number(row[wcol], label, r, WEIGHT_COLUMN)
+            if w < 0:
+                raise CostFileError(f"row {r}, column '{WEIGHT_COLUMN}': negative weight {w:g}", file=label)
+            weights[kept] = w
+        line[kept] = r
+        kept += 1
+    if kept == 0:
+        raise CostFileError("no data rows after the header", file=label)
+    coords, weights = coords[:kept], weights[:kept]
+    if not weights.sum() > 0:
+        raise CostFileError(f"the weights sum to zero (column '{WEIGHT_COLUMN}')", file=label)
+    return coords, weights, line[:kept]
+
+
+def _number(cell: str, label: str, row: int, column: str) -> float:
+    try:
+        value = float(cell)
+    except ValueError:
+        raise CostFileError(f"row {row}, column '{column}': {cell.strip()!r} is not a number", file=label) from None
+    if not np.isfinite(value):
+        raise CostFileError(f"row {row}, column '{column}': {cell.strip()!r} is not a finite number", file=label)
+    return value
+
+
+def points_measure(side: SideSpec, names: Sequence[str], contains) -> Measure:
+    coords, weights, line = read_points(side.path, names)
+    inside = contains(coords)
+    if not inside.all():
+        r = int(np.flatnonzero(~inside)[0])
+        raise CostFileError(f"row {line[r]}: the point ({', '.join(f'{n}={v:g}' for n, v in zip(names, coords[r]))}) "
+                            f"lies outside the {side.role}'s domain declared in the cost file; widen the domain or "
+                            "drop the row", file=str(side.path))
+    return Measure(coords, weights / weights.sum(), "points",
+                   f"{coords.shape[0]} weighted points from {side.path}")
+
+
+def _density_values(side: SideSpec, symbols: Sequence[sp.Symbol], nodes: np.ndarray, file: str | None) -> np.ndarray:
+    # lambdify on a tree we built ourselves, with dummified names (see DEVELOPERS.md)
+    fn = sp.lambdify(list(symbols), side.density, modules="numpy", dummify=True)
+    with np.errstate(all="ignore"):
+        values = np.broadcast_to(np.asarray(fn(*nodes.T), dtype=float), nodes.shape[:1]).copy()
+    bad = ~np.isfinite(values) | (values < 0)
+    if bad.any():
+        i = int(np.flatnonzero(bad)[0])
+        at = ", ".join(f"{s}={v:.6g}" for s, v in zip(symbols, nodes[i]))
+        what = "not a finite number" if not np.isfinite(values[i]) else f"negative ({values[i]:.3g})"
+        raise CostFileError(f"the {side.role} density is {what} at ({at}) in the {side.role}'s domain; a density "
+                            "must be finite and ≥ 0 there", file=file, field=side.origin or None)
+    return values
+
+
+def density_measure(side: SideSpec, symbols: Sequence[sp.Symbol], region, contains, file: str | None,
+                    nodes_total: int = QUADRATURE_NODES) -> Measure:
+    """Midpoint-rule nodes on the region's bounding box, weighted by the density, masked by the domain."""
+    lo, hi = region.bounds()
+    dim = lo.shape[0]
+    per_axis = int(np.clip(round(nodes_total ** (1.0 / dim)), 8, MAX_NODES_PER_AXIS))
+    cell = (hi - lo) / per_axis
+    axes = [lo[k] + (np.arange(per_axis) + 0.5) * cell[k] for k in range(dim)]
+    nodes = np.stack([g.ravel() for g in np.meshgrid(*axes, indexing="ij")], axis=1)
+    nodes = nodes[contains(nodes)]
+    if nodes.shape[0] == 0:
+        raise CostFileError(f"no quadrature node lies in the {side.role}'s domain", file=file,
+                            field=side.origin or None)
+    values = _density_values(side, symbols, nodes, file)
+    mass = values * float(np.prod(cell))
+    keep = mass > 0
+    if not keep.any():
+        raise CostFileError(f"the {side.role} density integrates to zero on its domain", file=file,
+                            field=side.origin or None)
+    nodes, mass = nodes[keep], mass[keep]
+    return Measure(nodes, mass / mass.sum(), "quadrature",
+                   f"density {side.written} by a {per_axis}^{dim}-node midpoint rule ({nodes.shape[0]} nodes with "
+                   "positive mass)", cell=cell)
+
+
+@dataclass(frozen=True)
+class Distribution1D:
+    """A one-dimensional target: its CDF ``G`` and quantile function on the target interval."""
+
+    lower: float
+    upper: float
+    #: support points (sorted) and the CDF just after each; for a density, a fine grid
+    knots: np.ndarray
+    cdf: np.ndarray
+    kind: str  # "points" or "density"
+    description: str
+    size: int  # points, or grid nodes for a density
+
+    def G(self, y: np.ndarray) -> np.ndarray:
+        """``ν((-∞, y])``."""
+        y = np.asarray(y, float)
+        if self.kind == "points":
+            idx = np.searchsorted(self.knots, y, side="right")
+            return np.where(idx > 0, self.cdf[np.maximum(idx - 1, 0)], 0.0)
+        return np.interp(y, self.knots, self.cdf, left=0.0, right=1.0)
+
+    def quantile(self, t: np.ndarray) -> np.ndarray:
+        """The smallest ``y`` with ``G(y) ≥ t``."""
+        t = np.asarray(t, float)
+        idx = np.clip(np.searchsorted(self.cdf, t - 1e-12, side="left"), 0, self.knots.shape[0] - 1)
+        if self.kind == "points":
+            return self.knots[idx]
+        # linear between knots of the cumulative integral
+        j = np.maximum(idx, 1)
+        c0, c1 = self.cdf[j - 1], self.cdf[j]
+        with np.errstate(all="ignore"):
+            frac = np.where(c1 > c0, (t - c0) / (c1 - c0), 1.0)
+        return np.where(idx == 0, self.knots[0], self.knots[j - 1] + np.clip(frac, 0, 1) * (self.knots[j] - self.knots[j - 1]))
+
+    @property
+    def support(self) -> tuple[float, float]:
+        positive = np.flatnonzero(np.diff(np.concatenate([[0.0], self.cdf])) > 0)
+        if self.kind == "points":
+            return float(self.knots[positive[0]]), float(self.knots[positive[-1]])
+        return float(self.knots[max(positive[0] - 1, 0)]), float(self.knots[positive[-1]])
+
+
+def target_distribution(side: SideSpec, name: str, symbol: sp.Symbol, region, contains, file: str | None) -> Distribution1D:
+    lo, hi = (float(v[0]) for v in region.bounds())
+    if side.kind == "points":
+        measure = points_measure(side, [name], contains)
+        y = measure.points[:, 0]
+        order = np.argsort(y, kind="stable")
+        ys, ws = y[order], measure.weights[order]
+        knots, start = np.unique(ys, return_index=True)
+        cdf = np.cumsum(np.add.reduceat(ws, start))
+        cdf[-1] = 1.0
+        return Distribution1D(lo, hi, knots, cdf, "points", measure.description, measure.count)
+    knots = np.linspace(lo, hi, TARGET_NODES)
+    mids = 0.5 * (knots[1:] + knots[:-1])
+    inside = contains(mids[:, None])
+    values = np.zeros_like(mids)
+    if inside.any():
+        values[inside] = _density_values(side, [symbol], mids[inside][:, None], file)
+    mass = values * np.diff(knots)
+    if not mass.sum() > 0:
+        raise CostFileError(f"the target density integrates to zero on {name} ∈ [{lo:g}, {hi:g}]", file=file,
+                            field=side.origin or None)
+    cdf = np.concatenate([[0.0], np.cumsum(mass) / mass.sum()])
+    cdf[-1] = 1.0
+    return Distribution1D(lo, hi, knots, cdf, "density", f"density {side.written} on {name} ∈ [{lo:g}, {hi:g}]",
+                          TARGET_NODES)

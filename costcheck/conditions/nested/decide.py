@@ -1,0 +1,137 @@
+"""Decide nestedness from the levels, with a witness where the level curves cross.
+
+For every source point ``x_i`` and grid level ``y_j``: *inside* when
+``∂s/∂y(x_i, y_j) ≤ k_lo(y_j)`` (in ``X≤(y_j, k+(y_j))`` beyond the tolerance) and *outside*
+when ``∂s/∂y(x_i, y_j) ≥ k_hi(y_j)`` (not in ``X<(y_j, k-(y_j))`` beyond the tolerance); see
+:mod:`.levels` for ``k_lo``, ``k_hi``.  Nestedness (Chiappori–McCann–Pass, CPAM 70, 2017)
+forbids a point inside at ``y`` and outside at a later ``y' > y``.  Per point that is one
+comparison — the first level at which it is inside against the levels after it at which it
+is outside — so the whole decision is ``O(K N)`` in numpy.
+
+A crossing is a witness ``(x, y, y')``; the two inequalities are re-evaluated in mpmath at
+50 and 80 digits and must hold beyond their error estimates (evidence ``refuted``).  Where
+nestedness first breaks is the smallest such ``y'``.  What is *not* established: the levels
+``k`` come from the data, so with points as a sample the witness holds at the stated
+confidence of the sampling band; between grid values of ``y`` nothing is checked.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+
+import mpmath
+import numpy as np
+
+from ...numerics import precision as refine
+from ...model.verdict import Evidence, Verdict, Witness, undecided
+from .levels import Levels
+
+CONDITION = "nested"
+CONFIRM_TRIES = 4
+
+VALUE_MEANING = ("largest margin by which a source point lies on the wrong side of two level curves, in units of "
+                 "the spread of ∂s/∂y (0 when no crossing is found; > 0 at a witness)")
+
+
+@dataclass(frozen=True)
+class Crossings:
+    inside: np.ndarray  # (K, N) bool
+    outside: np.ndarray  # (K, N) bool
+    first_in: np.ndarray  # (N,) first level at which the point is inside (K if never)
+    violating: np.ndarray  # (N,) bool
+    first_out_after: np.ndarray  # (N,) first level after first_in at which it is outside
+    raw_crossings: int  # points crossing with the central levels, tolerance ignored
+
+
+def find_crossings(levels: Levels) -> Crossings:
+    phi = levels.phi
+    K, N = phi.shape
+    with np.errstate(invalid="ignore"):
+        inside = phi <= levels.k_lo[:, None]
+        outside = phi >= levels.k_hi[:, None]
+        raw_in = phi <= levels.k[:, None]
+        raw_out = phi > levels.k[:, None]
+    first_in = np.where(inside.any(axis=0), np.argmax(inside, axis=0), K)
+    later = np.arange(K)[:, None] > first_in[None, :]
+    after = outside & later
+    violating = after.any(axis=0)
+    first_out_after = np.where(violating, np.argmax(after, axis=0), K)
+    raw_first = np.where(raw_in.any(axis=0), np.argmax(raw_in, axis=0), K)
+    raw = int(np.sum((raw_out & (np.arange(K)[:, None] > raw_first[None, :])).any(axis=0)))
+    return Crossings(inside, outside, first_in, violating, first_out_after, raw)
+
+
+def _confirm(cost, hp, x, y, yp, k_lo, k_hi):
+    """mpmath: ``∂s/∂y(x, y) ≤ k_lo`` and ``∂s/∂y(x, y') ≥ k_hi`` beyond the error estimates."""
+    def phi_at(yy):
+        return lambda dps: -hp(list(x), [yy], dps)["dy"][0]
+    a, ea = refine.confirm_value(phi_at(y))
+    b, eb = refine.confirm_value(phi_at(yp))
+    ok = (mpmath.isfinite(a) and mpmath.isfinite(b) and mpmath.mpf(k_lo) - a > ea and b - mpmath.mpf(k_hi) > eb)
+    return ok, (a, ea, b, eb)
+
+
+def nested_verdict(cost, levels: Levels, crossings: Crossings, points: np.ndarray, weights: np.ndarray,
+                   source_text: str, target_text: str) -> Verdict:
+    K, N = levels.phi.shape
+    y_name = cost.y_names[0]
+    details = {"levels": K, "source": source_text, "target": target_text, "tolerance": levels.band_rule,
+               "max_band": float(np.max(levels.band)), "undefined_pairs": levels.undefined,
+               "crossings_within_tolerance": crossings.raw_crossings}
+    notes = []
+    if levels.undefined:
+        notes.append(f"∂s/∂y is undefined at {levels.undefined} of {K * N} (point, level) pairs (outside the pairs "
+                     "domain or a singularity); those pairs decide nothing")
+    if not crossings.violating.any():
+        if crossings.raw_crossings:
+            notes.append(f"{crossings.raw_crossings} source points cross between levels only within the sampling "
+                         "tolerance (not counted: they would not survive a finer or larger sample)")
+        summary = (f"nested on the data: no source point is inside X≤(y, k+(y)) and outside X<(y', k-(y')) for any "
+                   f"y < y' among {K} levels of {y_name} ({N} source points or nodes; tolerance: {levels.band_rule}); "
+                   "nothing is checked between the levels: evidence, not proof")
+        return Verdict(CONDITION, "holds", Evidence("sampled", summary, samples=N * K, details=details),
+                       value=0.0, value_meaning=VALUE_MEANING, notes=tuple(notes))
+    viol = np.flatnonzero(crossings.violating)
+    j_break = int(np.min(crossings.first_out_after[viol]))
+    wrong_mass = float(np.sum(weights[viol]))
+    details.update(first_break_y_prime=float(levels.ys[j_break]), wrong_side_mass=wrong_mass,
+                   wrong_side_points=int(viol.size))
+    j_in = crossings.first_in[viol]
+    j_out = crossings.first_out_after[viol]
+    phi = levels.phi
+    margin = np.minimum((levels.k_lo[j_in] - phi[j_in, viol]) / levels.spread[j_in],
+                        (phi[j_out, viol] - levels.k_hi[j_out]) / levels.spread[j_out])
+    at_break = j_out == j_break
+    order = np.lexsort((-margin, ~at_break))  # at the first break first, largest margin first
+    hp, reason = refine.usable_high_precision(cost, 1, points[viol[order[0]]], [levels.ys[0]])
+    for r in order[:CONFIRM_TRIES]:
+        i, a, b = int(viol[r]), int(j_in[r]), int(j_out[r])
+        x = points[i]
+        y, yp = float(levels.ys[a]), float(levels.ys[b])
+        if hp is None:
+            ok, how = bool(margin[r] > 1e-9), f"float64 only ({reason})"
+            err = 1e-15 * float(levels.spread[a])
+            vals = (phi[a, i], err, phi[b, i], err)
+        else:
+            ok, vals = _confirm(cost, hp, x, y, yp, levels.k_lo[a], levels.k_hi[b])
+            how = "mpmath at 50 and 80 digits"
+        if not ok:
+            continue
+        va, ea, vb, eb = vals
+        text = (f"{y_name} = {y:.6g} < {y_name}' = {yp:.6g}: ∂s/∂y(x, {y_name}) = {refine.fmt(va, 10)} ± "
+                f"{refine.fmt(ea, 2)} ≤ k_lo({y_name}) = {levels.k_lo[a]:.10g}, so x ∈ X≤({y_name}, k+); and "
+                f"∂s/∂y(x, {y_name}') = {refine.fmt(vb, 10)} ± {refine.fmt(eb, 2)} ≥ k_hi({y_name}') = "
+                f"{levels.k_hi[b]:.10g}, so x ∉ X<({y_name}', k-) ({how}).  The levels k come from the data with the "
+                f"tolerance {levels.band_rule}; the level curves through x cross.")
+        witness = Witness(x=list(map(float, x)), y=[y], value=float(margin[r]),
+                          error_bound=float(max(ea, eb) / levels.spread[a]), confirmation=text,
+                          vectors={"y_prime": [yp]}, vector_sides={"y_prime": "y"})
+        summary = (f"not nested: the level curves cross; nestedness first breaks at {y_name}' = "
+                   f"{levels.ys[j_break]:.6g} (a source point inside X≤({y_name}, k+) for an earlier {y_name} lies "
+                   f"outside X<({y_name}', k-)); {viol.size} source points, mass {wrong_mass:.3g}, are on the wrong "
+                   "side beyond the tolerance; the witness was confirmed in high precision against the data's levels")
+        return Verdict(CONDITION, "fails", Evidence("refuted", summary, samples=N * K, details=details),
+                       value=float(margin[r]), value_meaning=VALUE_MEANING, witness=witness, notes=tuple(notes))
+    return undecided(CONDITION, f"{viol.size} source points look like crossings of level curves in float64, but none "
+                               "was confirmed in high precision beyond its error estimate", **details)
+

@@ -1,0 +1,233 @@
+"""Verdicts with their evidence: what every condition check returns and every renderer reads.
+
+The evidence vocabulary is the reference's, and the three kinds are never blurred:
+
+- ``proved``: a certificate over the whole declared domain;
+- ``refuted``: a witness re-evaluated in high precision (or exactly), with its error bound;
+- ``sampled``: no witness among N points at a stated resolution — evidence, not proof.
+
+Two more kinds say honestly that no verdict was reached: ``not_applicable`` (the
+condition is not defined for this cost, e.g. MTW when ``n != m``) and
+``undecided`` (the check ran but could not decide, e.g. the cost is undefined
+on every sample).
+
+Each outcome carries a stable diagnostic ``code`` (see :data:`CODES`), so scripts can
+match on it across versions the way linters' users match on rule codes.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass, field
+from typing import TYPE_CHECKING, Mapping, Sequence
+
+if TYPE_CHECKING:  # the cost model imports sympy; a verdict stays light (the cached path)
+    from .cost import Cost
+
+EVIDENCE_KINDS = ("proved", "refuted", "sampled", "not_applicable", "undecided")
+
+#: Stable codes: a letter per condition, a digit per outcome.  Never renumber; only add.
+CODES: dict[tuple[str, str], str] = {
+    ("twist", "holds"): "T100",
+    ("twist", "fails"): "T101",
+    ("twist", "undecided"): "T109",
+    ("nondegenerate", "holds"): "N200",
+    ("nondegenerate", "fails"): "N201",
+    ("nondegenerate", "undecided"): "N209",
+    ("mtw", "strong"): "M300",
+    ("mtw", "weak"): "M301",
+    ("mtw", "fails"): "M302",
+    ("mtw", "not-applicable"): "M308",
+    ("mtw", "undecided"): "M309",
+    ("nncc", "holds"): "K400",
+    ("nncc", "fails"): "K401",
+    ("nncc", "not-applicable"): "K408",
+    ("nncc", "undecided"): "K409",
+    ("target_c_convex", "holds"): "Y600",
+    ("target_c_convex", "fails"): "Y601",
+    ("target_c_convex", "not-applicable"): "Y608",
+    ("target_c_convex", "undecided"): "Y609",
+    ("source_c_convex", "holds"): "X700",
+    ("source_c_convex", "fails"): "X701",
+    ("source_c_convex", "not-applicable"): "X708",
+    ("source_c_convex", "undecided"): "X709",
+    ("loeper", "holds"): "L800",
+    ("loeper", "fails"): "L801",
+    ("loeper", "not-applicable"): "L808",
+    ("loeper", "undecided"): "L809",
+    ("index_form", "holds"): "I900",
+    ("index_form", "fails"): "I901",
+    ("index_form", "not-applicable"): "I908",
+    ("index_form", "undecided"): "I909",
+    ("nested", "holds"): "J950",
+    ("nested", "fails"): "J951",
+    ("nested", "not-applicable"): "J958",
+    ("nested", "undecided"): "J959",
+}
+
+
+def code_for(condition: str, verdict: str) -> str:
+    return CODES.get((condition, verdict), "X999")
+
+
+@dataclass(frozen=True)
+class Evidence:
+    """How a verdict was established, in numbers and in plain words."""
+
+    kind: str
+    summary: str
+    samples: int | None = None
+    resolution: float | None = None
+    details: Mapping = field(default_factory=dict)
+
+    def __post_init__(self):
+        if self.kind not in EVIDENCE_KINDS:
+            raise ValueError(f"unknown evidence kind {self.kind!r}")
+
+    def to_json(self) -> dict:
+        out = {"kind": self.kind, "summary": self.summary}
+        if self.samples is not None:
+            out["samples"] = self.samples
+        if self.resolution is not None:
+            out["resolution"] = self.resolution
+        out.update(dict(self.details))
+        return out
+
+    @classmethod
+    def from_json(cls, data: Mapping) -> "Evidence":
+        """The inverse of :meth:`to_json`: every key besides the four named ones is a detail,
+        carried through untouched (checks and certificates add their own)."""
+        details = {k: v for k, v in data.items() if k not in ("kind", "summary", "samples", "resolution")}
+        return cls(data["kind"], data["summary"], data.get("samples"), data.get("resolution"), details)
+
+
+@dataclass(frozen=True)
+class Witness:
+    """A point a reader can re-check: ``x``, ``y`` and the condition's extra vectors.
+
+    ``vectors`` maps a name (``y_prime``, ``xi``, ``eta``, ``segment_end`` …) to its
+    coordinates; ``value`` is the condition's quantity there and ``error_bound`` a bound
+    on its error from the confirming evaluation described by ``confirmation``.
+    """
+
+    x: Sequence[float]
+    y: Sequence[float]
+    value: float
+    error_bound: float | None = None
+    confirmation: str = ""
+    vectors: Mapping[str, Sequence[float]] = field(default_factory=dict)
+    #: for each entry of ``vectors``, which side's coordinate names label it ("x" or "y")
+    vector_sides: Mapping[str, str] = field(default_factory=dict)
+
+    def to_json(self, x_names: Sequence[str], y_names: Sequence[str]) -> dict:
+        named = lambda names, values: {n: float(v) for n, v in zip(names, values)}  # noqa: E731
+        out = {"x": named(x_names, self.x), "y": named(y_names, self.y)}
+        for name, vec in self.vectors.items():
+            side = self.vector_sides.get(name, "x")
+            out[name] = named(x_names if side == "x" else y_names, vec)
+        out["value"] = float(self.value)
+        out["error_bound"] = None if self.error_bound is None else float(self.error_bound)
+        out["confirmation"] = self.confirmation
+        return out
+
+    @classmethod
+    def from_json(cls, data: Mapping, x_names: Sequence[str], y_names: Sequence[str]) -> "Witness":
+        """The inverse of :meth:`to_json`; a vector's side is the side whose names label it."""
+        def coords(named: Mapping, names: Sequence[str]) -> tuple[float, ...]:
+            if list(named) != list(names):
+                raise ValueError(f"coordinates {list(named)} are not labelled {list(names)}")
+            return tuple(float(named[n]) for n in names)
+
+        fixed = ("x", "y", "value", "error_bound", "confirmation")
+        vectors, sides = {}, {}
+        for name, named in data.items():
+            if name in fixed:
+                continue
+            side = "x" if list(named) == list(x_names) else "y"
+            vectors[name] = coords(named, x_names if side == "x" else y_names)
+            if side == "y":
+                sides[name] = "y"
+        return cls(coords(data["x"], x_names), coords(data["y"], y_names), _number(data["value"]),
+                   _number(data.get("error_bound")), data.get("confirmation", ""), vectors, sides)
+
+
+@dataclass(frozen=True)
+class Verdict:
+    """One condition's outcome for one cost."""
+
+    condition: str
+    verdict: str
+    evidence: Evidence
+    value: float | None = None
+    value_meaning: str = ""
+    witness: Witness | None = None
+    notes: tuple[str, ...] = ()
+
+    @property
+    def code(self) -> str:
+        return code_for(self.condition, self.verdict)
+
+    def to_json(self, x_names: Sequence[str], y_names: Sequence[str]) -> dict:
+        return {
+            "verdict": self.verdict,
+            "code": self.code,
+            "evidence": self.evidence.to_json(),
+            "value": None if self.value is None else float(self.value),
+            "value_meaning": self.value_meaning,
+            "witness": None if self.witness is None else self.witness.to_json(x_names, y_names),
+            "notes": list(self.notes),
+        }
+
+    @classmethod
+    def from_json(cls, condition: str, data: Mapping, x_names: Sequence[str], y_names: Sequence[str]) -> "Verdict":
+        """The inverse of :meth:`to_json` (which does not repeat the condition's name).
+
+        Raises ``KeyError``/``ValueError``/``TypeError`` on a document of the wrong shape,
+        and ``ValueError`` when its stored code disagrees with :data:`CODES`.
+        """
+        witness = data.get("witness")
+        verdict = cls(condition, data["verdict"], Evidence.from_json(data["evidence"]), _number(data.get("value")),
+                      data.get("value_meaning", ""),
+                      None if witness is None else Witness.from_json(witness, x_names, y_names),
+                      tuple(data.get("notes", ())))
+        if "code" in data and data["code"] != verdict.code:
+            raise ValueError(f"stored code {data['code']} is not {verdict.code} for {condition}: {verdict.verdict}")
+        return verdict
+
+
+def _number(value) -> float | None:
+    """A JSON number back as a float (``None`` stays ``None``)."""
+    return None if value is None else float(value)
+
+
+def not_applicable(condition: str, reason: str) -> Verdict:
+    return Verdict(condition, "not-applicable", Evidence("not_applicable", reason))
+
+
+def undecided(condition: str, reason: str, **details) -> Verdict:
+    return Verdict(condition, "undecided", Evidence("undecided", reason, details=details))
+
+@dataclass(frozen=True)
+class Mismatch:
+    condition: str
+    expected: str
+    got: str
+
+
+@dataclass
+class CostReport:
+    #: the cost checked; for a result read from the cache, a :class:`~costcheck.model.header.CostHeader`
+    #: (the file's names, expectations and labels, no expression): renderers read only those
+    cost: Cost
+    verdicts: dict[str, Verdict]
+    seconds: float
+    options: dict = field(default_factory=dict)
+
+    @property
+    def mismatches(self) -> list[Mismatch]:
+        out = []
+        for condition, expected in self.cost.expect.items():
+            verdict = self.verdicts.get(condition)
+            got = verdict.verdict if verdict else "not run"
+            if got != expected:
+                out.append(Mismatch(condition, expected, got))
+        return out
