@@ -18,7 +18,7 @@ import jsonschema
 from .model.cost import Cost
 from .model.domain import Domain
 from .errors import CostFileError
-from .spec.loader import _region, build_cost, load_cost
+from .spec.loader import region, build_cost, load_cost
 from .spec.schema import SIDE_DOMAIN_SCHEMA
 
 
@@ -81,8 +81,8 @@ def from_function(
         if error is not None:
             raise CostFileError(f"{error.message} (expected {{'box': [[low, high], ...]}} or "
                                 f"{{'ball': {{'center': [...], 'radius': r}}}})", field=f"domain.{key}")
-    region_x = _region(domain["x"], n, "x", {}, None)
-    region_y = _region(domain["y"], m, "y", {}, None)
+    region_x = region(domain["x"], n, "x", {}, None)
+    region_y = region(domain["y"], m, "y", {}, None)
     if sense == "surplus":
         def minimised(x_, y_, _s=function):
             return -_s(x_, y_)

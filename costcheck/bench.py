@@ -79,8 +79,8 @@ def measure_margin(cost, backend: str, xs, ys) -> dict:
     derivatives and margin compiled together.  Otherwise the backend's derivative evaluator
     feeds :func:`costcheck.numerics.curvature.margins.a3w_margin` (numpy for n = 2, compiled per pair for n = 3).
     """
+    from .numerics.curvature.margins import a3w_margin
     from .numerics.curvature.n2 import fused_margin
-    from .numerics.curvature import margins as tensor
 
     fused = backend == "jax" and fused_margin.applicable(cost)
     started = time.perf_counter()
@@ -91,14 +91,14 @@ def measure_margin(cost, backend: str, xs, ys) -> dict:
         stages = _fused_stages(cost, xs, ys)
     else:
         evaluator = cost.derivatives(backend=backend, order=4)
-        tensor.a3w_margin(evaluator(xs, ys))  # JAX compiles for this batch shape here
+        a3w_margin(evaluator(xs, ys))  # JAX compiles for this batch shape here
         warm = time.perf_counter() - started
 
         def margins():  # (margins, seconds spent on the derivatives)
             t0 = time.perf_counter()
             d = evaluator(xs, ys)
             derivatives_s = time.perf_counter() - t0
-            return tensor.a3w_margin(d), derivatives_s
+            return a3w_margin(d), derivatives_s
 
         runs, (m, derivatives_s) = _best_of(margins)
         stages = {"derivatives_pairs_per_s": xs.shape[0] / derivatives_s,
@@ -131,7 +131,7 @@ def _fused_stages(cost, xs, ys, repeats: int = 3) -> dict:
 
     from .numerics.curvature.n2 import fused_margin
 
-    algebra, grid, polish, choose, finish = fused_margin._programs(cost.expr, tuple(cost.x_symbols),
+    algebra, grid, polish, choose, finish = fused_margin.compiled_programs(cost.expr, tuple(cost.x_symbols),
                                                                    tuple(cost.y_symbols))
     z = fused_margin.padded(np.concatenate([xs, ys], axis=1)[: fused_margin.CHUNK], fused_margin.CHUNK)
     best = np.full(5, np.inf)
@@ -173,14 +173,14 @@ def _naive_functions(cost):
     """Every derivative entry lambdified on its own, no cse: what a user would write."""
     import sympy as sp
 
-    from .derivatives.sympy_backend import _MODULES, symbolic_derivatives
+    from .derivatives.sympy_backend import LAMBDIFY_MODULES, symbolic_derivatives
 
     sym = symbolic_derivatives(cost.expr, cost.x_symbols, cost.y_symbols, 4)
     args = list(cost.x_symbols) + list(cost.y_symbols)
     out = {}
     for name in ("dxy", "dxxy", "dxyy", "dxxyy"):
         entries = np.array(sym[name], dtype=object)
-        out[name] = (entries.shape, [sp.lambdify(args, e, modules=_MODULES) for e in entries.reshape(-1)])
+        out[name] = (entries.shape, [sp.lambdify(args, e, modules=LAMBDIFY_MODULES) for e in entries.reshape(-1)])
     return out
 
 
@@ -188,7 +188,7 @@ def _naive_directions(n: int):
     if n == 2:
         t = np.arange(NAIVE_GRID) * np.pi / NAIVE_GRID
         return np.stack([np.cos(t), np.sin(t)], axis=1)
-    from .numerics.curvature.margins import sphere_directions
+    from .numerics.curvature.algebra import sphere_directions
 
     return sphere_directions(n, NAIVE_GRID)
 

@@ -18,17 +18,16 @@ import numpy as np
 import pytest
 import sympy as sp
 from flint import arb
-from hypothesis import HealthCheck, given, settings
-from hypothesis import strategies as st
+from hypothesis import HealthCheck, given, settings, strategies as st
+from strategies import costs
 
 import costcheck
 from costcheck.certify import ProofOptions, balls, identity, proofs, quantities
 from costcheck.certify.arb_eval import BallFunction, Unsupported
 from costcheck.certify.branch_bound import Budget
-from costcheck.run.runner import run_checks
 from costcheck.derivatives.sympy_backend import symbolic_derivatives
+from costcheck.run.runner import run_checks
 from costcheck.spec.expression import parse_expression
-from strategies import costs
 
 CATALOG = Path(__file__).resolve().parent.parent / "catalog"
 X, Y = sp.Symbol("x", real=True), sp.Symbol("y", real=True)
@@ -65,6 +64,8 @@ def _contains(b: arb, value) -> bool:
 @settings(max_examples=40, deadline=None, suppress_health_check=[HealthCheck.too_slow])
 @given(st.sampled_from(EDGE_TEXTS), st.floats(-2, 2), st.floats(-2, 2), st.floats(1e-6, 1.5),
        st.floats(1e-6, 1.5), st.integers(0, 2**31))
+
+
 def test_box_enclosures_contain_every_exact_value(text, cx, cy, wx, wy, seed):
     # the defining property of an enclosure (Moore–Kearfott–Cloud, Introduction to Interval
     # Analysis, SIAM 2009, ch. 5): f(B) ⊂ F(B); the exact values come from sympy's expression evaluated at 40
@@ -179,10 +180,10 @@ def test_a_proved_strong_mtw_bound_is_below_every_sampled_margin():
                                      domain={"x": {"box": [[0, 0.1], [0, 0.1]]}, "y": {"box": [[0, 0.1], [0, 0.1]]}})
     outcome, _ = proofs.mtw_strong(cost, Budget(seconds=30, cells=3000))
     assert outcome.proved and outcome.coverage == 1.0
-    from costcheck.numerics.curvature import margins as tensor
+    from costcheck.numerics.curvature import margins
     zs = _dense_points(cost, 400, 7)
     d = cost.derivatives(order=4)(zs[:, :2], zs[:, 2:])
-    minimum = tensor.a3w_margin(d).raw
+    minimum = margins.a3w_margin(d).raw
     assert outcome.bound > 0 and np.all(minimum >= outcome.bound - 1e-12)
 
 

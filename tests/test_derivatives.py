@@ -22,7 +22,7 @@ from hypothesis import strategies as st
 
 import costcheck
 from costcheck import UsageError
-from costcheck.derivatives import ORDER_FIELDS, fields_up_to
+from costcheck.derivatives.fields import ORDER_FIELDS, fields_up_to
 from strategies import box_domain, costs, points_in, x_names, y_names
 
 BACKENDS = ("sympy", "jax")

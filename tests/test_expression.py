@@ -16,12 +16,12 @@ import sympy as sp
 import yaml
 
 from costcheck.errors import CostFileError, ExpressionError
+from costcheck.model.domain import Inequality
 from costcheck.spec.expression import (
     CONSTANTS,
     FUNCTIONS,
     MAX_DEPTH,
     MAX_LENGTH,
-    Inequality,
     parse_expression,
     parse_inequalities,
     referenced_names,
@@ -105,7 +105,6 @@ def test_base_file_is_valid(tmp_path):
 
 # --------------------------------------------------------------------------- what the language builds
 
-
 def test_arithmetic_builds_the_expected_sympy_expression():
     got = parse_expression("x1**2 - 3*x1/y1 + -x2 + +y2 - (x1 - y1)", NAMES)
     assert got == x1**2 - 3 * x1 / y1 - x2 + y2 - (x1 - y1)
@@ -155,7 +154,6 @@ def test_referenced_names():
 
 # --------------------------------------------------------------------------- rejections, one kind per test
 
-
 def test_unknown_name(tmp_path):
     parser_rejects("x1 + q", "unknown name 'q'")
     file_rejects(tmp_path, {"expr": "r2 + q"}, "expr", "unknown name 'q'")
@@ -185,6 +183,8 @@ def test_attribute_access(tmp_path):
         ("(lambda: 1)()", "only the functions"),
     ],
 )
+
+
 def test_calls_of_anything_else_are_refused_and_not_run(tmp_path, monkeypatch, text, phrase):
     monkeypatch.chdir(tmp_path)
     parser_rejects(text, phrase)
@@ -233,6 +233,8 @@ def test_literal_limit_is_not_too_tight():
         ("exp(-1000)**2", "too large"),  # used to crash with TypeError (float underflow)
     ],
 )
+
+
 def test_huge_exponent_is_refused_quickly(tmp_path, text, phrase):
     start = time.perf_counter()
     parser_rejects(text, phrase)
@@ -256,6 +258,8 @@ def test_exponent_limit_is_not_too_tight():
     ],
     ids=["200-nested-sin", "1000-parentheses", "70-unary-minus"],
 )
+
+
 def test_over_deep_expression(tmp_path, text):
     start = time.perf_counter()
     parser_rejects(text, "nested")
@@ -325,6 +329,8 @@ def test_constraint_must_be_a_plain_comparison(tmp_path):
         ("~x1", "'~'"),
     ],
 )
+
+
 def test_other_syntax_is_refused(tmp_path, text, phrase):
     parser_rejects(text, phrase)
     file_rejects(tmp_path, {"expr": text}, "expr", phrase)

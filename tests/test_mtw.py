@@ -16,19 +16,18 @@ import re
 import numpy as np
 import pytest
 import sympy as sp
-from hypothesis import HealthCheck, given, settings
-from hypothesis import strategies as st
+from hypothesis import HealthCheck, given, settings, strategies as st
+from strategies import cost_expressions
 
 import costcheck
-from costcheck.conditions import mtw
-from costcheck.numerics.curvature import margins as tensor
+from costcheck.conditions.engines import curvature_search
+from costcheck.derivatives.fields import Derivatives
+from costcheck.numerics.curvature import algebra, margins, precise
 from costcheck.run.runner import run_checks
-from costcheck.derivatives import Derivatives
-from strategies import cost_expressions
 
 BUDGET = 256  # sampled pairs per full check: small, the tests are about verdicts, not coverage
 SEED = 7
-TOL = mtw.TOLERANCE
+TOL = curvature_search.TOLERANCE
 
 R2 = "((x1 - y1)**2 + (x2 - y2)**2)"
 UNIT = {"box": [[0, 1], [0, 1]]}
@@ -194,12 +193,12 @@ def test_round_sphere_is_strong_with_two_thirds_on_the_diagonal():
         for angle in (0.0, 1.0):
             y = x + dist * np.array([[np.cos(angle), np.sin(angle)]])
             d = ev(x, y)
-            S = tensor.form_at(d, np.array([[1.0, 0.0]]), np.array([[0.0, 1.0]]))[0]
+            S = margins.form_at(d, np.array([[1.0, 0.0]]), np.array([[0.0, 1.0]]))[0]
             # Loeper 2009 (also Villani, Optimal Transport: Old and New, ch. 12, whose tensor carries
             # an extra factor 3/2): S -> (2/3)|ξ|²|η|² on orthonormal ξ ⊥ η as y -> x
             assert S == pytest.approx(2 / 3, abs=2e-4)
             # at such a point every orthonormal pair gives 2/3, so the A3w minimum is 2/3 too (same source)
-            assert tensor.a3w_margin(d).raw[0] == pytest.approx(2 / 3, abs=2e-4)
+            assert margins.a3w_margin(d).raw[0] == pytest.approx(2 / 3, abs=2e-4)
 
 
 def test_hyperbolic_plane_fails():
@@ -283,7 +282,7 @@ def test_margins_match_brute_force(n):
     """Margins are never above a brute-force minimum over random unit vectors, and are attained."""
     rng = np.random.default_rng(n)
     d = _random_derivs(n, 40, rng)
-    T, scale = tensor.mtw_tensor(d)
+    T, scale = algebra.mtw_tensor(d)
     inv = np.linalg.inv(d.dxy)
     # the tensor formula written out directly (reference: T = c_{ij,r} c^{r,s} c_{s,kl} - c_{ij,kl})
     direct = np.zeros_like(T)
@@ -301,14 +300,14 @@ def test_margins_match_brute_force(n):
     eta_f = np.einsum("nkl,tl->ntk", inv, Y)
     brute_o = np.einsum("nijkl,ti,tj,ntk,ntl->nt", T, X, X, eta_o, eta_o).min(axis=1)
     brute_f = np.einsum("nijkl,ti,tj,ntk,ntl->nt", T, X, X, eta_f, eta_f).min(axis=1)
-    for margins, brute, orthogonal in ((tensor.a3w_margin(d), brute_o, True), (tensor.nncc_margin(d), brute_f, False)):
-        slack = 1e-9 * margins.normaliser
-        assert np.all(margins.raw <= brute + slack)
-        attained = tensor.form_at(d, margins.xi, margins.eta)
-        assert np.allclose(attained, margins.raw, rtol=1e-9, atol=1e-9 * np.max(margins.normaliser))
+    for found, brute, orthogonal in ((margins.a3w_margin(d), brute_o, True), (margins.nncc_margin(d), brute_f, False)):
+        slack = 1e-9 * found.normaliser
+        assert np.all(found.raw <= brute + slack)
+        attained = margins.form_at(d, found.xi, found.eta)
+        assert np.allclose(attained, found.raw, rtol=1e-9, atol=1e-9 * np.max(found.normaliser))
         if orthogonal:
-            assert np.all(np.abs(np.sum(margins.xi * margins.eta, axis=1)) < 1e-12)
-        assert np.all(np.abs(margins.rel) <= 1 + 1e-12)  # |S| <= scale·|M⁻¹|² for unit vectors
+            assert np.all(np.abs(np.sum(found.xi * found.eta, axis=1)) < 1e-12)
+        assert np.all(np.abs(found.rel) <= 1 + 1e-12)  # |S| <= scale·|M⁻¹|² for unit vectors
 
 
 def test_high_precision_form_matches_float64():
@@ -316,16 +315,16 @@ def test_high_precision_form_matches_float64():
     x, y = np.array([0.3, 0.7]), np.array([2.4, 2.9])
     d = cost.derivatives(order=4)(x[None], y[None])
     xi, eta = np.array([0.6, 0.8]), np.array([-0.8, 0.6])
-    value, err = tensor.confirm_form(costcheck.derivatives.mp_backend.high_precision(cost), x, y, xi, eta,
+    value, err = precise.confirm_form(costcheck.derivatives.mp_backend.high_precision(cost), x, y, xi, eta,
                                      orthogonal=True)
     assert float(err) < 1e-25
-    assert float(value) == pytest.approx(tensor.form_at(d, xi[None], eta[None])[0], rel=1e-12)
+    assert float(value) == pytest.approx(margins.form_at(d, xi[None], eta[None])[0], rel=1e-12)
 
 
 # --------------------------------------------------------------------------- invariances (property tests)
 
 def _S(cost, xs, ys, xi, eta):
-    return tensor.form_at(cost.derivatives(order=4)(xs, ys), xi, eta)
+    return margins.form_at(cost.derivatives(order=4)(xs, ys), xi, eta)
 
 
 def _points(seed, count=6):
@@ -352,7 +351,7 @@ def test_adding_functions_of_one_side_leaves_S_unchanged(expr, f, g, seed):
     S0, S1 = _S(base, xs, ys, xi, eta), _S(shifted, xs, ys, xi, eta)
     ok = np.isfinite(S0)
     assert ok.any()
-    scale = tensor.a3w_margin(base.derivatives(order=4)(xs, ys)).normaliser
+    scale = margins.a3w_margin(base.derivatives(order=4)(xs, ys)).normaliser
     # Kim–McCann 2010; MTW 2005: S depends on c only through its mixed derivatives
     assert np.all(np.abs(S1[ok] - S0[ok]) <= 1e-8 * (1 + scale[ok]) * (1 + np.sum(eta[ok] ** 2, axis=1)) ** 2)
 
@@ -367,10 +366,10 @@ def test_product_of_diffeomorphisms_has_zero_tensor(phi, psi, seed):
             f"{phi[1].format('x2')} * {psi[1].format('y2')})")
     xs, ys, _, _ = _points(seed)
     d = cost2(expr).derivatives(order=4)(xs, ys)
-    T, scale = tensor.mtw_tensor(d)
+    T, scale = algebra.mtw_tensor(d)
     # Kim–McCann 2010; MTW 2005: c = -φ(x)·ψ(y) with diffeomorphisms φ, ψ has S ≡ 0
     assert np.all(np.abs(T).reshape(len(xs), -1).max(axis=1) <= 1e-12 * scale)
-    assert np.all(np.abs(tensor.a3w_margin(d).rel) <= TOL)
+    assert np.all(np.abs(margins.a3w_margin(d).rel) <= TOL)
 
 
 @PROPERTY
@@ -384,15 +383,15 @@ def test_exchanging_x_and_y_preserves_the_A3w_sign(expr, seed):
     ds = swapped.derivatives(order=4)(ys, xs)
     # pointwise identity behind it (computed here from T*_{klij} = T_{ijkl}): S*(M⁻¹η, Mᵀξ) = S(ξ, η)
     # at (y, x), and (M⁻¹η)·(Mᵀξ) = ξ·η, so orthogonal pairs correspond to orthogonal pairs
-    inv, _, invertible = tensor.mixed_inverse(d.dxy)
-    S = tensor.form_at(d, xi, eta)
-    Ss = tensor.form_at(ds, np.einsum("nkl,nl->nk", inv, eta), np.einsum("nik,ni->nk", d.dxy, xi))
+    inv, _, invertible = algebra.mixed_inverse(d.dxy)
+    S = margins.form_at(d, xi, eta)
+    Ss = margins.form_at(ds, np.einsum("nkl,nl->nk", inv, eta), np.einsum("nik,ni->nk", d.dxy, xi))
     ok = invertible & np.isfinite(S) & np.isfinite(Ss)
     assert ok.any()
-    norm = tensor.a3w_margin(d).normaliser
+    norm = margins.a3w_margin(d).normaliser
     assert np.all(np.abs(S[ok] - Ss[ok]) <= 1e-7 * norm[ok] * (1 + np.sum(xi[ok] ** 2, 1)) * (1 + np.sum(eta[ok] ** 2, 1)))
     # Kim–McCann 2010; MTW 2005: exchanging the roles of x and y preserves A3w and A3s
-    a, b = tensor.a3w_margin(d), tensor.a3w_margin(ds)
+    a, b = margins.a3w_margin(d), margins.a3w_margin(ds)
     clear = np.isfinite(a.rel) & np.isfinite(b.rel) & (np.abs(a.rel) > 1e-6)
     assert np.all(np.sign(a.rel[clear]) == np.sign(b.rel[clear]))
 
@@ -409,6 +408,8 @@ CHARTS = st.sampled_from([
 @PROPERTY
 @given(expr=cost_expressions(2, 2, max_depth=1), phi=st.tuples(CHARTS, CHARTS), psi=st.tuples(CHARTS, CHARTS),
        seed=st.integers(0, 2**16))
+
+
 def test_changes_of_coordinates_transform_S_as_a_tensor(expr, phi, psi, seed):
     us, vs, xi, eta = _points(seed)
     expr = COUPLED.format(expr)
@@ -424,10 +425,10 @@ def test_changes_of_coordinates_transform_S_as_a_tensor(expr, phi, psi, seed):
     S_here = _S(cost, xs, ys, J * xi, eta / J)
     ok = np.isfinite(S_moved) & np.isfinite(S_here)
     assert ok.any()
-    norm = tensor.a3w_margin(cost.derivatives(order=4)(xs, ys)).normaliser
+    norm = margins.a3w_margin(cost.derivatives(order=4)(xs, ys)).normaliser
     size = (1 + np.sum((J * xi) ** 2, 1)) * (1 + np.sum((eta / J) ** 2, 1))
     assert np.all(np.abs(S_moved[ok] - S_here[ok]) <= 1e-7 * (1 + norm[ok]) * size[ok])
     # the map (ξ̃, η̃) -> (Dφ ξ̃, Dφ⁻ᵀ η̃) keeps ξ · η, so the A3w sign (the verdict) is unchanged too
-    a, b = tensor.a3w_margin(moved.derivatives(order=4)(us, vs)), tensor.a3w_margin(cost.derivatives(order=4)(xs, ys))
+    a, b = margins.a3w_margin(moved.derivatives(order=4)(us, vs)), margins.a3w_margin(cost.derivatives(order=4)(xs, ys))
     clear = np.isfinite(a.rel) & np.isfinite(b.rel) & (np.abs(b.rel) > 1e-6)
     assert np.all(np.sign(a.rel[clear]) == np.sign(b.rel[clear]))

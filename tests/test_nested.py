@@ -17,7 +17,7 @@ from costcheck.run.runner import run_checks
 from costcheck.errors import CostFileError
 from costcheck.spec.expression import parse_expression
 from costcheck.conditions.nested.analysis import analyse, map_at
-from costcheck.conditions.nested.data import SideSpec
+from costcheck.spec.data import SideSpec
 
 ROOT = Path(__file__).resolve().parent.parent
 UNIT_SQUARE = {"box": [[0, 1], [0, 1]]}

@@ -6,13 +6,12 @@ and the companion-matrix route (all critical points, LAPACK eigenvalues).
 
 import numpy as np
 import pytest
-from hypothesis import given, settings
-from hypothesis import strategies as st
+from hypothesis import given, settings, strategies as st
 from hypothesis.extra.numpy import arrays
 
 import costcheck
+from costcheck.numerics.curvature import algebra, margins
 from costcheck.numerics.curvature.n2 import plane_margin, quartic
-from costcheck.numerics.curvature import margins as tensor
 
 GRID = np.linspace(0.0, np.pi, 20001)
 
@@ -78,9 +77,9 @@ def test_certified_rows_are_exact_for_arbitrary_coefficients(p):
 
 def test_jitted_stages_match_numpy():
     pytest.importorskip("jax")
-    from costcheck.derivatives.jax_backend import _jax
+    from costcheck.derivatives.jax_backend import jax_modules
 
-    jax, jnp = _jax()
+    jax, jnp = jax_modules()
     p = _families(np.random.default_rng(3), 1024)
     q = jnp.asarray(p)
     packed = jax.jit(lambda q: quartic.bracket(q, jnp))(q)
@@ -104,7 +103,7 @@ def test_plane_margin_matches_the_tensor_written_out_on_catalog_costs():
         s = sample_pairs(cost.domain, 2, 2, 300, 5)
         d = cost.derivatives(order=4)(s.xs, s.ys)
         m = plane_margin.a3w_margin(d)
-        T, scale = tensor.mtw_tensor(d)
+        T, scale = algebra.mtw_tensor(d)
         inv = np.linalg.inv(d.dxy)
         xi = np.stack([np.cos(GRID[::20]), np.sin(GRID[::20])], axis=1)
         eta = np.stack([-xi[:, 1], xi[:, 0]], axis=1)
@@ -115,7 +114,7 @@ def test_plane_margin_matches_the_tensor_written_out_on_catalog_costs():
         size = scale[ok] * np.max(np.sum(eta_p[ok] ** 2, axis=2), axis=1)
         assert np.all(m.raw[ok] <= grid[ok] + 1e-12 * size)          # never above the grid
         assert np.all(m.raw[ok] >= grid[ok] - 1e-5 * size)           # and close to it (1,001 angles)
-        attained = tensor.form_at(d, m.xi, m.eta)
+        attained = margins.form_at(d, m.xi, m.eta)
         assert np.allclose(attained[ok], m.raw[ok], rtol=1e-10, atol=1e-12 * np.max(size))
 
 

@@ -10,25 +10,23 @@ from pathlib import Path
 
 import numpy as np
 import pytest
-from hypothesis import HealthCheck, given, settings
-from hypothesis import strategies as st
-
-from costcheck.numerics.curvature.n3 import biquadratic, space_margin
-from costcheck.numerics.curvature import margins as tensor
-from costcheck.numerics.sampling import sample_pairs
-from costcheck.derivatives import Derivatives
-from costcheck.spec.loader import load_cost
-
+from hypothesis import HealthCheck, given, settings, strategies as st
 from strategies import costs, points_in
+
+from costcheck.derivatives.fields import Derivatives
+from costcheck.numerics.curvature import algebra
+from costcheck.numerics.curvature.n3 import biquadratic, space_margin
+from costcheck.numerics.sampling import sample_pairs
+from costcheck.spec.loader import load_cost
 
 CATALOG = Path(__file__).resolve().parent.parent / "catalog"
 
 
 def _numpy_route(d):
     with np.errstate(all="ignore"):  # the non-finite fields of the test below
-        T, inv, G, normalising, valid = tensor._prepare(d)
+        T, inv, G, normalising, valid = algebra.prepare(d)
     raw, xi, eta = biquadratic.orthogonal_biquadratic_min(G)
-    return tensor._finish(raw, xi, eta, normalising, valid)
+    return algebra.finish(raw, xi, eta, normalising, valid)
 
 
 def _assert_same(m, ref):
@@ -58,6 +56,8 @@ def test_catalog_costs_match_the_numpy_route(name, backend):
 
 @settings(max_examples=8, deadline=None, derandomize=True,
           suppress_health_check=[HealthCheck.too_slow, HealthCheck.data_too_large])
+
+
 @given(data=st.data())
 def test_random_costs_match_the_numpy_route(data):
     cost = data.draw(costs(n=3, m=3, max_depth=1))
@@ -94,7 +94,7 @@ def test_singular_test_agrees_with_singular_values():
             mats.append(magnitude * (U * np.array([1.0, 1e-3, sigma])) @ V.T)
     dxy = np.array(mats)
     sv = np.linalg.svd(dxy, compute_uv=False)
-    expected = sv[:, -1] > tensor.SINGULAR_RCOND * sv[:, 0]
+    expected = sv[:, -1] > algebra.SINGULAR_RCOND * sv[:, 0]
     m = space_margin.a3w_margin(_fields(dxy))
     assert np.array_equal(m.valid, expected)
     assert expected.sum() == 3 * 5 and (~expected).sum() == 3 * 5  # both sides of the threshold tested

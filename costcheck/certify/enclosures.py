@@ -10,9 +10,8 @@ from typing import Sequence
 
 import numpy as np
 
-from ..derivatives import ORDER_FIELDS
+from ..derivatives.fields import ORDER_FIELDS
 from ..derivatives.sympy_backend import symbolic_derivatives
-
 from .arb_eval import compile_exprs
 
 #: the derivative fields the MTW tensor is built from

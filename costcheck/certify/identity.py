@@ -12,12 +12,11 @@ from __future__ import annotations
 
 import time
 
+import numpy as np
 import sympy as sp
 
-import numpy as np
-
-from ..numerics.curvature.margins import mtw_tensor
 from ..errors import UsageError
+from ..numerics.curvature.algebra import mtw_tensor
 from ..numerics.curvature.symbolic import mtw_tensor_symbolic, simplify_all_bounded
 
 

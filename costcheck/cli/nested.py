@@ -5,17 +5,17 @@ from __future__ import annotations
 from pathlib import Path
 
 from .. import __version__
-from ..errors import EXIT_EXPECTATION_FAILED, EXIT_OK
-from ..render.json_out import _clean
-from ..conditions.nested import data as data_mod
 from ..conditions.nested.analysis import analyse, map_at
 from ..conditions.nested.map import write_json, write_levels_csv, write_map_csv
+from ..errors import EXIT_EXPECTATION_FAILED, EXIT_OK
+from ..render.json_out import clean_json
+from ..spec.data import points_side, read_points
 
 
 def _side_from_option(role: str, path: str | None, option: str, names):
     if path is None:
         return None
-    return data_mod.points_side(role, Path(path), None, option, names)
+    return points_side(role, Path(path), None, option, names)
 
 
 def run(args) -> tuple[dict, object, list[str]]:
@@ -39,7 +39,7 @@ def run(args) -> tuple[dict, object, list[str]]:
                               "k_lo": lv.k_lo.tolist(), "k_hi": lv.k_hi.tolist()}
     at_values = None
     if args.at:
-        points, _, _ = data_mod.read_points(Path(args.at), cost.x_names)
+        points, _, _ = read_points(Path(args.at), cost.x_names)
         T, clamped = map_at(result, points)
         at_values = (points, T)
         document["at"] = {"file": args.at, "points": int(points.shape[0]), "clamped_points": clamped,
@@ -49,7 +49,7 @@ def run(args) -> tuple[dict, object, list[str]]:
     if args.out:
         out = Path(args.out)
         out.mkdir(parents=True, exist_ok=True)
-        write_json(out / "nested.json", _clean(document))
+        write_json(out / "nested.json", clean_json(document))
         written.append(str(out / "nested.json"))
         if result.levels is not None:
             write_levels_csv(out / "levels.csv", cost.y_names[0], result.levels)
@@ -71,16 +71,16 @@ def run(args) -> tuple[dict, object, list[str]]:
     document["expect"] = expected
     document["exit_code"] = code
     document["written"] = written
-    return _clean(document), result, written
+    return clean_json(document), result, written
 
 
 def render(console, document: dict, result) -> None:
-    from ..render.terminal import _style, format_witness
+    from ..render.terminal import verdict_style, format_witness
 
     cost = result.cost
     check = document["checks"]["nested"]
     console.print(f"[bold]{cost.id}[/] — {cost.title}  [dim]({cost.file})[/]")
-    console.print(f"nested: [{_style(check['verdict'])}]{check['verdict']}[/] {check['code']} "
+    console.print(f"nested: [{verdict_style(check['verdict'])}]{check['verdict']}[/] {check['code']} "
                   f"({check['evidence']['kind']})")
     console.print(check["evidence"]["summary"], markup=False)
     if result.verdict.witness is not None:

@@ -11,9 +11,9 @@ from functools import cached_property
 
 import numpy as np
 
-from ..model.cost import Cost
-from ..derivatives import Derivatives, Evaluator
+from ..derivatives.fields import Derivatives, Evaluator
 from ..derivatives.mp_backend import HighPrecision, high_precision
+from ..model.cost import Cost
 from ..numerics.sampling import PairSample, sample_pairs
 
 

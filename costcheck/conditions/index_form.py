@@ -40,11 +40,11 @@ import mpmath
 import numpy as np
 import sympy as sp
 
-from ..numerics.bounded import run_with_time_limit
 from ..model.verdict import Evidence, Verdict, Witness, not_applicable, undecided
-from ..numerics import precision as refine
-from .engines.index_symbolic import find_index
+from ..numerics import precision, search
+from ..numerics.bounded import run_with_time_limit
 from ..numerics.sampling import sample_side
+from .engines.index_symbolic import find_index
 
 CONDITION = "index_form"
 #: sine of the principal angle above which the kernel is said to move
@@ -66,8 +66,8 @@ def _range_bases(M: np.ndarray):
 
 def _hp_outside(hp, x, y, yp, dps) -> mpmath.mpf:
     with mpmath.workdps(dps):
-        A = refine.mp_matrix(hp(x, y, dps)["dxy"])
-        B = refine.mp_matrix(hp(x, yp, dps)["dxy"])
+        A = precision.mp_matrix(hp(x, y, dps)["dxy"])
+        B = precision.mp_matrix(hp(x, yp, dps)["dxy"])
         G = A.T * A
         R = B - A * (mpmath.inverse(G) * (A.T * B))
         return mpmath.mnorm(R, "f") / mpmath.mnorm(B, "f")
@@ -111,7 +111,7 @@ def check(ctx) -> Verdict:
     X, Y = np.repeat(xs, K, axis=0), np.tile(ypool, (nx, 1))
     ev = ctx.evaluator(2)
     d = ev(X, Y)
-    ok = refine.usable(cost.domain, d, X, Y)
+    ok = search.usable(cost.domain, d, X, Y)
     M = np.where(ok[:, None, None], d.dxy, 0.0)
     U, mu, smax = _range_bases(M)
     scale = float(np.median(smax[ok])) if ok.any() else 1.0
@@ -136,16 +136,16 @@ def check(ctx) -> Verdict:
     if largest > ANGLE_THRESHOLD:
         i, k = worst
         x, y, yp = xs[i], ypool[ref[i]], ypool[k]
-        hp, reason = refine.usable_high_precision(cost, 2, x, y)
+        hp, reason = precision.usable_high_precision(cost, 2, x, y)
         if hp is None:
             return undecided(CONDITION, f"the range of D²_xy c turns by sin θ = {largest:.3g} between two sampled y "
                                         f"in float64, but it could not be confirmed in high precision ({reason})",
                              **details)
-        val, err = refine.confirm_value(lambda dps: _hp_outside(hp, x, y, yp, dps))
+        val, err = precision.confirm_value(lambda dps: _hp_outside(hp, x, y, yp, dps))
         if not (mpmath.isfinite(val) and val > err and val > 1e-12):
             return undecided(CONDITION, f"the range of D²_xy c turns by sin θ = {largest:.3g} in float64, but mpmath "
                                         "does not confirm it above its error estimate", **details)
-        text = (f"‖M' − M(MᵀM)⁻¹MᵀM'‖_F / ‖M'‖_F = {refine.fmt(val, 8)} ± {refine.fmt(err, 2)} (mpmath at 50 and 80 "
+        text = (f"‖M' − M(MᵀM)⁻¹MᵀM'‖_F / ‖M'‖_F = {precision.fmt(val, 8)} ± {precision.fmt(err, 2)} (mpmath at 50 and 80 "
                 "digits) with M = D²_xy c(x, y), M' = D²_xy c(x, y'): part of the range of M' lies outside the range "
                 "of M, so the kernels of Mᵀ and M'ᵀ differ")
         vectors = {"y_prime": list(map(float, yp))}

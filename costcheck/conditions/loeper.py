@@ -40,7 +40,7 @@ Procedure
    invariant under ``c -> λc`` and under a common scaling of the coordinates); ``J <= 0`` means
    no violation at the grid points;
 3. a local maximisation of ``J`` over ``(x, x', y0, y1)`` (the batched finite-difference
-   descent of :func:`costcheck.numerics.curvature.margins.batched_descent`) from the :data:`STARTS` best
+   descent of :func:`costcheck.numerics.search.batched_descent`) from the :data:`STARTS` best
    configurations of step 1 — never from the MTW witness, to keep the two checks
    independent;
 4. the best configurations are re-done on :data:`FINE_STEPS` steps and the violation is
@@ -62,10 +62,9 @@ from dataclasses import dataclass
 import mpmath
 import numpy as np
 
-from ..numerics.geometry.csegment import SOLVED, GradientMap, solve_direct
 from ..model.verdict import Evidence, Verdict, Witness, not_applicable, undecided
-from ..numerics import precision as refine
-from ..numerics.curvature import margins as tensor
+from ..numerics import precision, search
+from ..numerics.geometry.csegment import SOLVED, GradientMap, solve_direct
 from .engines.cconvex import fold_reason
 
 CONDITION = "loeper"
@@ -179,7 +178,7 @@ def check(ctx) -> Verdict:
     def objective(Z):
         return -profiles(ctx, Z, fallback=False).J
 
-    zb, fb, evaluations = tensor.batched_descent(objective, z[starts], lower, upper, step=0.05,
+    zb, fb, evaluations = search.batched_descent(objective, z[starts], lower, upper, step=0.05,
                                                  iterations=ITERATIONS)
     candidates = np.concatenate([zb, z[order[:STARTS]]])
     fine = profiles(ctx, candidates, steps=FINE_STEPS)
@@ -236,23 +235,23 @@ def _confirm(ctx, p: Profiles, k: int):
     n = ctx.cost.n
     x, xp, y0, y1 = (a[k] for a in split(p.z, n))
     i = int(np.nanargmax(p.f[k]))
-    hp, reason = refine.usable_high_precision(ctx.cost, 1, x, y0)
+    hp, reason = precision.usable_high_precision(ctx.cost, 1, x, y0)
     if hp is None:
         return False, float(p.gap[k]), None, f"no high-precision evaluator: {reason}"
-    X, XP, Y0, Y1 = (refine.mp_vector(a) for a in (x, xp, y0, y1))
-    dps = refine.DPS_REFINE
+    X, XP, Y0, Y1 = (precision.mp_vector(a) for a in (x, xp, y0, y1))
+    dps = precision.DPS_REFINE
     try:
         with mpmath.workdps(dps):
             p0 = [-v for v in hp(X, Y0, dps)["dx"]]
             p1 = [-v for v in hp(X, Y1, dps)["dx"]]
             t = mpmath.mpf(float(p.ts[i]))
             target = [(1 - t) * a + t * b for a, b in zip(p0, p1)]
-            u, norm, _ = refine.mp_newton_solve(lambda u: [-a - b for a, b in zip(hp(X, u, dps)["dx"], target)],
-                                                refine.mp_vector(p.ys[k, i]))
-            scale = refine.mp_norm(p0) + refine.mp_norm([b - a for a, b in zip(p0, p1)])
+            u, norm, _ = precision.mp_newton_solve(lambda u: [-a - b for a, b in zip(hp(X, u, dps)["dx"], target)],
+                                                precision.mp_vector(p.ys[k, i]))
+            scale = precision.mp_norm(p0) + precision.mp_norm([b - a for a, b in zip(p0, p1)])
             if u is None or not norm <= scale * mpmath.mpf(10) ** (-(dps - 20)):
                 return False, float(p.gap[k]), None, "the high-precision c-segment solve did not converge"
-    except refine.HP_ERRORS as exc:
+    except precision.HP_ERRORS as exc:
         return False, float(p.gap[k]), None, f"the high-precision evaluation failed ({exc})"
 
     def f_at(yv, d):
@@ -262,13 +261,13 @@ def _confirm(ctx, p: Profiles, k: int):
         with mpmath.workdps(d):
             return f_at(u, d) - max(f_at(Y0, d), f_at(Y1, d))
 
-    val, err = refine.confirm_value(gap)
+    val, err = precision.confirm_value(gap)
     if not (mpmath.isfinite(val) and val > err):
-        return False, float(p.gap[k]), None, f"high-precision gap {refine.fmt(val, 4)} ± {refine.fmt(err, 2)}"
+        return False, float(p.gap[k]), None, f"high-precision gap {precision.fmt(val, 4)} ± {precision.fmt(err, 2)}"
     text = (f"y_t at t = {float(t):.6g} re-solved with mpmath (Newton at {dps} digits on -D_x c(x, y_t) = "
-            f"(1 - t) p0 + t p1 from the exact binary values of x, y0, y1; residual {refine.fmt(norm, 3)}); "
-            f"f(t) - max(f(0), f(1)) = {refine.fmt(val, 8)} ± {refine.fmt(err, 2)} at {refine.DPS_LOW} and "
-            f"{refine.DPS_HIGH} digits; scale-free violation v = {float(p.v[k]):.4g} (float64, {FINE_STEPS} steps)")
+            f"(1 - t) p0 + t p1 from the exact binary values of x, y0, y1; residual {precision.fmt(norm, 3)}); "
+            f"f(t) - max(f(0), f(1)) = {precision.fmt(val, 8)} ± {precision.fmt(err, 2)} at {precision.DPS_LOW} and "
+            f"{precision.DPS_HIGH} digits; scale-free violation v = {float(p.v[k]):.4g} (float64, {FINE_STEPS} steps)")
     return True, float(val), float(err), text
 
 

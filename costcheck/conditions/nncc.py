@@ -8,7 +8,7 @@ makes the monopolist's screening problem a convex program (Figalli, Kim & McCann
 
 The procedure is that of :mod:`costcheck.conditions.mtw` (scale-free margins on the sample,
 batched local searches over ``(x, y)`` from the worst samples, high-precision confirmation of a
-negative value) with the NNCC margin ``min_{|ξ|=|η|=1} S(ξ, η)`` of :func:`tensor.nncc_margin`
+negative value) with the NNCC margin ``min_{|ξ|=|η|=1} S(ξ, η)`` of :func:`margins.nncc_margin`
 and the same tolerance: ``μ < -TOLERANCE`` confirmed → **fails**, otherwise **holds**
 (sampled evidence).  For ``n = m = 1`` the condition is ``T_{11,11} >= 0`` and is checked as is.
 """
@@ -16,8 +16,8 @@ and the same tolerance: ``μ < -TOLERANCE`` confirmed → **fails**, otherwise *
 from __future__ import annotations
 
 from ..model.verdict import Evidence, Verdict, not_applicable, undecided
-from ..numerics.curvature import margins as tensor
-from .mtw import (
+from ..numerics.curvature import margins
+from .engines.curvature_search import (
     SCALE_TEXT,
     TOLERANCE,
     coverage,
@@ -36,7 +36,7 @@ def check(ctx) -> Verdict:
     if n != m:
         return not_applicable(CONDITION, f"cross-curvature is not defined for n ≠ m (here n = {n}, m = {m}): it "
                                          "needs the inverse of the square mixed Hessian")
-    s = search_minimum(ctx, tensor.nncc_margin, orthogonal=False)
+    s = search_minimum(ctx, margins.nncc_margin, orthogonal=False)
     if s is None:
         return undecided(CONDITION, "no sampled pair has finite derivatives up to order 4 and an invertible mixed "
                                     "Hessian, so the cross-curvature could not be evaluated anywhere")

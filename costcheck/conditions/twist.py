@@ -26,7 +26,7 @@ the score of a pair is ``(|Δ D_x c| / s_p) / (|Δy| / diam Y)`` with ``s_p`` th
 of ``D_x c`` over the ``y`` samples, so small scores are pairs far apart in ``y`` and close
 in ``D_x c``; random far-apart pairs are added so a curve-like image (``m < n``) is searched
 too.  The best 16 pairs (at most two per ``x``) start a least-squares search over ``(x, y, y')``
-(a batched Levenberg–Marquardt iteration, :func:`refine.batched_least_squares`, all starts in
+(a batched Levenberg–Marquardt iteration, :func:`search.batched_least_squares`, all starts in
 one derivative evaluation per step — about twenty times faster than calling
 ``scipy.optimize.least_squares`` start by start) of
 ``(D_x c(x, y) - D_x c(x, y')) / s_p``, with a penalty keeping ``|y - y'|`` at least half its
@@ -54,9 +54,11 @@ import sympy as sp
 from scipy.optimize import brentq
 from scipy.spatial import cKDTree
 
+from ..model.domain import Ball
 from ..model.verdict import Evidence, Verdict, Witness
-from ..numerics import precision as refine
+from ..numerics import exact, precision, search
 from ..numerics.sampling import sample_side
+from .engines import admissible
 
 CONDITION = "twist"
 _SALT = 0x7715
@@ -85,7 +87,7 @@ class _Setup:
         self.domain = ctx.cost.domain
         self.n, self.m = ctx.cost.n, ctx.cost.m
         self.ev = ctx.evaluator(2)
-        self.diam_y = refine.region_diameter(self.domain.y) or 1.0
+        self.diam_y = search.region_diameter(self.domain.y) or 1.0
         lo_x, hi_x = self.domain.x.bounds()
         self.width_x = np.where(hi_x - lo_x > 0, hi_x - lo_x, 1.0)
         self._hp = None
@@ -95,7 +97,7 @@ class _Setup:
 
     def derivs(self, xs, ys):
         d = self.ev(xs, ys)
-        return d, refine.usable(self.domain, d, xs, ys)
+        return d, search.usable(self.domain, d, xs, ys)
 
     @property
     def hp(self):
@@ -104,7 +106,7 @@ class _Setup:
         if self._hp is None and self._hp_reason is None:
             sample = self.ctx.sample
             i = int(np.argmax(self.ctx.defined))
-            self._hp, self._hp_reason = refine.usable_high_precision(self.cost, 1, sample.xs[i], sample.ys[i])
+            self._hp, self._hp_reason = precision.usable_high_precision(self.cost, 1, sample.xs[i], sample.ys[i])
         return self._hp
 
     def hp_dx(self, x, y, dps):
@@ -129,10 +131,10 @@ def _exact_collision(st: _Setup, x, y, yp, extra: str = "") -> Witness | None:
     widths = np.concatenate([st.width_x, hi_y - lo_y, hi_y - lo_y])
     xs_sym, ys_sym = st.cost.x_symbols, st.cost.y_symbols
     if st._grad_sym is None:
-        expr, st.decimals = refine.exact_expression(st.cost.expr)
+        expr, st.decimals = exact.exact_expression(st.cost.expr)
         st._grad_sym = [sp.diff(expr, v) for v in xs_sym]
     values = np.concatenate([x, y, yp])
-    for point in refine.snap_candidates(values, widths):
+    for point in exact.snap_candidates(values, widths):
         px, py, pyp = point[:n], point[n: n + m], point[n + m:]
         if py == pyp:
             continue
@@ -149,7 +151,7 @@ def _exact_collision(st: _Setup, x, y, yp, extra: str = "") -> Witness | None:
             b = [g.xreplace(sub_b) for g in st._grad_sym]
             if any(v.has(sp.nan, sp.zoo, sp.oo, -sp.oo) for v in a + b):
                 continue
-            if not all(refine.exactly_zero(u - v) for u, v in zip(a, b)):
+            if not all(exact.exactly_zero(u - v) for u, v in zip(a, b)):
                 continue
         except (TypeError, ValueError, ZeroDivisionError):
             continue
@@ -180,7 +182,7 @@ def _confirm_collision(st: _Setup, x, y, yp, scale: float, extra: str = "", brac
     if st.hp is None:
         # no usable high precision (a Python-function cost, or a failing mpmath translation): float64 only
         d, ok = st.derivs(np.array([x, x]), np.array([y, yp]))
-        if not ok.all() or refine.near_open_boundary(st.ctx, np.array([x, x]), np.array([y, yp])):
+        if not ok.all() or admissible.near_open_boundary(st.ctx, np.array([x, x]), np.array([y, yp])):
             return None, "boundary"
         res = float(np.linalg.norm(d.dx[0] - d.dx[1]))
         size = float(max(np.linalg.norm(d.dx[0]), scale))
@@ -191,29 +193,29 @@ def _confirm_collision(st: _Setup, x, y, yp, scale: float, extra: str = "", brac
                 + extra)
         return Witness(x=x.tolist(), y=y.tolist(), value=res, error_bound=1e-15 * size, confirmation=text,
                        vectors={"y_prime": yp.tolist()}, vector_sides={"y_prime": "y"}), "confirmed"
-    y_mp = refine.mp_vector(y)
+    y_mp = precision.mp_vector(y)
 
     def residual(u):
-        return st.hp_residual(u[:n], y_mp, u[n:], refine.DPS_REFINE)
+        return st.hp_residual(u[:n], y_mp, u[n:], precision.DPS_REFINE)
 
-    project = refine.compose(refine.mp_project_box(st.domain.x, 0), refine.mp_project_box(st.domain.y, n))
-    u, _, settled = refine.mp_newton_solve(residual, refine.mp_vector(np.concatenate([x, yp])), project=project)
+    project = precision.compose(precision.mp_project_box(st.domain.x, 0), precision.mp_project_box(st.domain.y, n))
+    u, _, settled = precision.mp_newton_solve(residual, precision.mp_vector(np.concatenate([x, yp])), project=project)
     if u is None:
         return None, "unresolved"
     xf = np.array([float(v) for v in u[:n]])
     ypf = np.array([float(v) for v in u[n:]])
     if np.linalg.norm(ypf - y) < MIN_SEPARATION * st.diam_y:
         return None, "boundary"
-    if refine.near_open_boundary(st.ctx, np.array([xf, xf]), np.array([y, ypf])):
+    if admissible.near_open_boundary(st.ctx, np.array([xf, xf]), np.array([y, ypf])):
         return None, "boundary"
     if not st.domain.contains_pairs(np.array([xf, xf]), np.array([y, ypf])).all():
         return None, "unresolved"
     exact = _exact_collision(st, xf, y, ypf, extra)
     if exact is not None:
         return exact, "confirmed"
-    val, err = refine.confirm_value(lambda dps: refine.mp_norm(st.hp_residual(u[:n], y_mp, u[n:], dps)))
-    with mpmath.workdps(refine.DPS_HIGH):
-        size = max(refine.mp_norm(st.hp_dx(u[:n], y_mp, refine.DPS_HIGH)), mpmath.mpf(scale))
+    val, err = precision.confirm_value(lambda dps: precision.mp_norm(st.hp_residual(u[:n], y_mp, u[n:], dps)))
+    with mpmath.workdps(precision.DPS_HIGH):
+        size = max(precision.mp_norm(st.hp_dx(u[:n], y_mp, precision.DPS_HIGH)), mpmath.mpf(scale))
     if not (val <= err and err <= size * mpmath.mpf(10) ** -30):
         return None, ("nonzero" if settled and val > err else "unresolved")
     ivt = ""
@@ -223,18 +225,18 @@ def _confirm_collision(st: _Setup, x, y, yp, scale: float, extra: str = "", brac
         def h_at(t):
             return lambda dps: st.hp_residual(u[:n], [mpmath.mpf(float(t))], y_mp, dps)[0]
 
-        va, ea = refine.confirm_value(h_at(lo))
-        vb, eb = refine.confirm_value(h_at(hi))
+        va, ea = precision.confirm_value(h_at(lo))
+        vb, eb = precision.confirm_value(h_at(hi))
         if abs(va) > ea and abs(vb) > eb and mpmath.sign(va) != mpmath.sign(vb):
-            ivt = (f"  Independently of the refinement, c_x(x, t) - c_x(x, y) = {refine.fmt(va, 6)} ± "
-                   f"{refine.fmt(ea, 2)} at t = {float(lo):.17g} and {refine.fmt(vb, 6)} ± {refine.fmt(eb, 2)} at "
+            ivt = (f"  Independently of the refinement, c_x(x, t) - c_x(x, y) = {precision.fmt(va, 6)} ± "
+                   f"{precision.fmt(ea, 2)} at t = {float(lo):.17g} and {precision.fmt(vb, 6)} ± {precision.fmt(eb, 2)} at "
                    f"t = {float(hi):.17g} (mpmath, 50/80 digits), so a collision partner of y lies between them "
                    "(intermediate value theorem).")
-    text = (f"|D_x c(x, y) - D_x c(x, y')| = {refine.fmt(val, 3)} ± {refine.fmt(err, 3)} (mpmath at 50 and 80 digits) "
+    text = (f"|D_x c(x, y) - D_x c(x, y')| = {precision.fmt(val, 3)} ± {precision.fmt(err, 3)} (mpmath at 50 and 80 digits) "
             f"while |D_x c(x, y)| ≈ {float(size):.3g} and |y - y'| = {np.linalg.norm(ypf - y):.3g}: a collision to "
-            f"the working precision.  Exact point: x = {refine.fmt_vec(u[:n], 30)}, y = {refine.fmt_vec(y, 17)} "
-            f"(the float itself), y' = {refine.fmt_vec(u[n:], 30)}; (x, y') were refined by Newton's method at "
-            f"{refine.DPS_REFINE} digits from the float search, the float coordinates reported are their "
+            f"the working precision.  Exact point: x = {precision.fmt_vec(u[:n], 30)}, y = {precision.fmt_vec(y, 17)} "
+            f"(the float itself), y' = {precision.fmt_vec(u[n:], 30)}; (x, y') were refined by Newton's method at "
+            f"{precision.DPS_REFINE} digits from the float search, the float coordinates reported are their "
             "rounding." + extra + ivt)
     return Witness(x=xf.tolist(), y=y.tolist(), value=float(val), error_bound=float(err), confirmation=text,
                    vectors={"y_prime": ypf.tolist()}, vector_sides={"y_prime": "y"}), "confirmed"
@@ -372,7 +374,7 @@ def _check_1d(st: _Setup) -> Verdict:
     sign_ok = bool(np.all(cxy > 0) or np.all(cxy < 0))
     median = float(np.median(np.abs(cxy))) or 1.0
     margin = float(np.min(np.abs(cxy)) / median)
-    interval = refine.region_is_convex(st.domain, "y")
+    interval = search.region_is_convex(st.domain, "y")
     if sign_ok and interval:
         suff = "sufficient condition (a) holds on the samples: n = m = 1, Y an interval and c_xy ≠ 0 of one sign"
     elif sign_ok:
@@ -396,8 +398,8 @@ def _local_searches(st: _Setup, starts: np.ndarray, sp: float) -> tuple[np.ndarr
     """Batched least squares over (x, y, y') from each start row; returns the results and residuals."""
     n, m = st.n, st.m
     q = n + 2 * m
-    lo_x, hi_x = refine.box_bounds(st.domain.x)
-    lo_y, hi_y = refine.box_bounds(st.domain.y)
+    lo_x, hi_x = search.box_bounds(st.domain.x)
+    lo_y, hi_y = search.box_bounds(st.domain.y)
     lower = np.concatenate([lo_x, lo_y, lo_y])
     upper = np.concatenate([hi_x, hi_y, hi_y])
     h = 1e-7 * st.width_x
@@ -420,9 +422,9 @@ def _local_searches(st: _Setup, starts: np.ndarray, sp: float) -> tuple[np.ndarr
         diff = (DX[:, 0] - DX[:, 1]) / sp  # (S, k, n)
         sep = np.linalg.norm(Y1 - Y2, axis=1)
         pen = np.maximum(delta - sep, 0.0) / delta
-        bx, gx = refine.ball_penalty(st.domain.x, X)
-        b1, g1 = refine.ball_penalty(st.domain.y, Y1)
-        b2, g2 = refine.ball_penalty(st.domain.y, Y2)
+        bx, gx = search.ball_penalty(st.domain.x, X)
+        b1, g1 = search.ball_penalty(st.domain.y, Y1)
+        b2, g2 = search.ball_penalty(st.domain.y, Y2)
         r = np.concatenate([diff[:, 0], pen[:, None], bx[:, None], b1[:, None], b2[:, None]], axis=1)
         J = np.zeros((S, n + 4, q))
         both = okr[:, :, 1: n + 1] & okr[:, :, n + 1:]
@@ -441,21 +443,21 @@ def _local_searches(st: _Setup, starts: np.ndarray, sp: float) -> tuple[np.ndarr
         okk = okr[:, 0, 0] & okr[:, 1, 0] & np.all(np.isfinite(r), axis=1) & np.all(np.isfinite(J), axis=(1, 2))
         return np.where(np.isfinite(r), r, 0.0), np.where(np.isfinite(J), J, 0.0), okk
 
-    U, cost = refine.batched_least_squares(model, starts, lower, upper, iterations=60)
+    U, cost = search.batched_least_squares(model, starts, lower, upper, iterations=60)
     for i in range(U.shape[0]):
-        U[i, :n] = refine.clip_into(st.domain.x, U[i, :n])
-        U[i, n: n + m] = refine.clip_into(st.domain.y, U[i, n: n + m])
-        U[i, n + m:] = refine.clip_into(st.domain.y, U[i, n + m:])
+        U[i, :n] = search.clip_into(st.domain.x, U[i, :n])
+        U[i, n: n + m] = search.clip_into(st.domain.y, U[i, n: n + m])
+        U[i, n + m:] = search.clip_into(st.domain.y, U[i, n + m:])
     return U, cost
 
 
 def _sufficient_b(st: _Setup, xs, Ys, M, ok) -> tuple[str | None, float]:
     """Sufficient condition (b) on the samples; returns (description or None, best scale-free margin)."""
-    if not refine.region_is_convex(st.domain, "y"):
+    if not search.region_is_convex(st.domain, "y"):
         return None, float("nan")
     n, m = st.n, st.m
     nx = xs.shape[0]
-    yc = np.asarray(st.domain.y.center if isinstance(st.domain.y, refine.Ball)
+    yc = np.asarray(st.domain.y.center if isinstance(st.domain.y, Ball)
                     else 0.5 * (np.asarray(st.domain.y.lower) + np.asarray(st.domain.y.upper)), float)
     dc, okc = st.derivs(xs, np.repeat(yc[None], nx, axis=0))
     Qs = {}
@@ -600,7 +602,7 @@ def _check_general(st: _Setup) -> Verdict:
         suff = (f"sufficient condition (b) holds on the samples: Y convex and the symmetric part of Q·D²_xy c(x, ·) "
                 f"positive definite with {name} (smallest λ_min(sym QM)/|QM|_F {margin:.3g})")
     else:
-        suff = "no sufficient condition applies" if not refine.region_is_convex(st.domain, "y") else \
+        suff = "no sufficient condition applies" if not search.region_is_convex(st.domain, "y") else \
             "sufficient condition (b) was tried (Q = ±I, Q = M(x, y_c)⁺) and is not met on the samples"
     summary = (f"no collision found in {nx} x-samples × {K} y-samples and {searches} local searches; {suff}: "
                "evidence, not proof")

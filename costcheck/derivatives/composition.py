@@ -22,7 +22,7 @@ from typing import Sequence
 
 import sympy as sp
 
-from .sympy_backend import _diff, symbolic_derivatives
+from .sympy_backend import diff, symbolic_derivatives
 
 
 def inner_expression(expr: sp.Expr, variables: Sequence[sp.Symbol]):
@@ -69,14 +69,14 @@ def _composed(expr, xs, ys, order):
     outer, T, t = found
     F = [outer]
     for _ in range(order):
-        F.append(_diff(F[-1], T))
+        F.append(diff(F[-1], T))
     F = [f.xreplace({T: t}) for f in F]
     inner: dict = {}
 
     def t_derivative(block):
         key = tuple(sorted(block, key=lambda s: s.name))
         if key not in inner:
-            inner[key] = _diff(t_derivative(key[:-1]), key[-1]) if key else t
+            inner[key] = diff(t_derivative(key[:-1]), key[-1]) if key else t
         return inner[key]
 
     formed: dict = {}

@@ -14,7 +14,7 @@ import numpy as np
 import sympy as sp
 
 from ..errors import UsageError
-from . import Derivatives, fields_up_to
+from .fields import Derivatives, fields_up_to
 
 
 def _compilation_cache_dir() -> str | None:
@@ -49,7 +49,7 @@ def _enable_compilation_cache(jax) -> None:
 
 
 @lru_cache(maxsize=1)
-def _jax():
+def jax_modules():
     import jax
 
     # float64 everywhere: the checks compare margins near zero
@@ -67,7 +67,7 @@ def _kinked():
     # ``defined == True`` where the sympy backend (sign(0) = 0, DiracDelta -> NaN at 0,
     # see sympy_backend._delta) reports NaN.  Same convention here: |u|' = sign(u) with
     # sign(0) = 0, and sign'(u) = 0 off u = 0, undefined (NaN) at u = 0.
-    jax, jnp = _jax()
+    jax, jnp = jax_modules()
 
     @jax.custom_jvp
     def sign(u):
@@ -164,7 +164,7 @@ def _translator(jax, jnp, known: dict):
 
 def sympy_to_jax(expr: sp.Expr, xs: Sequence[sp.Symbol], ys: Sequence[sp.Symbol]) -> Callable:
     """A JAX-traceable ``f(x, y)`` computing ``expr`` (x, y are 1-D arrays)."""
-    jax, jnp = _jax()
+    jax, jnp = jax_modules()
 
     def f(x, y):
         known = {s: x[i] for i, s in enumerate(xs)}
@@ -181,7 +181,7 @@ def sympy_columns_to_jax(exprs: Sequence[sp.Expr], symbols: Sequence[sp.Symbol])
     nesting forward-mode transforms."""
     from .sympy_backend import shared_cse
 
-    jax, jnp = _jax()
+    jax, jnp = jax_modules()
     replacements, reduced = shared_cse(list(exprs))
 
     def f(columns):
@@ -196,7 +196,7 @@ def sympy_columns_to_jax(exprs: Sequence[sp.Expr], symbols: Sequence[sp.Symbol])
 
 def build_scalar(f: Callable, order: int) -> Callable:
     """``(x (n,), y (m,)) -> dict`` of derivatives of the scalar ``f`` up to ``order``."""
-    jax, _ = _jax()
+    jax, _ = jax_modules()
     grad_x = jax.grad(f, argnums=0)
     mixed = jax.jacfwd(grad_x, argnums=1)  # M[i, k]
 
@@ -221,7 +221,7 @@ def build_scalar(f: Callable, order: int) -> Callable:
 
 def build_from_function(f: Callable, order: int) -> Callable:
     """A batched evaluator ``(xs, ys) -> Derivatives`` for a JAX-traceable scalar ``f(x, y)``."""
-    jax, jnp = _jax()
+    jax, jnp = jax_modules()
     batched = jax.jit(jax.vmap(build_scalar(f, order)))
     names = fields_up_to(order)
 

@@ -14,7 +14,7 @@ import mpmath
 import numpy as np
 import sympy as sp
 
-from . import fields_up_to
+from .fields import fields_up_to
 from .sympy_backend import shared_cse, symbolic_derivatives
 
 

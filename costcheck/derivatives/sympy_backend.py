@@ -16,7 +16,7 @@ from typing import Sequence
 import numpy as np
 import sympy as sp
 
-from . import Derivatives, fields_up_to
+from .fields import Derivatives, fields_up_to
 
 
 def _delta(x, *_):
@@ -29,10 +29,10 @@ def _heaviside(x, *_):
     return np.where(x == 0, np.nan, (x > 0).astype(float))
 
 
-_MODULES = [{"DiracDelta": _delta, "Heaviside": _heaviside, "sign": np.sign}, "numpy"]
+LAMBDIFY_MODULES = [{"DiracDelta": _delta, "Heaviside": _heaviside, "sign": np.sign}, "numpy"]
 
 
-def _diff(e: sp.Expr, v: sp.Symbol) -> sp.Expr:
+def diff(e: sp.Expr, v: sp.Symbol) -> sp.Expr:
     """``∂e/∂v``, with ``sign``'s derivative made explicit.
 
     sympy differentiates ``sign(u)`` only when it can prove ``u`` real; for ``u = cos(x/(sin(y)
@@ -78,28 +78,28 @@ def _symbolic_derivatives(expr, xs, ys, order) -> dict:
         return {"value": expr}
     out = dict(_symbolic_derivatives(expr, xs, ys, order - 1))
     if order == 1:
-        out["dx"] = [_diff(expr, xi) for xi in xs]
-        out["dy"] = [_diff(expr, yk) for yk in ys]
+        out["dx"] = [diff(expr, xi) for xi in xs]
+        out["dy"] = [diff(expr, yk) for yk in ys]
     elif order == 2:
         gx = out["dx"]
-        out["dxy"] = [[_diff(gx[i], ys[k]) for k in range(m)] for i in range(n)]
+        out["dxy"] = [[diff(gx[i], ys[k]) for k in range(m)] for i in range(n)]
     elif order == 3:
         M = out["dxy"]
         dxxy = [[[None] * m for _ in range(n)] for _ in range(n)]
         for i, j in itertools.combinations_with_replacement(range(n), 2):
             for k in range(m):
-                dxxy[i][j][k] = dxxy[j][i][k] = _diff(M[i][k], xs[j])
+                dxxy[i][j][k] = dxxy[j][i][k] = diff(M[i][k], xs[j])
         dxyy = [[[None] * m for _ in range(m)] for _ in range(n)]
         for i in range(n):
             for k, l in itertools.combinations_with_replacement(range(m), 2):
-                dxyy[i][k][l] = dxyy[i][l][k] = _diff(M[i][k], ys[l])
+                dxyy[i][k][l] = dxyy[i][l][k] = diff(M[i][k], ys[l])
         out["dxxy"], out["dxyy"] = dxxy, dxyy
     else:
         dxxy = out["dxxy"]
         dxxyy = [[[[None] * m for _ in range(m)] for _ in range(n)] for _ in range(n)]
         for i, j in itertools.combinations_with_replacement(range(n), 2):
             for k, l in itertools.combinations_with_replacement(range(m), 2):
-                d = _diff(dxxy[i][j][k], ys[l])
+                d = diff(dxxy[i][j][k], ys[l])
                 for a, b in ((i, j), (j, i)):
                     dxxyy[a][b][k][l] = dxxyy[a][b][l][k] = d
         out["dxxyy"] = dxxyy
@@ -173,7 +173,7 @@ def _build(expr, xs, ys, order, extra=()):
     shapes = {name: np.shape(np.array(sym[name], dtype=object)) for name in names}
     flat, layout = distinct_entries(sym, names)
 
-    fn = sp.lambdify(list(xs) + list(ys) + list(extra), flat, modules=_MODULES, cse=shared_cse, dummify=True)
+    fn = sp.lambdify(list(xs) + list(ys) + list(extra), flat, modules=LAMBDIFY_MODULES, cse=shared_cse, dummify=True)
 
     def evaluate(x: np.ndarray, y: np.ndarray, values=()) -> Derivatives:
         count = x.shape[0]

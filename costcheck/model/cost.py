@@ -35,7 +35,7 @@ class Cost(CostLabels):
     source: str | None = None
     file: str | None = None
     raw: Mapping | None = field(default=None, repr=False, compare=False)
-    #: the two distributions of a matching model (``data:``), a :class:`costcheck.conditions.nested.data.DataSpec`
+    #: the two distributions of a matching model (``data:``), a :class:`costcheck.spec.data.DataSpec`
     data: object | None = field(default=None, repr=False, compare=False)
     #: in a sweep: ``(expression with the varied parameters as symbols, ((symbol, value), ...))``, so
     #: the symbolic derivatives and their compiled form are shared by every value of the family

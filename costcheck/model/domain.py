@@ -12,8 +12,6 @@ from typing import Callable, Sequence
 import numpy as np
 import sympy as sp
 
-from ..spec.expression import Inequality
-
 
 @dataclass(frozen=True)
 class Box:
@@ -68,6 +66,15 @@ class Ball:
 
 
 Region = Box | Ball
+
+
+@dataclass(frozen=True)
+class Inequality:
+    """A constraint ``g >= 0`` (or ``g > 0`` when ``strict``) with its source text."""
+
+    g: sp.Expr
+    strict: bool
+    text: str
 
 
 @dataclass(frozen=True)

@@ -20,14 +20,14 @@ from ..model.verdict import CostReport
 from ..errors import CostFileError
 
 
-def _clean(value):
+def clean_json(value):
     """JSON has no NaN or infinity: write them as null rather than emit invalid JSON."""
     if isinstance(value, float) and not math.isfinite(value):
         return None
     if isinstance(value, dict):
-        return {k: _clean(v) for k, v in value.items()}
+        return {k: clean_json(v) for k, v in value.items()}
     if isinstance(value, (list, tuple)):
-        return [_clean(v) for v in value]
+        return [clean_json(v) for v in value]
     return value
 
 
@@ -66,4 +66,4 @@ def run_to_json(reports: list[CostReport], errors: list[CostFileError], options:
             "exit_code": exit_code,
         },
     }
-    return json.dumps(_clean(document), indent=2, ensure_ascii=False)
+    return json.dumps(clean_json(document), indent=2, ensure_ascii=False)

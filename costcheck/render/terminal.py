@@ -24,7 +24,7 @@ EVIDENCE_WORDS = {
 }
 
 
-def _style(verdict: str) -> str:
+def verdict_style(verdict: str) -> str:
     if verdict in _GOOD:
         return "bold green"
     if verdict in _BAD:
@@ -73,7 +73,7 @@ def render_report(console: Console, report: CostReport) -> None:
     table.add_column("what was established", overflow="fold")
     for name, v in report.verdicts.items():
         expected = cost.expect.get(name)
-        verdict = Text(v.verdict, style=_style(v.verdict))
+        verdict = Text(v.verdict, style=verdict_style(v.verdict))
         if expected and expected != v.verdict:
             verdict.append(f" (expected {expected})", style="bold red")
         detail = v.evidence.summary

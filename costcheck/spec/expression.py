@@ -14,12 +14,12 @@ where the caller asks for a constraint.
 from __future__ import annotations
 
 import ast
-from dataclasses import dataclass
 from typing import Mapping
 
 import sympy as sp
 
 from ..errors import ExpressionError
+from ..model.domain import Inequality
 
 #: Functions a cost file may call, each with exactly one argument.
 FUNCTIONS: dict[str, sp.Function] = {
@@ -57,15 +57,6 @@ MAX_RESULT_DIGITS = 300  # largest power of ten a numeric power may reach
 
 _BINARY = {ast.Add: "+", ast.Sub: "-", ast.Mult: "*", ast.Div: "/", ast.Pow: "**"}
 _COMPARE = {ast.Lt: "<", ast.LtE: "<=", ast.Gt: ">", ast.GtE: ">="}
-
-
-@dataclass(frozen=True)
-class Inequality:
-    """A constraint ``g >= 0`` (or ``g > 0`` when ``strict``) with its source text."""
-
-    g: sp.Expr
-    strict: bool
-    text: str
 
 
 def _fail(message: str) -> None:

@@ -19,16 +19,10 @@ from typing import Any, Mapping
 
 import sympy as sp
 
-from ..model.cost import Cost
-from ..model.domain import Ball, Box, Constraint, Domain
 from ..errors import CostFileError
-from .expression import (
-    RESERVED_NAMES,
-    Inequality,
-    parse_expression,
-    parse_inequalities,
-    referenced_names,
-)
+from ..model.cost import Cost
+from ..model.domain import Ball, Box, Constraint, Domain, Inequality
+from .expression import RESERVED_NAMES, parse_expression, parse_inequalities, referenced_names
 # the first stages (file, YAML, schema) live in .reading, which needs no sympy; re-exported here
 from .reading import (
     COST_FILE_SUFFIXES,
@@ -40,9 +34,7 @@ from .reading import (
     validate_shape,
 )
 
-
 # --------------------------------------------------------------------------- meaning
-
 
 def _check_name(name: str, field: str, file: str | None) -> None:
     if name in RESERVED_NAMES or keyword.iskeyword(name):
@@ -64,7 +56,7 @@ def _constant(value: Any, names: Mapping[str, sp.Expr], field: str, file: str | 
     return expr
 
 
-def _region(spec: Mapping, dim: int, side: str, names: Mapping[str, sp.Expr], file: str | None):
+def region(spec: Mapping, dim: int, side: str, names: Mapping[str, sp.Expr], file: str | None):
     field = f"domain.{side}"
     if "box" in spec:
         rows = spec["box"]
@@ -179,8 +171,8 @@ def build_cost(data: Mapping, file: str | None = None, *, param_overrides: Mappi
 
     dom = data["domain"]
     constants = dict(params)
-    region_x = _region(dom["x"], len(x_names), "x", constants, file)
-    region_y = _region(dom["y"], len(y_names), "y", constants, file)
+    region_x = region(dom["x"], len(x_names), "x", constants, file)
+    region_y = region(dom["y"], len(y_names), "y", constants, file)
 
     where_x, where_y = [], []
     for i, text in enumerate(dom.get("where") or []):
@@ -207,7 +199,7 @@ def build_cost(data: Mapping, file: str | None = None, *, param_overrides: Mappi
 
     spec = None
     if data.get("data"):
-        from ..conditions.nested.data import parse_data_spec
+        from .data import parse_data_spec
 
         spec = parse_data_spec(data["data"], x_syms, y_syms, constants, file)
 

@@ -7,7 +7,7 @@ verdict boundaries by bisection, and draw them.
 - :mod:`.plots` draws verdict strips, phase maps and margins (matplotlib).
 """
 
-from .grid import Axis, SweepSpecError, parse_vary, snap
 from .engine import SweepResult, run_sweep
+from .grid import Axis, SweepSpecError, parse_vary, snap
 
 __all__ = ["Axis", "SweepSpecError", "parse_vary", "snap", "SweepResult", "run_sweep"]

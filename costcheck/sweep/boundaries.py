@@ -18,8 +18,8 @@ an exact value).  A third verdict met inside an interval splits it in two bisect
 
 from __future__ import annotations
 
-from .engine import ERROR
 from .grid import snap
+from .point import ERROR
 
 KEY = ("verdict", "kind", "value", "witness", "code")
 

@@ -7,8 +7,7 @@ from __future__ import annotations
 
 from pathlib import Path
 
-from ..render.plots import VERDICT_STYLE as STYLE
-from ..render.plots import save_figure
+from ..render.plots import VERDICT_STYLE as STYLE, save_figure
 
 
 def _style(verdict):

@@ -7,7 +7,7 @@ import json
 from rich.table import Table
 
 from .. import __version__
-from ..render.json_out import _clean
+from ..render.json_out import clean_json
 
 COLOUR = {"strong": "green", "holds": "green", "weak": "yellow", "fails": "red",
           "undecided": "magenta", "error": "bold red", "not-applicable": "dim"}
@@ -52,4 +52,4 @@ def to_json(result, exit_code: int = 0) -> str:
     doc = {"tool": "costcheck", "version": __version__, "command": "sweep", **result.to_json(),
            "summary": {"points": len(result.points), "boundaries": len(result.boundaries),
                        "isolated": len(result.isolated), "exit_code": exit_code}}
-    return json.dumps(_clean(doc), indent=2, ensure_ascii=False)
+    return json.dumps(clean_json(doc), indent=2, ensure_ascii=False)

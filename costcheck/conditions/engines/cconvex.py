@@ -45,6 +45,8 @@ from dataclasses import dataclass
 import mpmath
 import numpy as np
 
+from ...model.verdict import Evidence, Verdict, Witness, not_applicable, undecided
+from ...numerics import precision
 from ...numerics.geometry.csegment import (
     SOLVED,
     STATUS_TEXT,
@@ -56,8 +58,6 @@ from ...numerics.geometry.csegment import (
     solve_direct,
 )
 from ...numerics.geometry.region import Section
-from ...model.verdict import Evidence, Verdict, Witness, not_applicable, undecided
-from ...numerics import precision as refine
 
 #: a grid point further outside than LEAVE_TOL × diameter counts as leaving the section
 LEAVE_TOL = 1e-6
@@ -229,23 +229,23 @@ def confirm_exit(ctx, spec: SideSpec, section: Section, seg: Segments, fixed, e:
     cost = ctx.cost
     x0 = fixed[e.row] if spec.moving == "y" else e.z_out
     y0 = e.z_out if spec.moving == "y" else fixed[e.row]
-    hp, reason = refine.usable_high_precision(cost, 1, x0, y0)
+    hp, reason = precision.usable_high_precision(cost, 1, x0, y0)
     if hp is None:
         return False, float(e.depth), None, f"not confirmed in high precision: {reason}"
     field = "dx" if spec.moving == "y" else "dy"
-    f_mp = refine.mp_vector(fixed[e.row])
-    z0_mp, z1_mp = refine.mp_vector(seg.z0[e.row]), refine.mp_vector(seg.z1[e.row])
+    f_mp = precision.mp_vector(fixed[e.row])
+    z0_mp, z1_mp = precision.mp_vector(seg.z0[e.row]), precision.mp_vector(seg.z1[e.row])
 
     def g(z, dps):
         with mpmath.workdps(dps):
             xs, ys = (f_mp, z) if spec.moving == "y" else (z, f_mp)
             return [-v for v in hp(xs, ys, dps)[field]]
 
-    dps = refine.DPS_REFINE
+    dps = precision.DPS_REFINE
     with mpmath.workdps(dps):
         try:
             p0, p1 = g(z0_mp, dps), g(z1_mp, dps)
-        except refine.HP_ERRORS as exc:
+        except precision.HP_ERRORS as exc:
             return False, float(e.depth), None, f"the high-precision evaluation failed ({exc})"
         t = mpmath.mpf(float(e.t_out))
         target = [(1 - t) * a + t * b for a, b in zip(p0, p1)]
@@ -253,20 +253,20 @@ def confirm_exit(ctx, spec: SideSpec, section: Section, seg: Segments, fixed, e:
         def residual(u):
             return [a - b for a, b in zip(g(u, dps), target)]
 
-        u, norm, _ = refine.mp_newton_solve(residual, refine.mp_vector(e.z_out))
-        scale = refine.mp_norm(p0) + refine.mp_norm([b - a for a, b in zip(p0, p1)]) + mpmath.mpf(10) ** -300
+        u, norm, _ = precision.mp_newton_solve(residual, precision.mp_vector(e.z_out))
+        scale = precision.mp_norm(p0) + precision.mp_norm([b - a for a, b in zip(p0, p1)]) + mpmath.mpf(10) ** -300
         if u is None or not norm <= scale * mpmath.mpf(10) ** (-(dps - 20)):
             return False, float(e.depth), None, "the high-precision Newton solve of the c-segment did not converge"
-    val, err = refine.confirm_value(lambda d: section.mp_violation(e.part, u, fixed[e.row], d))
-    point = refine.fmt_vec(u, 20)
+    val, err = precision.confirm_value(lambda d: section.mp_violation(e.part, u, fixed[e.row], d))
+    point = precision.fmt_vec(u, 20)
     if not (mpmath.isfinite(val) and val > err):
         return False, float(e.depth), None, (f"the high-precision point {point} is not outside '{e.part}' beyond "
-                                              f"its error ({refine.fmt(val, 4)} ± {refine.fmt(err, 2)})")
+                                              f"its error ({precision.fmt(val, 4)} ± {precision.fmt(err, 2)})")
     what = "the region's bounds" if e.part == "region" else f"the constraint '{e.part}'"
     text = (f"the c-segment point at t = {float(e.t_out):.6g} was re-solved with mpmath (Newton at {dps} digits on "
             f"-D c = (1 - t) p0 + t p1, from the exact binary values of the ends and the fixed point, residual "
-            f"{refine.fmt(norm, 3)}): {point}; it violates {what} by {refine.fmt(val, 8)} ± {refine.fmt(err, 2)} "
-            f"(evaluated at {refine.DPS_LOW} and {refine.DPS_HIGH} digits; for a constraint g >= 0 the value is -g)")
+            f"{precision.fmt(norm, 3)}): {point}; it violates {what} by {precision.fmt(val, 8)} ± {precision.fmt(err, 2)} "
+            f"(evaluated at {precision.DPS_LOW} and {precision.DPS_HIGH} digits; for a constraint g >= 0 the value is -g)")
     return True, float(val), float(err), text
 
 

@@ -25,7 +25,7 @@ from typing import Sequence
 
 import sympy as sp
 
-from ...numerics.precision import exact_expression
+from ...numerics.exact import exact_expression
 
 
 def _is_zero(expr: sp.Expr, symbols: Sequence[sp.Symbol]) -> bool:

@@ -7,22 +7,22 @@ from dataclasses import dataclass, field
 
 import numpy as np
 
+from ...defaults import DEFAULT_LEVELS  # noqa: F401 - the default lives in a light module
 from ...errors import CostFileError
 from ...model.verdict import Verdict, not_applicable
-from . import data as data_mod
+from ...spec.data import DataSpec, SideSpec
+from . import measures
 from .decide import CONDITION, find_crossings, nested_verdict
 from .levels import Levels, compute_levels
 from .map import LevelTable, evaluate_map, level_table, mean_surplus, pushforward_distance
-
-from ...defaults import DEFAULT_LEVELS  # noqa: F401 - the default lives in a light module
 
 
 @dataclass
 class NestedResult:
     cost: object
     verdict: Verdict
-    source: data_mod.Measure | None = None
-    target: data_mod.Distribution1D | None = None
+    source: measures.Measure | None = None
+    target: measures.Distribution1D | None = None
     levels: Levels | None = None
     table: LevelTable | None = None
     map_on_source: np.ndarray | None = None
@@ -30,20 +30,20 @@ class NestedResult:
     seconds: dict = field(default_factory=dict)
 
 
-def source_measure(cost, side: data_mod.SideSpec) -> data_mod.Measure:
+def source_measure(cost, side: SideSpec) -> measures.Measure:
     if side.kind == "points":
-        return data_mod.points_measure(side, cost.x_names, cost.domain.contains_x)
-    return data_mod.density_measure(side, cost.x_symbols, cost.domain.x, cost.domain.contains_x, cost.file)
+        return measures.points_measure(side, cost.x_names, cost.domain.contains_x)
+    return measures.density_measure(side, cost.x_symbols, cost.domain.x, cost.domain.contains_x, cost.file)
 
 
-def target_distribution(cost, side: data_mod.SideSpec) -> data_mod.Distribution1D:
-    return data_mod.target_distribution(side, cost.y_names[0], cost.y_symbols[0], cost.domain.y,
+def target_distribution(cost, side: SideSpec) -> measures.Distribution1D:
+    return measures.target_distribution(side, cost.y_names[0], cost.y_symbols[0], cost.domain.y,
                                         cost.domain.contains_y, cost.file)
 
 
-def sides_of(cost, source: data_mod.SideSpec | None = None, target: data_mod.SideSpec | None = None):
+def sides_of(cost, source: SideSpec | None = None, target: SideSpec | None = None):
     """The two sides to use: command-line ones first, then the file's ``data:``."""
-    spec = cost.data or data_mod.DataSpec()
+    spec = cost.data or DataSpec()
     return source or spec.source, target or spec.target
 
 

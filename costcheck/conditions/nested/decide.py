@@ -22,8 +22,8 @@ from dataclasses import dataclass
 import mpmath
 import numpy as np
 
-from ...numerics import precision as refine
 from ...model.verdict import Evidence, Verdict, Witness, undecided
+from ...numerics import precision
 from .levels import Levels
 
 CONDITION = "nested"
@@ -65,8 +65,8 @@ def _confirm(cost, hp, x, y, yp, k_lo, k_hi):
     """mpmath: ``∂s/∂y(x, y) ≤ k_lo`` and ``∂s/∂y(x, y') ≥ k_hi`` beyond the error estimates."""
     def phi_at(yy):
         return lambda dps: -hp(list(x), [yy], dps)["dy"][0]
-    a, ea = refine.confirm_value(phi_at(y))
-    b, eb = refine.confirm_value(phi_at(yp))
+    a, ea = precision.confirm_value(phi_at(y))
+    b, eb = precision.confirm_value(phi_at(yp))
     ok = (mpmath.isfinite(a) and mpmath.isfinite(b) and mpmath.mpf(k_lo) - a > ea and b - mpmath.mpf(k_hi) > eb)
     return ok, (a, ea, b, eb)
 
@@ -103,7 +103,7 @@ def nested_verdict(cost, levels: Levels, crossings: Crossings, points: np.ndarra
                         (phi[j_out, viol] - levels.k_hi[j_out]) / levels.spread[j_out])
     at_break = j_out == j_break
     order = np.lexsort((-margin, ~at_break))  # at the first break first, largest margin first
-    hp, reason = refine.usable_high_precision(cost, 1, points[viol[order[0]]], [levels.ys[0]])
+    hp, reason = precision.usable_high_precision(cost, 1, points[viol[order[0]]], [levels.ys[0]])
     for r in order[:CONFIRM_TRIES]:
         i, a, b = int(viol[r]), int(j_in[r]), int(j_out[r])
         x = points[i]
@@ -118,9 +118,9 @@ def nested_verdict(cost, levels: Levels, crossings: Crossings, points: np.ndarra
         if not ok:
             continue
         va, ea, vb, eb = vals
-        text = (f"{y_name} = {y:.6g} < {y_name}' = {yp:.6g}: ∂s/∂y(x, {y_name}) = {refine.fmt(va, 10)} ± "
-                f"{refine.fmt(ea, 2)} ≤ k_lo({y_name}) = {levels.k_lo[a]:.10g}, so x ∈ X≤({y_name}, k+); and "
-                f"∂s/∂y(x, {y_name}') = {refine.fmt(vb, 10)} ± {refine.fmt(eb, 2)} ≥ k_hi({y_name}') = "
+        text = (f"{y_name} = {y:.6g} < {y_name}' = {yp:.6g}: ∂s/∂y(x, {y_name}) = {precision.fmt(va, 10)} ± "
+                f"{precision.fmt(ea, 2)} ≤ k_lo({y_name}) = {levels.k_lo[a]:.10g}, so x ∈ X≤({y_name}, k+); and "
+                f"∂s/∂y(x, {y_name}') = {precision.fmt(vb, 10)} ± {precision.fmt(eb, 2)} ≥ k_hi({y_name}') = "
                 f"{levels.k_hi[b]:.10g}, so x ∉ X<({y_name}', k-) ({how}).  The levels k come from the data with the "
                 f"tolerance {levels.band_rule}; the level curves through x cross.")
         witness = Witness(x=list(map(float, x)), y=[y], value=float(margin[r]),

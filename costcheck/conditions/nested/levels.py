@@ -25,7 +25,7 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from .data import Distribution1D, Measure
+from .measures import Distribution1D, Measure
 
 ALPHA = 1e-3
 #: pairs evaluated per call of the derivative evaluator (bounds memory)

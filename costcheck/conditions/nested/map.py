@@ -19,7 +19,7 @@ from pathlib import Path
 
 import numpy as np
 
-from .data import Distribution1D, Measure
+from .measures import Distribution1D, Measure
 from .levels import Levels, surplus_y
 
 

@@ -21,9 +21,9 @@ from dataclasses import dataclass
 
 import sympy as sp
 
-from ...model.cost import Cost
 from ...derivatives.sympy_backend import symbolic_derivatives
 from ...errors import UsageError
+from ...model.cost import Cost
 
 SIMPLIFY_SECONDS = 10.0  # in total, for all components
 

@@ -14,7 +14,7 @@ from pathlib import Path
 
 import numpy as np
 
-from ...numerics.curvature import margins as tensor
+from ...numerics.curvature import margins
 from ...numerics.geometry.region import Section
 from . import Figure, pyplot
 from .geometry import central_point, finish, names, section_grid
@@ -48,7 +48,7 @@ def mtw_margin_slices(report, directory: Path) -> list[Figure]:
         A, B, pts, inside = section_grid(section, fixed, GRID)
         rep = np.repeat(fixed[None], pts.shape[0], axis=0)
         xs, ys = (rep, pts) if moving == "y" else (pts, rep)
-        m = tensor.a3w_margin(ev(xs, ys))
+        m = margins.a3w_margin(ev(xs, ys))
         rel = np.where(inside.ravel() & m.valid & np.isfinite(m.rel), m.rel, np.nan).reshape(A.shape)
         panels.append((ax, moving, fixed, A, B, rel))
     finite = np.concatenate([p[-1][np.isfinite(p[-1])] for p in panels])

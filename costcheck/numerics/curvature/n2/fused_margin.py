@@ -62,12 +62,12 @@ def worthwhile(cost, pairs: int) -> bool:
 
 
 @lru_cache(maxsize=16)
-def _programs(expr, xs, ys):
+def compiled_programs(expr, xs, ys):
     from ....derivatives.composition import composed_derivatives
-    from ....derivatives.jax_backend import _jax, sympy_columns_to_jax
+    from ....derivatives.jax_backend import jax_modules, sympy_columns_to_jax
     from ....derivatives.sympy_backend import distinct_entries
 
-    jax, jnp = _jax()
+    jax, jnp = jax_modules()
     flat, layout = distinct_entries(composed_derivatives(expr, xs, ys, 4), FIELDS)
     columns_of = sympy_columns_to_jax(flat, list(xs) + list(ys))
 
@@ -93,7 +93,7 @@ def _programs(expr, xs, ys):
 def a3w_margin(cost, xs: np.ndarray, ys: np.ndarray, *, chunk: int = CHUNK) -> plane_margin.PlaneMargins:
     """Exact n = 2 A3w margins at the pairs ``(xs, ys)``, computed by the compiled kernels
     (at most ``chunk`` pairs per call; each new block size is a new compilation, see :func:`blocks`)."""
-    programs = _programs(cost.expr, tuple(cost.x_symbols), tuple(cost.y_symbols))
+    programs = compiled_programs(cost.expr, tuple(cost.x_symbols), tuple(cost.y_symbols))
     z = np.concatenate([np.asarray(xs, float), np.asarray(ys, float)], axis=1)
     spans = blocks(z.shape[0], chunk)
     # two blocks in flight: XLA keeps the cores busy only part of the time within one program
@@ -137,7 +137,7 @@ def padded(block: np.ndarray, size: int) -> np.ndarray:
 
 
 def _block(programs, z, begin, rows, size):
-    from ....derivatives.jax_backend import _jax
+    from ....derivatives.jax_backend import jax_modules
 
     algebra, grid, polish, choose, finish = programs
     prepared = algebra(padded(z[begin:begin + rows], size))
@@ -146,7 +146,7 @@ def _block(programs, z, begin, rows, size):
     margins = finish(prepared, found)
     # wait here, in the worker: JAX dispatches asynchronously, and a worker that returned at
     # once would leave all the blocks queued one after another
-    _jax()[0].block_until_ready(margins)
+    jax_modules()[0].block_until_ready(margins)
     return prepared, found, margins, rows
 
 

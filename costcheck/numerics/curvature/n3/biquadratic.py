@@ -87,12 +87,12 @@ SHIFT_FLOOR = 1e-13
 CONVERGED_DECREASE = 1e-16
 
 #: the packed index pairs of a symmetric 3 × 3 matrix (diagonal first)
-_PAIRS = ((0, 0), (1, 1), (2, 2), (0, 1), (0, 2), (1, 2))
-_ROW = numpy.array([i for i, _ in _PAIRS])
-_COL = numpy.array([j for _, j in _PAIRS])
+PACKED_PAIRS = ((0, 0), (1, 1), (2, 2), (0, 1), (0, 2), (1, 2))
+PACKED_ROW = numpy.array([i for i, _ in PACKED_PAIRS])
+PACKED_COL = numpy.array([j for _, j in PACKED_PAIRS])
 #: position of entry (i, j) of a symmetric 3 × 3 matrix in the packed vector
-_UNPACK = numpy.array([[0, 3, 4], [3, 1, 5], [4, 5, 2]])
-#: the rows of _UNPACK as tuples (compiled code indexes the packed G with them)
+UNPACK = numpy.array([[0, 3, 4], [3, 1, 5], [4, 5, 2]])
+#: the rows of UNPACK as tuples (compiled code indexes the packed G with them)
 _U0, _U1, _U2 = (0, 3, 4), (3, 1, 5), (4, 5, 2)
 
 
@@ -111,14 +111,14 @@ def scan_plan(directions: int = DEFAULT_DIRECTIONS, separation: float = 0.5):
     that directions ``d`` and ``e`` are less than ``separation`` radians apart (seeds are kept
     apart with it).
     """
-    from ..margins import complement_basis, sphere_directions
+    from ..algebra import complement_basis, sphere_directions
 
     xi = sphere_directions(3, directions)
     P = numpy.ascontiguousarray(complement_basis(xi))  # (D, 3, 2)
     w = _packed_square(xi.T)  # (6, D)
 
     def restricted(r, s):  # m (6, D): sum_q Q_q m_q = (Pᵀ Q P)_{rs} for packed symmetric Q
-        return numpy.stack([P[:, a, r] * P[:, b, s] + (P[:, b, r] * P[:, a, s] if a != b else 0.0) for a, b in _PAIRS])
+        return numpy.stack([P[:, a, r] * P[:, b, s] + (P[:, b, r] * P[:, a, s] if a != b else 0.0) for a, b in PACKED_PAIRS])
 
     m00, m01, m11 = restricted(0, 0), restricted(0, 1), restricted(1, 1)
     entries = [0.5 * (m00 + m11), 0.5 * (m00 - m11), m01]
@@ -132,10 +132,10 @@ def scan_plan(directions: int = DEFAULT_DIRECTIONS, separation: float = 0.5):
 
 def pack(G):
     """``g (N, 36)``: the part of ``G (N, 3, 3, 3, 3)`` symmetric in (i, j) and (a, b), packed
-    (row ``p``, column ``q`` of the packed 6 × 6 at ``6 p + q``, pairs in the order of ``_PAIRS``)."""
+    (row ``p``, column ``q`` of the packed 6 × 6 at ``6 p + q``, pairs in the order of ``PACKED_PAIRS``)."""
     G = 0.5 * (G + numpy.swapaxes(G, 1, 2))
     G = 0.5 * (G + numpy.swapaxes(G, 3, 4))
-    g = G[:, _ROW[:, None], _COL[:, None], _ROW[None, :], _COL[None, :]]  # (N, 6, 6)
+    g = G[:, PACKED_ROW[:, None], PACKED_COL[:, None], PACKED_ROW[None, :], PACKED_COL[None, :]]  # (N, 6, 6)
     return numpy.ascontiguousarray(g.reshape(G.shape[0], 36), dtype=float)
 
 
@@ -155,8 +155,9 @@ def scan(g32, directions: int = DEFAULT_DIRECTIONS):
 
 
 # --------------------------------------------------------------------------- compiled helpers
-# Vectors are 3-tuples, symmetric matrices packed 6-tuples (the order of _PAIRS), general 3 × 3
+# Vectors are 3-tuples, symmetric matrices packed 6-tuples (the order of PACKED_PAIRS), general 3 × 3
 # matrices tuples of rows, and G a (6, 6) array: tuples stay in registers once inlined.
+
 
 @inline
 def _square(v):
@@ -190,7 +191,7 @@ def _quadratic_in_first(g, w):
 
 @inline
 def _mixed_entry(g, xi, eta, rows, cols):
-    """``sum_ia ξ_i η_a G[rows_i, cols_a]``: with ``rows``, ``cols`` rows of ``_UNPACK``, an entry ``G(ξ, e_j, η, e_b)``."""
+    """``sum_ia ξ_i η_a G[rows_i, cols_a]``: with ``rows``, ``cols`` rows of ``UNPACK``, an entry ``G(ξ, e_j, η, e_b)``."""
     return (xi[0] * (eta[0] * g[rows[0], cols[0]] + eta[1] * g[rows[0], cols[1]] + eta[2] * g[rows[0], cols[2]])
             + xi[1] * (eta[0] * g[rows[1], cols[0]] + eta[1] * g[rows[1], cols[1]] + eta[2] * g[rows[1], cols[2]])
             + xi[2] * (eta[0] * g[rows[2], cols[0]] + eta[1] * g[rows[2], cols[1]] + eta[2] * g[rows[2], cols[2]]))

@@ -32,9 +32,9 @@ from concurrent.futures import ThreadPoolExecutor
 import numpy as np
 from threadpoolctl import threadpool_limits
 
+from ..n2.plane_margin import SINGULAR_RCOND
 from . import biquadratic
 from .compiled import kernel
-from ..n2.plane_margin import SINGULAR_RCOND
 from .small3 import largest_eigenvalue
 
 #: pairs per block (each block: the algebra, one scan product, the minimum; about 2.5 KB a pair)
@@ -49,7 +49,7 @@ SHARED_FROM = 1024
 #: (i, j) of each packed index and the packed index of (k, l), as biquadratic packs G; and how
 #: many entries of a symmetric pair of indices each stands for (for the Frobenius norms over all
 #: 81 entries)
-_ROW, _COL, _UNPACK = biquadratic._ROW, biquadratic._COL, biquadratic._UNPACK
+_ROW, _COL, _UNPACK = biquadratic.PACKED_ROW, biquadratic.PACKED_COL, biquadratic.UNPACK
 _WEIGHT = np.array([1.0, 1.0, 1.0, 2.0, 2.0, 2.0])
 
 
@@ -142,7 +142,7 @@ def a3w_margin(derivs, *, directions: int = biquadratic.DEFAULT_DIRECTIONS, iter
 
     ``iterations``: Newton iterations of the minimum (``None``: its default).
     """
-    from ..margins import _finish
+    from ..algebra import finish as _finish
 
     # pairs last: the sympy backend's fields are laid out so already (no copy), and the kernel
     # reads each entry's run of consecutive pairs
