@@ -202,3 +202,11 @@ def test_catalog_results_are_those_of_the_snapshot():
     first = next((i for i, (a, b) in enumerate(zip(expected, got)) if a != b), min(len(expected), len(got)))
     assert got == expected, (f"the catalog's results differ from the snapshot from line {first + 1}: "
                              f"expected {expected[first:first + 3]}, got {got[first:first + 3]}")
+
+
+def test_every_folder_is_a_regular_package():
+    # setuptools installs only folders with an __init__.py: without one, a folder works from the
+    # work tree (a namespace package) and is missing from an installed copy
+    missing = sorted({str(p.parent.relative_to(PACKAGE)) for p in PACKAGE.rglob("*.py")
+                      if "__pycache__" not in p.parts and not (p.parent / "__init__.py").exists()})
+    assert not missing, f"folders without __init__.py: {missing}"
