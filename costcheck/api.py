@@ -101,11 +101,13 @@ def from_function(
 
 
 def check(cost: Cost, *, budget: int | None = None, seed: int | None = None, backend: str = "sympy",
-          conditions: Sequence[str] | None = None, prove: bool | dict = False):
+          conditions: Sequence[str] | None = None, prove: bool | dict = True):
     """Run the condition checks on ``cost``; returns a :class:`~costcheck.run.runner.CostReport`.
 
-    ``prove=True`` (or a dict of :class:`~costcheck.certify.ProofOptions` fields such as
-    ``{"seconds": 60}``) also tries to prove each sampled "holds" on the whole domain.
+    Each sampled verdict is also put to a proof on the whole domain, within a few seconds per
+    condition (``prove=True``, the default, as ``costcheck check`` does); a dict of
+    :class:`~costcheck.certify.ProofOptions` fields such as ``{"seconds": 60}`` sets the budget and
+    ``prove=False`` samples only (as ``--quick``).
 
     ``report.verdicts[name]`` is a :class:`~costcheck.model.verdict.Verdict` (verdict word, evidence,
     worst value, witness); ``report.mismatches`` lists expectations of a file that were not met.

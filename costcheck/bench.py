@@ -255,14 +255,34 @@ def _run_cli(args: list[str], results: str) -> dict:
             "outer_seconds": outer, "args": args}
 
 
-def run(size: str = "default", backends=("sympy", "jax"), skip_catalog: bool = False) -> dict:
+#: what bounds each throughput target, said when the target is not met
+LIMITS = {
+    "n2_pairs_per_s": "the fused kernel's five programs (margin.<cost>.jax.stage_pairs_per_s), on "
+                      "blocks of 32,768 pairs, two blocks in flight; each program's outputs are "
+                      "written and read back. "
+                      "Per pair: the derivatives after cse (derivative_operations_per_pair: ~180 "
+                      "for the power cost, ~830 for the sphere chart, both by Faa di Bruno's formula; "
+                      "almost all multiplications and additions) and ~1,300 flops "
+                      "of the certified quartic grid stage; XLA runs a pure FMA chain at ~2e10 flop/s on these 2 cores, so ~3e3 flops/pair "
+                      "bounds the kernel near 7e6 pairs/s; transcendental calls and selects cost "
+                      "several flops each",
+    "n3_pairs_per_s": "per pair on one core (measured on power-0.5-3d): the compiled Newton "
+                      "iterations on SO(3), ~2.8 us (about 9 model evaluations of ~600 flops, a "
+                      "dependent chain with an arc-cosine and a cosine where the Hessian is not "
+                      "safely definite); the lambdified derivatives, ~1 us; the compiled tensor "
+                      "algebra, ~0.5 us; the float32 BLAS scan, ~0.2 us. Two threads give "
+                      "1.5-1.8x. The chain's latency, not its ~6e3 flops, bounds it: at one "
+                      "dependent flop per ~1.5 cycles the iterations alone allow ~4e5 pairs/s on "
+                      "the two cores",
+    "n2_speedup_vs_naive": "follows from n2_pairs_per_s: the naive per-point loop runs at "
+                           "~1e2-1e3 pairs/s",
+}
+
+
+def _margins(result: dict, cfg: dict, size: str, backends) -> dict:
+    """Margin throughput per cost and backend (and the naive loop); the fastest figure per n."""
     import costcheck
 
-    cfg = SIZES[size]
-    result: dict = {"tool": "costcheck.bench", "size": size, "backends": list(backends),
-                    "machine": {"cpus": os.cpu_count(), "python": platform.python_version(),
-                                "numpy": np.__version__, "platform": platform.platform()},
-                    "margin": {}, "naive": {}, "cli": {}, "targets": {}}
     per_n: dict = {}
     for n, paths in COSTS[size].items():
         for rel in paths:
@@ -284,6 +304,11 @@ def run(size: str = "default", backends=("sympy", "jax"), skip_catalog: bool = F
                 fig["speedup"] = entry[fastest]["pairs_per_s"] / fig["pairs_per_s"]
                 fig["speedup_of"] = fastest
                 result["naive"][key] = fig
+    return per_n
+
+
+def _command_times(result: dict, cfg: dict, skip_catalog: bool) -> None:
+    """Wall time of ``costcheck check`` on one cost, and on the catalog cold and warm."""
     single = [f"catalog/{SINGLE_COST}"]
     if cfg["single_budget"]:
         single += ["--budget", str(cfg["single_budget"])]
@@ -299,6 +324,9 @@ def run(size: str = "default", backends=("sympy", "jax"), skip_catalog: bool = F
             result["cli"]["catalog_warm"] = _run_cli(["catalog/"], os.path.join(scratch, "catalog"))
             result["cli"]["catalog_peak_mb"] = cat["peak_mb"]
 
+
+def _targets(result: dict, per_n: dict, skip_catalog: bool) -> None:
+    """Each measured figure beside its target, with what bounds it where it falls short."""
     t = result["targets"]
     worst = {n: min(v) for n, v in per_n.items()}
     if 2 in worst:
@@ -311,36 +339,27 @@ def run(size: str = "default", backends=("sympy", "jax"), skip_catalog: bool = F
     t["single_cost_check_s"] = {"measured": result["cli"]["single_cost"]["seconds"],
                                 "target": TARGETS["single_cost_check_s"], "lower_is_better": True}
     if not skip_catalog:
+        cat = result["cli"]["catalog"]
         t["catalog_check_s"] = {"measured": cat["seconds"], "target": TARGETS["catalog_check_s"],
                                 "lower_is_better": True}
         t["catalog_peak_mb"] = {"measured": cat["peak_mb"], "target": TARGETS["catalog_peak_mb"],
                                 "lower_is_better": True}
-    limits = {
-        "n2_pairs_per_s": "the fused kernel's five programs (margin.<cost>.jax.stage_pairs_per_s), on "
-                          "blocks of 32,768 pairs, two blocks in flight; each program's outputs are "
-                          "written and read back. "
-                          "Per pair: the derivatives after cse (derivative_operations_per_pair: ~180 "
-                          "for the power cost, ~830 for the sphere chart, both by Faa di Bruno's formula; "
-                          "almost all multiplications and additions) and ~1,300 flops "
-                          "of the certified quartic grid stage; XLA runs a pure FMA chain at ~2e10 flop/s on these 2 cores, so ~3e3 flops/pair "
-                          "bounds the kernel near 7e6 pairs/s; transcendental calls and selects cost "
-                          "several flops each",
-        "n3_pairs_per_s": "per pair on one core (measured on power-0.5-3d): the compiled Newton "
-                          "iterations on SO(3), ~2.8 us (about 9 model evaluations of ~600 flops, a "
-                          "dependent chain with an arc-cosine and a cosine where the Hessian is not "
-                          "safely definite); the lambdified derivatives, ~1 us; the compiled tensor "
-                          "algebra, ~0.5 us; the float32 BLAS scan, ~0.2 us. Two threads give "
-                          "1.5-1.8x. The chain's latency, not its ~6e3 flops, bounds it: at one "
-                          "dependent flop per ~1.5 cycles the iterations alone allow ~4e5 pairs/s on "
-                          "the two cores",
-        "n2_speedup_vs_naive": "follows from n2_pairs_per_s: the naive per-point loop runs at "
-                               "~1e2-1e3 pairs/s",
-    }
-    for name, text in limits.items():
+    for name, text in LIMITS.items():
         if name in t and t[name]["measured"] < t[name]["target"]:
             t[name]["bottleneck"] = text
     for v in t.values():
         v["met"] = bool(v["measured"] <= v["target"]) if v.get("lower_is_better") else bool(v["measured"] >= v["target"])
+
+
+def run(size: str = "default", backends=("sympy", "jax"), skip_catalog: bool = False) -> dict:
+    cfg = SIZES[size]
+    result: dict = {"tool": "costcheck.bench", "size": size, "backends": list(backends),
+                    "machine": {"cpus": os.cpu_count(), "python": platform.python_version(),
+                                "numpy": np.__version__, "platform": platform.platform()},
+                    "margin": {}, "naive": {}, "cli": {}, "targets": {}}
+    per_n = _margins(result, cfg, size, backends)
+    _command_times(result, cfg, skip_catalog)
+    _targets(result, per_n, skip_catalog)
     if size != "default":
         result["note"] = "tiny sizes: a smoke test, not comparable with the targets"
     return result

@@ -42,6 +42,8 @@ class Outcome:
     #: what the cells cover and their coordinates' names (set by the caller)
     space: str = ""
     names: list = field(default_factory=list)
+    #: what a proved cell shows, when it is not the condition's usual certificate (set by the caller)
+    what: str = ""
 
     def to_json(self, names=None) -> dict:
         names = self.names or names

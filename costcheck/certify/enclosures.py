@@ -43,7 +43,9 @@ class FieldEnclosures:
                 idx.append(position[e])
             self._layout[name] = idx
         variables = tuple(symbols) if symbols is not None else tuple(cost.x_symbols) + tuple(cost.y_symbols)
-        self.function = compile_exprs(tuple(flat), variables)
+        #: every rewritten derivative is a function of ``symbols`` alone (else nothing is compiled)
+        self.free_of_others = all(e.free_symbols <= set(variables) for e in flat)
+        self.function = compile_exprs(tuple(flat), variables) if self.free_of_others else None
 
     def at_balls(self, cell: Sequence) -> dict | None:
         """Enclosures at the given input balls (natural form; for points and thin balls)."""

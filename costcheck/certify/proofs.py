@@ -13,8 +13,22 @@ without an implemented certificate, a domain the sufficient condition does not c
   ∫₀¹ (y₁ − y₀)ᵀ sym M(x, y_t) (y₁ − y₀) dt ≠ 0`` for ``y₀ ≠ y₁`` (definiteness keeps one sign
   on a connected slice by continuity).  Slices are convex when ``Y`` is a box or ball and no
   ``where`` on ``y`` nor ``pairs`` constraint cuts them.
+  For a cost of ``|x − y|`` alone (:func:`.space.radial_space`) no convexity is needed:
+  ``D_x c = f(r) z/r`` with ``z = x − y``, ``r = |z|``, and ``D²_xy c`` has the eigenvalues ``f'(r)``
+  (along ``z``) and ``f(r)/r`` (across, ``n − 1`` times).  ``det D²_xy c ≠ 0`` on a connected
+  cover of the distances keeps ``f`` of one sign and strictly monotone there, so
+  ``f(r) z/r = f(r') z'/r'`` forces ``z/r = z'/r'`` and then ``r = r'``: ``y ↦ D_x c`` is injective.
 - **MTW strong** (A3s) for ``n = 2``: on each cell the quartic ``S(cos θ, sin θ)`` on orthogonal
-  pairs is bounded below by a positive number (Fourier bound, then θ-intervals).
+  pairs is bounded below by a positive number (Fourier bound, then θ-intervals).  For
+  ``n ≥ 3`` and a cost of ``|x − y|`` alone, at ``z = (r, 0, …)`` the form is invariant under the
+  orthogonal maps fixing ``e₁``; by the first fundamental theorem of invariant theory for
+  ``O(n − 1)`` (Weyl, *The Classical Groups*, 1939) a form of bidegree (2, 2) in ``(ξ, η)`` is then
+  a combination of ``a²b², a²|η_t|², |ξ_t|²b², |ξ_t|²|η_t|², (ξ_t·η_t)², ab ξ_t·η_t`` with
+  ``a = ξ₁``, ``b = η₁`` and ``t`` the other coordinates; on orthonormal pairs
+  (``|ξ_t|² = 1 − a²``, ``ξ_t·η_t = −ab``) that is ``c₀ + c₁A + c₂B + c₃AB`` with ``A = a²``,
+  ``B = b²`` ranging over the triangle ``A, B ≥ 0``, ``A + B ≤ 1``.  The four coefficients come from
+  ``S`` at four orthonormal pairs, and a bilinear function's minimum on the triangle lies on its
+  edges: two linear, one quadratic in ``A`` (bounded on ``A``-intervals).
 - **NNCC with a positive minimum** for ``n = 2``: ``A(ξ)`` positive definite for all unit ``ξ``.
 """
 
@@ -23,23 +37,29 @@ from __future__ import annotations
 from ..model.domain import Ball, Box
 from flint import arb
 
-from . import balls, quantities
+from . import balls, quantities, radial
 from .branch_bound import Budget, Outcome, branch_and_bound
 from .dual import Dual, tighten
 from .enclosures import TENSOR_FIELDS
-from .space import space_for
+from .space import radial_frame, radial_space, space_for
 
 
-def _run(cost, fields, coefficients, decide, budget: Budget) -> Outcome:
+def _run(cost, fields, coefficients, decide, budget: Budget, space=None, proved: list | None = None) -> Outcome:
     """Branch and bound where a cell is proved when ``decide(coefficients(fields on cell))`` is a number.
 
     ``coefficients`` is the condition's algebra from the derivative fields to a few numbers
     (a determinant, a quartic's coefficients); it runs on dual numbers over the cell and on
     balls at the cell's middle, and each number is enclosed by the mean-value form.
     """
-    space = space_for(cost, fields)
+    space = space or space_for(cost, fields)
 
     def decide_cell(a, b):
+        value = decide_tight(a, b)
+        if value is not None and proved is not None:
+            proved.append((float(a[0]), float(b[0])))
+        return value
+
+    def decide_tight(a, b):
         over, mid, offsets = space.enclosures.duals_on_cell(a, b)
         if over is None:
             return None
@@ -89,11 +109,33 @@ def _slices_convex(cost) -> bool:
     return isinstance(d.y, (Box, Ball)) and not d.where_y and not d.pairs
 
 
+def _connected(cells: list) -> bool:
+    """The one-dimensional cells (from bisection, so they share exact ends) make one interval."""
+    cells = sorted(cells)
+    return all(a == b_prev for (_, b_prev), (a, _) in zip(cells, cells[1:]))
+
+
+def _radial_twist(cost, budget: Budget, space):
+    """Twist for a cost of ``|x − y|``: ``det D²_xy c ≠ 0`` on a connected cover of the distances."""
+    cells: list = []
+    outcome = _run(cost, ("dxy",), lambda f: [quantities.rank_determinant(f["dxy"])], _nonzero, budget,
+                   space=space, proved=cells)
+    if outcome.proved and not _connected(cells):
+        return None, ("the distances |x − y| the domain allows form several intervals; the radial twist "
+                      "argument needs one")
+    outcome.what = ("det D²_xy c is enclosed away from 0 on every cell of a connected cover of the distances "
+                    "|x − y|, so D_x c = f(r)(x − y)/r has f of one sign and strictly monotone (twist for a cost "
+                    "of |x − y|)")
+    return outcome, ""
+
+
 def twist(cost, budget: Budget):
     if (why := _needs_symbols(cost)) is not None:
         return None, why
     if cost.n != cost.m:
         return None, "the sufficient conditions for twist used here need n = m"
+    if cost.n >= 2 and (radial := radial_space(cost, ("dxy",))) is not None and cost.n <= 3:
+        return _radial_twist(cost, budget, radial)
     if cost.n > 3:
         return None, "definiteness certificates are implemented up to dimension 3"
     if not _slices_convex(cost):
@@ -128,6 +170,11 @@ def _plane_only(cost, what: str) -> str | None:
 
 
 def mtw_strong(cost, budget: Budget):
+    if (why := _needs_symbols(cost)) is None and cost.n == cost.m >= 2:
+        frame = radial_frame(cost)
+        outcome = radial.radial_strong(cost, frame, budget) if frame is not None else None
+        if outcome is not None:
+            return outcome, ""
     if (why := _plane_only(cost, "MTW")) is not None:
         return None, why
 

@@ -193,3 +193,37 @@ def circle_lower_bound(form: list, depth: int = 7) -> float | None:
         middle = (a + b) / 2
         pending += [(a, middle, level + 1), (middle, b, level + 1)]
     return best
+
+
+# ---------------------------------------------------------------- a bilinear form on a triangle (n ≥ 3)
+
+def triangle_lower_bound(coefficients: list, depth: int = 8) -> float | None:
+    """A float ``≤`` the minimum of ``c₀ + c₁A + c₂B + c₃AB`` over ``A, B ≥ 0, A + B ≤ 1``, or None.
+
+    A bilinear function has no interior minimum (its Hessian ``[[0, c₃], [c₃, 0]]`` is indefinite
+    or zero), so the minimum lies on an edge: ``A = 0`` and ``B = 0`` are linear (their ends
+    suffice), and on ``A + B = 1`` the quadratic ``c₀ + c₂ + (c₁ − c₂ + c₃)A − c₃A²`` is enclosed on
+    ``A``-intervals, split adaptively.
+    """
+    c0, c1, c2, c3 = coefficients
+    corners = [c0, c0 + c1, c0 + c2]
+    if not all(balls.positive(v) for v in corners):
+        return None
+    best = min(balls.lower(v) for v in corners)
+    linear, square = c0 + c2, c1 - c2 + c3
+    pending = [(arb(0), arb(1), 0)]
+    while pending:
+        a, b, level = pending.pop()
+        A = a.union(b)
+        middle = (a + b) / 2
+        # the centred form on the interval: q(m) + q'(A)(A − m), intersected with the natural one
+        natural = linear + square * A - c3 * A * A
+        centred = linear + square * middle - c3 * middle * middle + (square - 2 * c3 * A) * (A - middle)
+        value = natural.intersection(centred) if natural.is_finite() and centred.is_finite() else natural
+        if balls.positive(value):
+            best = min(best, balls.lower(value))
+            continue
+        if level >= depth:
+            return None
+        pending += [(a, middle, level + 1), (middle, b, level + 1)]
+    return best

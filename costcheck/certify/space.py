@@ -1,4 +1,4 @@
-"""Where a proof's cells live: pairs ``(x, y)``, or differences ``z = x − y`` for translation-invariant costs.
+"""Where a proof's cells live: pairs ``(x, y)``, differences ``z = x − y``, or distances ``r = |x − y|``.
 
 A cost ``c(x, y) = h(x − y)`` (every power cost, ``sqrt(1 ± |x − y|²)``, ``−log|x − y|`` …) has
 all its derivatives functions of ``z = x − y`` alone, so a property of the derivatives at every
@@ -7,6 +7,16 @@ dimension of the search (``2n`` → ``n``), which turns out-of-reach covers of `
 hundred squares.  The difference box contains ``{x − y}`` for the bounding boxes of ``X`` and ``Y``;
 constraints are kept only where they are functions of ``x − y`` (a superset of the true set of
 differences, which is sound: proving more than needed), and dropped otherwise.
+
+A cost ``c(x, y) = g(|x − y|²)`` is moreover invariant under rotations ``(x, y) ↦ (Rx, Ry)``:
+the fields at ``z = R(r, 0, …)`` are those at ``(r, 0, …)`` turned by ``R``, and every quantity a
+proof certifies is unchanged by that turn (``det D²_xy c``; the eigenvalues of its symmetric
+part; the minimum of ``S(ξ, η)`` over orthonormal pairs, which the turn permutes; the same for
+``A(ξ)``).  So it suffices to prove the quantity at ``z = (r, 0, …)`` for every ``r`` in an
+interval containing ``{|x − y|}``: a one-dimensional cover.  The interval is
+``[dist(0, Z), max |corner of Z|]`` for the difference box ``Z``, cut by those ``pairs``
+constraints that are themselves functions of ``|x − y|²``.  Radial symmetry is recognised
+structurally: ``c(x, x − z)`` rewritten with ``Σ zᵢ²`` replaced by one symbol must keep no ``zᵢ``.
 """
 
 from __future__ import annotations
@@ -82,5 +92,67 @@ def difference_space(cost, fields: Sequence[str]) -> ProofSpace | None:
                       _DifferenceLocator(tests).classify)
 
 
+def _radial(expr, zs, rho) -> bool:
+    """``expr`` is written through ``Σ zᵢ²`` only (structural: the replacement removes every ``zᵢ``)."""
+    squares = sp.Add(*[z**2 for z in zs])
+    return not (expr.subs(squares, rho).free_symbols & set(zs))
+
+
+def _distance_range(z_lo: np.ndarray, z_hi: np.ndarray) -> tuple[float, float]:
+    """``[dist(0, Z), max_Z |z|]`` for the box ``Z = [z_lo, z_hi]``, rounded outward."""
+    near = np.where((z_lo <= 0) & (z_hi >= 0), 0.0, np.minimum(np.abs(z_lo), np.abs(z_hi)))
+    far = np.maximum(np.abs(z_lo), np.abs(z_hi))
+    # each float operation rounds by at most half an ulp: four ulps of slack cover the few of them
+    low = float(np.sqrt(np.sum(near**2))) * (1 - 2**-50)
+    high = float(np.sqrt(np.sum(far**2))) * (1 + 2**-50)
+    return low, high
+
+
+@dataclass
+class RadialFrame:
+    """The distance variable ``r``, the rewrite of ``y`` that puts ``x − y`` at ``(r, 0, …)``, and the cover."""
+    r: sp.Symbol
+    to_axis: dict
+    lo: np.ndarray
+    hi: np.ndarray
+    classify: Callable[[np.ndarray, np.ndarray], str]
+    description: str = ("distances r = |x − y| (the cost is a function of |x − y|: a translation and a rotation "
+                        "carry every pair to z = (r, 0))")
+
+
+def radial_frame(cost) -> RadialFrame | None:
+    """The frame for a cost of ``|x − y|`` alone (``n ≥ 2``), or None."""
+    if cost.n < 2 or not translation_invariant(cost):
+        return None
+    zs, substitution = _difference_substitution(cost)
+    rho = sp.Dummy("rho", nonnegative=True)
+    if not _radial(cost.expr.xreplace(substitution), zs, rho):
+        return None
+    r = sp.Dummy("r", nonnegative=True)
+    on_axis = {z: (r if i == 0 else sp.Integer(0)) for i, z in enumerate(zs)}
+    to_axis = {y: x - on_axis[z] for x, y, z in zip(cost.x_symbols, cost.y_symbols, zs)}
+    lo, hi = bounding_box(cost.domain)
+    n = cost.n
+    z_lo = np.array([math.nextafter(lo[i] - hi[n + i], -math.inf) for i in range(n)])
+    z_hi = np.array([math.nextafter(hi[i] - lo[n + i], math.inf) for i in range(n)])
+    r_lo, r_hi = _distance_range(z_lo, z_hi)
+    tests = []
+    for c in cost.domain.pairs:
+        g = c.inequality.g.xreplace(substitution)
+        if not (g.free_symbols & set(cost.x_symbols)) and _radial(g, zs, rho):
+            tests.append((compile_exprs((g.xreplace(on_axis),), (r,)), c.inequality.strict))
+    return RadialFrame(r, to_axis, np.array([r_lo]), np.array([r_hi]), _DifferenceLocator(tests).classify)
+
+
+def radial_space(cost, fields: Sequence[str]) -> ProofSpace | None:
+    frame = radial_frame(cost)
+    if frame is None:
+        return None
+    enclosures = FieldEnclosures(cost, fields, substitution=frame.to_axis, symbols=(frame.r,))
+    if not enclosures.free_of_others:
+        return None  # a derivative kept x after the rewrite: fall back to the difference space
+    return ProofSpace(frame.description, ["|x-y|"], frame.lo, frame.hi, enclosures, frame.classify)
+
+
 def space_for(cost, fields: Sequence[str]) -> ProofSpace:
-    return difference_space(cost, fields) or pair_space(cost, fields)
+    return radial_space(cost, fields) or difference_space(cost, fields) or pair_space(cost, fields)

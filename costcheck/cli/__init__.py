@@ -51,6 +51,8 @@ def _positive_float(text: str) -> float:
 
 def _add_check_options(command, conditions, default_seed: int, default_budget: int) -> None:
     """The options ``check`` and ``report`` share: which files, and how they are checked."""
+    from ..defaults import DEFAULT_PROOF_CELLS, DEFAULT_PROOF_SECONDS, LONG_PROOF_SECONDS
+
     command.add_argument("paths", nargs="+", metavar="PATH")
     command.add_argument("--seed", type=int, default=default_seed, help=f"random seed (default {default_seed})")
     command.add_argument("--budget", type=_positive_int, default=default_budget,
@@ -62,13 +64,18 @@ def _add_check_options(command, conditions, default_seed: int, default_budget: i
                          help=f"run only this condition (repeatable): {', '.join(conditions)}")
     command.add_argument("--no-cache", action="store_true",
                          help="recompute every result; neither read nor write the result cache")
-    command.add_argument("--prove", action="store_true",
-                         help="try to prove sampled 'holds' verdicts on the whole domain (ball arithmetic, branch "
-                              "and bound; MTW identities); a failed attempt reports the coverage reached")
-    command.add_argument("--prove-seconds", type=_positive_float, default=20.0, metavar="S",
-                         help="time for each condition's proof attempt (default 20)")
-    command.add_argument("--prove-cells", type=_positive_int, default=20000, metavar="N",
-                         help="cells (boxes) for each condition's proof attempt (default 20000)")
+    proofs = command.add_mutually_exclusive_group()
+    proofs.add_argument("--prove", action="store_true",
+                        help=f"spend up to {LONG_PROOF_SECONDS:g} s per condition proving sampled verdicts on the "
+                             f"whole domain (default {DEFAULT_PROOF_SECONDS:g} s; ball arithmetic, branch and bound, "
+                             "MTW identities); an unfinished attempt reports the coverage reached")
+    proofs.add_argument("--quick", action="store_true",
+                        help="sampling only: attempt no proofs (every 'holds' stays sampled evidence)")
+    command.add_argument("--prove-seconds", type=_positive_float, default=None, metavar="S",
+                         help=f"time for each condition's proof attempt (default {DEFAULT_PROOF_SECONDS:g}, "
+                              f"or {LONG_PROOF_SECONDS:g} with --prove)")
+    command.add_argument("--prove-cells", type=_positive_int, default=DEFAULT_PROOF_CELLS, metavar="N",
+                         help=f"cells (boxes) for each condition's proof attempt (default {DEFAULT_PROOF_CELLS})")
 
 
 def _build_parser() -> argparse.ArgumentParser:
@@ -158,8 +165,13 @@ def _run_options(args) -> dict:
     options = {k: v for k, v in vars(args).items() if k not in OUTPUT_ONLY_OPTIONS}
     options["conditions"] = options.pop("only")
     # the proof budget travels as one JSON-able mapping (part of the cache key), or None
-    seconds, cells = options.pop("prove_seconds"), options.pop("prove_cells")
-    options["prove"] = {"seconds": seconds, "cells": cells} if options.pop("prove") else None
+    seconds, cells, long = options.pop("prove_seconds"), options.pop("prove_cells"), options.pop("prove")
+    if options.pop("quick"):
+        options["prove"] = None
+    else:
+        from ..defaults import DEFAULT_PROOF_SECONDS, LONG_PROOF_SECONDS
+        seconds = seconds or (LONG_PROOF_SECONDS if long else DEFAULT_PROOF_SECONDS)
+        options["prove"] = {"seconds": seconds, "cells": cells}
     return options
 
 

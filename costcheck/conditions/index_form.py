@@ -135,33 +135,44 @@ def check(ctx) -> Verdict:
                "threshold": ANGLE_THRESHOLD}
     if largest > ANGLE_THRESHOLD:
         i, k = worst
-        x, y, yp = xs[i], ypool[ref[i]], ypool[k]
-        hp, reason = precision.usable_high_precision(cost, 2, x, y)
-        if hp is None:
-            return undecided(CONDITION, f"the range of D²_xy c turns by sin θ = {largest:.3g} between two sampled y "
-                                        f"in float64, but it could not be confirmed in high precision ({reason})",
-                             **details)
-        val, err = precision.confirm_value(lambda dps: _hp_outside(hp, x, y, yp, dps))
-        if not (mpmath.isfinite(val) and val > err and val > 1e-12):
-            return undecided(CONDITION, f"the range of D²_xy c turns by sin θ = {largest:.3g} in float64, but mpmath "
-                                        "does not confirm it above its error estimate", **details)
-        text = (f"‖M' − M(MᵀM)⁻¹MᵀM'‖_F / ‖M'‖_F = {precision.fmt(val, 8)} ± {precision.fmt(err, 2)} (mpmath at 50 and 80 "
-                "digits) with M = D²_xy c(x, y), M' = D²_xy c(x, y'): part of the range of M' lies outside the range "
-                "of M, so the kernels of Mᵀ and M'ᵀ differ")
-        vectors = {"y_prime": list(map(float, yp))}
-        sides = {"y_prime": "y"}
-        if m == 1:
-            vectors["mixed_hessian_at_y"] = list(map(float, d.dxy[i * K + ref[i], :, 0]))
-            vectors["mixed_hessian_at_y_prime"] = list(map(float, d.dxy[i * K + k, :, 0]))
-            sides.update(mixed_hessian_at_y="x", mixed_hessian_at_y_prime="x")
-        witness = Witness(x=list(map(float, x)), y=list(map(float, y)), value=float(val), error_bound=float(err),
-                          confirmation=text, vectors=vectors, vector_sides=sides)
-        return Verdict(CONDITION, "fails",
-                       Evidence("refuted", "the kernel of D²_xy c(x, y)ᵀ depends on y: at one x two values of y give "
-                                "different kernels (confirmed in high precision); no index I(x) exists on this domain",
-                                samples=count, details=details),
-                       value=float(val), value_meaning=VALUE_MEANING, witness=witness)
+        return _turning_range(cost, xs[i], ypool[ref[i]], ypool[k], d.dxy[i * K + ref[i]], d.dxy[i * K + k],
+                              largest, count, details)
+    return _constant_range(cost, details, count, largest, int(usable_x.sum()), K)
 
+
+def _turning_range(cost, x, y, yp, M, Mp, largest: float, count: int, details: dict) -> Verdict:
+    """The range of ``D²_xy c`` turns between ``y`` and ``y'`` in float64: confirm it in mpmath."""
+    m = cost.m
+    hp, reason = precision.usable_high_precision(cost, 2, x, y)
+    if hp is None:
+        return undecided(CONDITION, f"the range of D²_xy c turns by sin θ = {largest:.3g} between two sampled y "
+                                    f"in float64, but it could not be confirmed in high precision ({reason})",
+                         **details)
+    val, err = precision.confirm_value(lambda dps: _hp_outside(hp, x, y, yp, dps))
+    if not (mpmath.isfinite(val) and val > err and val > 1e-12):
+        return undecided(CONDITION, f"the range of D²_xy c turns by sin θ = {largest:.3g} in float64, but mpmath "
+                                    "does not confirm it above its error estimate", **details)
+    text = (f"‖M' − M(MᵀM)⁻¹MᵀM'‖_F / ‖M'‖_F = {precision.fmt(val, 8)} ± {precision.fmt(err, 2)} (mpmath at 50 and 80 "
+            "digits) with M = D²_xy c(x, y), M' = D²_xy c(x, y'): part of the range of M' lies outside the range "
+            "of M, so the kernels of Mᵀ and M'ᵀ differ")
+    vectors = {"y_prime": list(map(float, yp))}
+    sides = {"y_prime": "y"}
+    if m == 1:
+        vectors["mixed_hessian_at_y"] = list(map(float, M[:, 0]))
+        vectors["mixed_hessian_at_y_prime"] = list(map(float, Mp[:, 0]))
+        sides.update(mixed_hessian_at_y="x", mixed_hessian_at_y_prime="x")
+    witness = Witness(x=list(map(float, x)), y=list(map(float, y)), value=float(val), error_bound=float(err),
+                      confirmation=text, vectors=vectors, vector_sides=sides)
+    return Verdict(CONDITION, "fails",
+                   Evidence("refuted", "the kernel of D²_xy c(x, y)ᵀ depends on y: at one x two values of y give "
+                            "different kernels (confirmed in high precision); no index I(x) exists on this domain",
+                            samples=count, details=details),
+                   value=float(val), value_meaning=VALUE_MEANING, witness=witness)
+
+
+def _constant_range(cost, details: dict, count: int, largest: float, x_count: int, K: int) -> Verdict:
+    """No sampled turn of the range: an exact symbolic index proves it, otherwise sampled evidence."""
+    m = cost.m
     status, found = symbolic_index(cost)
     notes = []
     if status == "ok" and found and found.get("index"):
@@ -184,7 +195,7 @@ def check(ctx) -> Verdict:
         details["direction_field"] = found["direction_field"]
         why += f"; the direction field c_{{x_i y}} / c_{{x_p y}} = ({', '.join(found['direction_field'])}) is free of y"
     details["symbolic"] = why
-    summary = (f"the range of D²_xy c does not turn with y on {count} sampled pairs ({int(usable_x.sum())} x × "
+    summary = (f"the range of D²_xy c does not turn with y on {count} sampled pairs ({x_count} x × "
                f"{K} y; largest sin θ {largest:.2g} ≤ {ANGLE_THRESHOLD:g}); {why}: evidence, not proof")
     return Verdict(CONDITION, "holds", Evidence("sampled", summary, samples=count, details=details),
                    value=largest, value_meaning=VALUE_MEANING, notes=tuple(notes))

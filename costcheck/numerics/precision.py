@@ -196,6 +196,29 @@ def mp_newton_solve(
         return best_u, best_norm, bool(settled)
 
 
+def _central_differences(at: Callable[[list], mpmath.mpf], u: list, f0, h):
+    """Gradient and Hessian of ``at`` at ``u`` (``f0 = at(u)``) by central differences of step ``h``."""
+    d = len(u)
+    grad = mpmath.matrix(d, 1)
+    hess = mpmath.matrix(d, d)
+    for i in range(d):
+        up, um = list(u), list(u)
+        up[i] += h
+        um[i] -= h
+        plus, minus = at(up), at(um)
+        grad[i] = (plus - minus) / (2 * h)
+        hess[i, i] = (plus - 2 * f0 + minus) / (h * h)
+    for i in range(d):
+        for j in range(i + 1, d):
+            pp, pm, mp_, mm = list(u), list(u), list(u), list(u)
+            pp[i] += h; pp[j] += h  # noqa: E702
+            pm[i] += h; pm[j] -= h  # noqa: E702
+            mp_[i] -= h; mp_[j] += h  # noqa: E702
+            mm[i] -= h; mm[j] -= h  # noqa: E702
+            hess[i, j] = hess[j, i] = (at(pp) - at(pm) - at(mp_) + at(mm)) / (4 * h * h)
+    return grad, hess
+
+
 def mp_critical_point(
     value: Callable[[list], mpmath.mpf],
     u0: Sequence,
@@ -239,25 +262,7 @@ def mp_critical_point(
                 best_u, best_val = list(u), abs(f0)
             if f0 == 0 or slow >= 3:
                 break
-            grad = mpmath.matrix(d, 1)
-            hess = mpmath.matrix(d, d)
-            plus, minus = [], []
-            for i in range(d):
-                up, um = list(u), list(u)
-                up[i] += h
-                um[i] -= h
-                plus.append(at(up))
-                minus.append(at(um))
-                grad[i] = (plus[i] - minus[i]) / (2 * h)
-                hess[i, i] = (plus[i] - 2 * f0 + minus[i]) / (h * h)
-            for i in range(d):
-                for j in range(i + 1, d):
-                    pp, pm, mp_, mm = list(u), list(u), list(u), list(u)
-                    pp[i] += h; pp[j] += h  # noqa: E702
-                    pm[i] += h; pm[j] -= h  # noqa: E702
-                    mp_[i] -= h; mp_[j] += h  # noqa: E702
-                    mm[i] -= h; mm[j] -= h  # noqa: E702
-                    hess[i, j] = hess[j, i] = (at(pp) - at(pm) - at(mp_) + at(mm)) / (4 * h * h)
+            grad, hess = _central_differences(at, u, f0, h)
             if not all(mpmath.isfinite(v) for v in list(grad) + list(hess)):
                 break
             if mp_norm(list(grad)) == 0:
