@@ -1,4 +1,4 @@
-"""The shipped cost catalog (``catalog/``): it loads, it covers the reference table, and
+"""The shipped cost catalog (``catalog/``): it loads, it covers the check-value table, and
 the checkers reproduce every published verdict it records.
 
 Three groups of tests:
@@ -8,8 +8,8 @@ Three groups of tests:
 (b) every ``(file, condition)`` pair in a file's ``expect`` is its own test case (ids like
     ``euclidean/sq-euclid.yaml::mtw``) that runs the condition check and compares the
     verdict with the expectation;
-(c) the catalog covers every row of the check-value table of the team reference
-    (``shared/reference/conditions.md``): :data:`REFERENCE_ROWS` maps each row to the
+(c) the catalog covers every row of the check-value table (``docs/check-values.md``, which
+    ``tests/test_docs.py`` keeps equal to it): :data:`REFERENCE_ROWS` maps each row to the
     files that exercise it, and each such file's ``expect`` must agree with the row and
     its ``source`` must name the row's source.
 
@@ -40,7 +40,7 @@ BUDGET = 1024
 FILES = find_cost_files([CATALOG]) if CATALOG.is_dir() else []
 
 
-#: conditions outside the reference table's columns (c-convexity of the domains, Loeper's principle)
+#: conditions outside the check-value table's columns (c-convexity of the domains, Loeper's principle)
 GEOMETRY_CONDITIONS = {"target_c_convex", "source_c_convex", "loeper"}
 
 
@@ -107,7 +107,7 @@ CASES = [(rel(path), condition) for path in FILES for condition in load(rel(path
 @pytest.mark.parametrize(("relpath", "condition"), CASES, ids=[f"{r}::{c}" for r, c in CASES])
 def test_published_verdict(relpath, condition):
     # The source of each case is the file's `source` field (the paper and year, as the
-    # reference table names it; "computed here" / "(from memory)" where the table says so).
+    # check-value table names it; "computed here" / "(from memory)" where the table says so).
     # It is repeated in every assertion message, so a failing case names the published
     # result it disagrees with.
     from costcheck.run.runner import run_checks
@@ -132,7 +132,7 @@ def test_published_verdict(relpath, condition):
 
 @dataclass(frozen=True)
 class Row:
-    """One row of the reference check-value table."""
+    """One row of the check-value table (docs/check-values.md)."""
 
     #: the row's verdicts; a '—' entry of the table is simply absent
     verdicts: dict
@@ -221,7 +221,7 @@ ROW_FILES = [(row, f) for row, spec in REFERENCE_ROWS.items() for f in spec.file
 
 
 def test_every_reference_row_is_covered():
-    assert len(REFERENCE_ROWS) == 13, "the reference check-value table has 13 rows"
+    assert len(REFERENCE_ROWS) == 13, "the check-value table has 13 rows"
     for row, spec in REFERENCE_ROWS.items():
         assert spec.files, f"no catalog file covers the row {row!r}"
         missing = [f for f in spec.files if not (CATALOG / f).is_file()]
@@ -229,7 +229,7 @@ def test_every_reference_row_is_covered():
 
 
 #: demo scenarios with invented data (a ``data:`` key, ``demo`` tag): nestedness examples of our own,
-#: not rows of the reference table; their expectations are still test cases in group (b)
+#: not rows of the check-value table; their expectations are still test cases in group (b)
 DEMO_FILES = {rel(p) for p in FILES if raw(rel(p)).get("data") and "demo" in (raw(rel(p)).get("tags") or [])}
 
 
@@ -242,7 +242,7 @@ def test_demo_files_say_their_data_is_invented():
 def test_every_file_belongs_to_a_row():
     mapped = {f for _, f in ROW_FILES} | DEMO_FILES
     unmapped = sorted(set(rel(p) for p in FILES) - mapped)
-    assert not unmapped, f"catalog files not mapped to a reference row: {unmapped}"
+    assert not unmapped, f"catalog files not mapped to a check-value row: {unmapped}"
 
 
 def test_family_has_four_parameter_values():
@@ -256,7 +256,7 @@ def test_file_agrees_with_its_row(row, relpath):
     spec = REFERENCE_ROWS[row]
     cost = load(relpath)
     # only the row's verdicts, and exactly them: a '—' entry of the table is never expected
-    # the domain-geometry conditions are not columns of the reference table; a file that expects
+    # the domain-geometry conditions are not columns of the check-value table; a file that expects
     # them names their own source (textbook fact or theorem) in its `source` field
     extra = sorted(set(cost.expect) - set(spec.verdicts) - GEOMETRY_CONDITIONS)
     assert not extra, f"{relpath} expects {extra}, which the row {row!r} leaves open ('—')"

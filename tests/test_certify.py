@@ -174,7 +174,7 @@ def _sq_euclid_plus(term: str):
 
 
 def test_a_proved_strong_mtw_bound_is_below_every_sampled_margin():
-    # sqrt(1 + |x - y|^2) on a small box: MTW strong (reference table; MTW 2005), proved here; the
+    # sqrt(1 + |x - y|^2) on a small box: MTW strong (check-value table, docs/check-values.md; MTW 2005), proved here; the
     # certified κ must lie below S at every sampled orthogonal unit pair (float64, exact quartic)
     cost = costcheck.from_expression("sqrt(1 + (x1 - y1)**2 + (x2 - y2)**2)", x=["x1", "x2"], y=["y1", "y2"],
                                      domain={"x": {"box": [[0, 0.1], [0, 0.1]]}, "y": {"box": [[0, 0.1], [0, 0.1]]}})
@@ -188,7 +188,7 @@ def test_a_proved_strong_mtw_bound_is_below_every_sampled_margin():
 
 
 def test_vanishing_tensor_is_proved_by_identity_and_a_non_vanishing_one_is_not():
-    # |x - y|²/2 + separable terms: T ≡ 0 (Kim–McCann 2010; the reference's invariances)
+    # |x - y|²/2 + separable terms: T ≡ 0 (Kim–McCann 2010; invariances, docs/conditions.md#mtw)
     ok, text = identity.tensor_vanishes(_sq_euclid_plus("sin(x1) + exp(y2)"), 20)
     assert ok, text
     ok, text = identity.tensor_vanishes(_sq_euclid_plus("x1**2 * y1**2"), 5)
@@ -228,7 +228,7 @@ def test_catalog_proofs_are_reached_where_they_should_be(proved_reports):
     assert v["nondegenerate"].evidence.kind == "proved" and v["twist"].evidence.kind == "proved"
     assert v["mtw"].verdict == "weak" and v["mtw"].evidence.kind == "proved"
     assert v["nncc"].evidence.kind == "proved"
-    # c_xy = −cos(x − y) changes sign on [0, 4]: the witness is certified (reference table, degenerate row)
+    # c_xy = −cos(x − y) changes sign on [0, 4]: the witness is certified (check-value table, degenerate row)
     v = proved_reports["degenerate/neg-cos-1d.yaml"].verdicts
     assert v["nondegenerate"].verdict == "fails" and v["nondegenerate"].evidence.kind == "refuted"
     assert "enclosure" in v["nondegenerate"].evidence.details

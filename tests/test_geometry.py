@@ -146,7 +146,7 @@ def test_one_dimensional_intervals_are_c_convex():
 
 # The cross-check of Loeper 2009 (Acta Math. 202): A3w fails ⇒ the maximum principle fails
 # (local, no c-convexity needed); A3w holds on c-convex domains ⇒ it holds.  The MTW verdicts
-# of these catalog costs are the reference table's (MTW 2005; Loeper 2009; "computed here" for
+# of these catalog costs are the check-value table's (docs/check-values.md: MTW 2005; Loeper 2009; "computed here" for
 # p = -3, whose scale-free MTW margin is only about -0.0012 to -0.002).
 CROSS = ["euclidean/sq-euclid.yaml", "euclidean/neg-inner.yaml", "euclidean/power-3.yaml",
          "euclidean/power-minus3.yaml", "euclidean/power-minus0.5.yaml", "euclidean/neg-sqrt-one-plus.yaml"]

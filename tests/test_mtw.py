@@ -4,7 +4,7 @@ Every assertion that compares with the outside world names its source in a comme
 "computed here" were derived for this project (independently of the code under test where
 the comment says so) and are not taken from a publication.
 
-Costs are minimised; positive MTW is good (shared/reference/conditions.md).
+Costs are minimised; positive MTW is good (docs/conditions.md#sign-convention).
 """
 
 from __future__ import annotations
@@ -97,7 +97,7 @@ def test_mtw_not_applicable_for_unequal_dimensions_and_n1():
     assert out["nncc"].verdict == "holds" and out["nncc"].value == 0.0
 
 
-# --------------------------------------------------------------------------- the reference's check values
+# --------------------------------------------------------------------------- the published check values (docs/check-values.md)
 
 def test_quadratic_cost_is_weak_and_nncc_holds():
     out = verdicts(f"{R2} / 2")
@@ -125,7 +125,7 @@ def test_power_cost_half_is_strong_and_not_nncc():
     # MTW 2005; Trudinger–Wang 2009: -(1/p)|x-y|^p with -2 < p < 1 satisfies A3s
     assert out["mtw"].verdict == "strong", out["mtw"].evidence.summary
     assert out["mtw"].value > 1e-3 and out["mtw"].evidence.kind == "sampled"
-    # reference table, NNCC column "computed here": fails for this family
+    # check-value table, NNCC column "computed here": fails for this family
     assert_refuted(out["nncc"], orthogonal=False)
 
 
@@ -140,11 +140,11 @@ def test_power_cost_half_with_a_pair_constraint():
 
 def test_power_cost_minus_two_is_weak_not_strong():
     out = verdicts(power_cost("-2"), "UNIT", "FAR")
-    # reference table: p = -2 is the boundary case, weak but not strong — the reference marks this
+    # check-value table: p = -2 is the boundary case, weak but not strong — the table marks this
     # "from memory"; computed here: the scale-free margin is 0 to rounding (~1e-16) at every pair
     assert out["mtw"].verdict == "weak", out["mtw"].evidence.summary
     assert abs(out["mtw"].value) < 1e-12
-    # reference table (NNCC computed here): fails
+    # check-value table (NNCC computed here): fails
     assert_refuted(out["nncc"], orthogonal=False)
 
 
@@ -159,7 +159,7 @@ def test_power_cost_above_one_fails(p):
 
 def test_power_cost_minus_three_fails():
     out = verdicts(power_cost("-3"), "UNIT", "FAR")
-    # reference table, "computed here" for p < -2: A3w fails.  The scale-free margin is our own
+    # check-value table, "computed here" for p < -2: A3w fails.  The scale-free margin is our own
     # definition (S / (scale·|M⁻¹η|²)), so its value is a regression figure computed here, -0.005517
     assert_refuted(out["mtw"], orthogonal=True)
     assert out["mtw"].value == pytest.approx(-0.0055171, abs=5e-6)
@@ -168,7 +168,7 @@ def test_power_cost_minus_three_fails():
 def test_sqrt_one_plus_distance_squared_and_its_negative():
     # MTW 2005: sqrt(1 + |x-y|^2) satisfies A3s
     assert verdicts(f"sqrt(1 + {R2})")["mtw"].verdict == "strong"
-    # reference table: the sign flip -sqrt(1 + |x-y|^2) fails
+    # check-value table: the sign flip -sqrt(1 + |x-y|^2) fails
     assert_refuted(verdicts(f"-sqrt(1 + {R2})")["mtw"], orthogonal=True)
 
 
@@ -284,7 +284,7 @@ def test_margins_match_brute_force(n):
     d = _random_derivs(n, 40, rng)
     T, scale = algebra.mtw_tensor(d)
     inv = np.linalg.inv(d.dxy)
-    # the tensor formula written out directly (reference: T = c_{ij,r} c^{r,s} c_{s,kl} - c_{ij,kl})
+    # the tensor formula written out directly (docs/conditions.md#mtw: T = c_{ij,r} c^{r,s} c_{s,kl} - c_{ij,kl})
     direct = np.zeros_like(T)
     for i, j, k, l in itertools.product(range(n), repeat=4):
         direct[:, i, j, k, l] = sum(d.dxxy[:, i, j, r] * inv[:, r, s] * d.dxyy[:, s, k, l]

@@ -1,7 +1,7 @@
 """Parameter sweeps: --vary parsing, boundary location on the power family, Dask, CLI, plots.
 
 The family ``-(1/p)|x-y|^p`` (catalog/euclidean/power-0.5.yaml, p varied) has published MTW
-check values (reference table): strong for -2 < p < 1 (p ≠ 0), weak at p = -2, fails for
+check values (docs/check-values.md): strong for -2 < p < 1 (p ≠ 0), weak at p = -2, fails for
 p < -2 and for p > 1 (p ≠ 2); p = 2 is the quadratic cost (weak, S ≡ 0); p = 1 is |x - y|
 (degenerate).  Budgets are small to keep this file quick.
 """
@@ -71,7 +71,7 @@ def _boundary(result, condition, lo, hi):
 
 def test_mtw_boundary_at_p_minus_2(power_sweep):
     # MTW 2005; Trudinger–Wang 2009: strong for -2 < p < 1; p = -2 weak, not strong
-    # (the reference marks p = -2 "from memory"); p < -2 fails (computed here, per the reference).
+    # (the check-value table marks p = -2 "from memory"); p < -2 fails (computed here, per the table).
     left = _boundary(power_sweep, "mtw", -2.1, -2.0)
     assert (left["from"], left["to"]) == ("fails", "weak")
     a, b = left["interval"]
@@ -85,7 +85,7 @@ def test_mtw_boundary_at_p_minus_2(power_sweep):
 
 
 def test_boundaries_at_p_1(power_sweep):
-    # At p = 1 exactly the cost is |x - y|: non-degeneracy fails there (elementary; reference table),
+    # At p = 1 exactly the cost is |x - y|: non-degeneracy fails there (elementary; check-value table),
     # holds on both sides (|det D²_xy c| = |p - 1| |x - y|^(2p-4)); located within the tolerance.
     below = _boundary(power_sweep, "nondegenerate", 0.9, 1.0)
     above = _boundary(power_sweep, "nondegenerate", 1.0, 1.1)

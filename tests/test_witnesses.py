@@ -3,7 +3,7 @@
 The re-evaluation here shares no code with the checks: it differentiates the cost's
 sympy expression directly, substitutes the witness coordinates as exact rationals (the
 binary values of the printed floats) and evaluates with ``evalf`` at 40 digits.  The
-quantities are the reference's definitions (``shared/reference/conditions.md``):
+quantities are the definitions of ``docs/conditions.md``:
 
 - twist: ``D_x c(x, y) = D_x c(x, y')`` with ``y != y'``;
 - non-degeneracy: ``det D²_xy c(x, y) = 0``;
@@ -141,7 +141,7 @@ def test_failing_witness_reevaluated(path, condition):
     elif condition == "nested":
         _check_nested_witness(cost, w)
     elif condition == "loeper":
-        # Loeper's maximum principle (Loeper 2009; reference): along the c-segment w.r.t. x,
+        # Loeper's maximum principle (Loeper 2009; docs/conditions.md#loeper): along the c-segment w.r.t. x,
         # f(t) = c(x, y_t) - c(x', y_t) rises above max(f(0), f(1)); y_t must lie on the segment,
         # i.e. -D_x c(x, y_t) = (1 - t) p0 + t p1 (checked from the expression, not the search)
         xp, y0, y1 = w.vectors["x_prime"], w.vectors["y0"], w.vectors["y1"]

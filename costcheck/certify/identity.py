@@ -2,7 +2,7 @@
 
 For a cost ``c = −φ(x)·ψ(y) + f(x) + g(y)`` (bilinear in transformed coordinates, plus
 separable terms) the tensor ``T_{ijkl}`` is identically zero (Kim–McCann, JEMS 12, 2010;
-the reference's invariances), so ``S(ξ, η) = 0`` for every ``ξ, η`` wherever ``M`` is
+the invariances in docs/conditions.md#mtw), so ``S(ξ, η) = 0`` for every ``ξ, η`` wherever ``M`` is
 invertible: A3w and NNCC hold with equality, A3s fails.  sympy is asked to simplify each
 component to ``0`` within a time limit; if any component is not shown to be zero in time,
 the attempt gives up and says so — no verdict is drawn from a timeout.

@@ -6,7 +6,7 @@ without an implemented certificate, a domain the sufficient condition does not c
 
 - **Non-degeneracy** (A2): ``det M ≠ 0`` on every cell (``det MᵀM`` when ``n > m``, ``det MMᵀ``
   when ``n < m``).  Each cell's ball excludes 0; nothing else is needed.
-- **Twist** (A1), by a sufficient condition on the whole domain (reference; Gangbo–McCann,
+- **Twist** (A1), by a sufficient condition on the whole domain (docs/conditions.md#twist; Gangbo–McCann,
   Acta Math. 177, 1996, for the monotone-map argument): for ``n = m = 1``, ``c_xy ≠ 0`` with
   every y-slice an interval; for ``n = m ≥ 2``, the symmetric part of ``M(x, ·)`` definite
   with every y-slice convex: then ``⟨D_x c(x, y₁) − D_x c(x, y₀), y₁ − y₀⟩ =

@@ -3,7 +3,7 @@
 Everything here is plain algebra on ``arb`` balls (or on :class:`~.dual.Dual` numbers over
 them: the functions use only ``+ − × ÷``) — determinants, the inverse of the mixed
 Hessian, the MTW tensor, and its forms on the circle for ``n = 2`` — so an enclosure of the
-inputs gives an enclosure of the output.  Formulas follow the reference's conventions:
+inputs gives an enclosure of the output.  Formulas follow the conventions of docs/conditions.md:
 
     T_{ijkl} = Σ_{r,s} c_{ij,r} c^{r,s} c_{s,kl} − c_{ij,kl}     (Ma–Trudinger–Wang, ARMA 177, 2005)
     S(ξ, η)  = Σ T_{ijkl} ξ_i ξ_j η'_k η'_l,   η' = M⁻¹ η

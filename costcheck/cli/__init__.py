@@ -100,6 +100,8 @@ def _build_parser() -> argparse.ArgumentParser:
     for command in (check, report):
         _add_check_options(command, REGISTRY, DEFAULT_SEED, DEFAULT_BUDGET)
 
+    explain = sub.add_parser("explain", help="explain a condition, a code or a term (the entry of docs/)")
+    explain.add_argument("name", nargs="?", metavar="CONDITION|CODE", help="e.g. mtw, M302, sampled; none: list all")
     sub.add_parser("schema", help="print the JSON Schema of cost files (draft 2020-12)")
     new = sub.add_parser("new", help="write a commented template cost file NAME.yaml to start from")
     new.add_argument("name", metavar="NAME", help="file to write (.yaml is added if missing); its stem is the id")
@@ -459,6 +461,10 @@ def main(argv: Sequence[str] | None = None) -> int:
             return _cmd_schema(args)
         if args.command == "new":
             return _cmd_new(args, out)
+        if args.command == "explain":
+            from .explain import run as explain
+
+            return explain(args.name)
     except CostcheckError as exc:
         _error(exc)
         return EXIT_BAD_INPUT

@@ -3,8 +3,8 @@
 A cost is of **index form** when ``c(x, y) = b(I(x), y) + f(x)`` with ``I : X → R^m``; then
 ``D²_xy c(x, y) = D I(x) · D²_{Iy} b(I(x), y)`` and the directions ``v`` in ``x``-space with
 ``vᵀ D²_xy c(x, y) = 0`` — the kernel of ``D²_xy c(x, y)ᵀ``, the directions that do not see
-``y`` — are ``(range D I(x))^⊥`` for every ``y``.  Locally the converse holds too (recalled in
-the team reference from Pass, Math. Res. Lett. 2012; used by Chiappori–McCann–Pass, Comm.
+``y`` — are ``(range D I(x))^⊥`` for every ``y``.  Locally the converse holds too (recalled
+from Pass, Math. Res. Lett. 2012, see docs/conditions.md#index_form; used by Chiappori–McCann–Pass, Comm.
 Pure Appl. Math. 70, 2017, where index costs reduce the ``n``-to-``m`` problem to an
 ``m``-to-``m`` one and are nested for all data).  Equivalently the range of ``M = D²_xy c``
 (an ``m``-plane in ``R^n``) does not turn as ``y`` moves.

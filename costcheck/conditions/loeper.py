@@ -11,7 +11,7 @@ c-segment ``t ↦ y_t`` with respect to ``x`` (``-D_x c(x, y_t) = (1 - t) p0 + t
     f(t) := c(x, y_t) - c(x', y_t)   satisfies   f(t) <= max(f(0), f(1))   on [0, 1].
 
 (``-f`` is the "sliding mountain" ``y ↦ -c(x', y) + c(x, y)`` of Villani's picture read along
-the segment; the sign is the reference's: ``f(t) = c(x, y_t) - c(x', y_t)``.)  Only the cost
+the segment; the sign of docs/conditions.md#loeper: ``f(t) = c(x, y_t) - c(x', y_t)``.)  Only the cost
 and its first and second derivatives (for Newton) enter, never the fourth derivatives of the
 tensor, so this is an independent cross-check of :mod:`.mtw`.  The direction "A3w fails ⇒ a
 violation exists" is local and needs no convexity of the domains (Loeper 2009, §4): a

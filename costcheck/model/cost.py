@@ -1,7 +1,7 @@
 """The validated, symbolic form of one cost: what every later step of the pipeline reads.
 
 A :class:`Cost` is always a cost to be *minimised*: a surplus ``s`` from a file with
-``sense: surplus`` is stored as ``c = -s`` (the reference's sign convention), and
+``sense: surplus`` is stored as ``c = -s`` (the sign convention of docs/conditions.md), and
 ``sense`` is kept only so reports can say what the user wrote.
 """
 

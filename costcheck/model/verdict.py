@@ -1,6 +1,6 @@
 """Verdicts with their evidence: what every condition check returns and every renderer reads.
 
-The evidence vocabulary is the reference's, and the three kinds are never blurred:
+The evidence vocabulary (``docs/evidence.md``); the three kinds are never blurred:
 
 - ``proved``: a certificate over the whole declared domain;
 - ``refuted``: a witness re-evaluated in high precision (or exactly), with its error bound;
@@ -11,8 +11,10 @@ condition is not defined for this cost, e.g. MTW when ``n != m``) and
 ``undecided`` (the check ran but could not decide, e.g. the cost is undefined
 on every sample).
 
-Each outcome carries a stable diagnostic ``code`` (see :data:`CODES`), so scripts can
-match on it across versions the way linters' users match on rule codes.
+Each outcome carries a stable ``code`` (see :data:`CODES`), so scripts can match on it across
+versions; :data:`CODE_MEANINGS` says each in words and :func:`docs_links` points to its entry in
+the repository's ``docs/`` (``docs/evidence.md`` for the evidence kinds, ``docs/codes.md`` for
+the codes), which ``costcheck explain`` prints.
 """
 
 from __future__ import annotations
@@ -65,8 +67,58 @@ CODES: dict[tuple[str, str], str] = {
 }
 
 
+#: the code given to an outcome missing from :data:`CODES` (a bug: every outcome a check returns has one)
+UNLISTED_CODE = "X999"
+
+#: each code in words, so that a reader of the JSON needs no table; ``docs/codes.md`` opens each
+#: code's entry with exactly this text (``tests/test_docs.py`` keeps the two equal)
+CODE_MEANINGS: dict[str, str] = {
+    "T100": "twist holds: y ↦ D_x c(x, y) is one-to-one on Y for every x",
+    "T101": "twist fails: two targets y ≠ y' with D_x c(x, y) = D_x c(x, y')",
+    "T109": "twist undecided: the check could not reach a verdict",
+    "N200": "non-degeneracy holds: the mixed Hessian D²_xy c has full rank",
+    "N201": "non-degeneracy fails: the mixed Hessian D²_xy c loses rank at a point",
+    "N209": "non-degeneracy undecided: the check could not reach a verdict",
+    "M300": "MTW strong (A3s): S(ξ, η) > 0 for every ξ ⊥ η",
+    "M301": "MTW weak (A3w), not strong: S(ξ, η) ≥ 0 for ξ ⊥ η, with minimum 0 in tolerance",
+    "M302": "MTW fails: S(ξ, η) < 0 for some ξ ⊥ η",
+    "M308": "MTW not applicable: n ≠ m, or n = m = 1",
+    "M309": "MTW undecided: the check could not reach a verdict",
+    "K400": "non-negative cross-curvature holds: S(ξ, η) ≥ 0 for all ξ, η",
+    "K401": "non-negative cross-curvature fails: S(ξ, η) < 0 for some ξ, η",
+    "K408": "cross-curvature not applicable: n ≠ m",
+    "K409": "cross-curvature undecided: the check could not reach a verdict",
+    "Y600": "the target domain Y is c-convex with respect to X",
+    "Y601": "the target domain Y is not c-convex: a c-segment leaves it",
+    "Y608": "c-convexity of Y not applicable: n ≠ m, or c-segments are not defined",
+    "Y609": "c-convexity of Y undecided: the check could not reach a verdict",
+    "X700": "the source domain X is c-convex with respect to Y",
+    "X701": "the source domain X is not c-convex: a c-segment leaves it",
+    "X708": "c-convexity of X not applicable: n ≠ m, or c-segments are not defined",
+    "X709": "c-convexity of X undecided: the check could not reach a verdict",
+    "L800": "Loeper's maximum principle holds: f(t) ≤ max(f(0), f(1)) on every c-segment",
+    "L801": "Loeper's maximum principle fails: f rises above both ends of a c-segment",
+    "L808": "Loeper's maximum principle not applicable: n ≠ m, or c-segments are not defined",
+    "L809": "Loeper's maximum principle undecided: the check could not reach a verdict",
+    "I900": "index form holds: the kernel of D²_xy cᵀ does not depend on y",
+    "I901": "index form fails: the kernel of D²_xy cᵀ moves with y",
+    "I908": "index form not applicable: it is asked only when n > m",
+    "I909": "index form undecided: the check could not reach a verdict",
+    "J950": "the model is nested: the sets X≤(y, k(y)) grow strictly with y",
+    "J951": "the model is not nested: two level curves cross",
+    "J958": "nestedness not applicable: it needs m = 1 and both distributions",
+    "J959": "nestedness undecided: the check could not reach a verdict",
+    UNLISTED_CODE: "an outcome with no code of its own (a defect of costcheck: please report it)",
+}
+
+
 def code_for(condition: str, verdict: str) -> str:
-    return CODES.get((condition, verdict), "X999")
+    return CODES.get((condition, verdict), UNLISTED_CODE)
+
+
+def docs_links(condition: str, code: str) -> dict[str, str]:
+    """Where the condition and the code are explained: repository paths with anchors (stable)."""
+    return {"condition": f"docs/conditions.md#{condition}", "code": f"docs/codes.md#{code.lower()}"}
 
 
 @dataclass(frozen=True)
@@ -170,6 +222,8 @@ class Verdict:
         return {
             "verdict": self.verdict,
             "code": self.code,
+            "code_meaning": CODE_MEANINGS[self.code],
+            "docs": docs_links(self.condition, self.code),
             "evidence": self.evidence.to_json(),
             "value": None if self.value is None else float(self.value),
             "value_meaning": self.value_meaning,

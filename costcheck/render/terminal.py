@@ -96,3 +96,6 @@ def render_summary(console: Console, reports: list[CostReport], errors: list[Cos
     if sampled:
         console.print(Text("'sampled' verdicts found no counterexample among the samples: evidence, not proof.",
                            style="dim"))
+    if reports:
+        console.print(Text("What a code or word means: costcheck explain NAME (e.g. M302, sampled; see docs/).",
+                           style="dim"))

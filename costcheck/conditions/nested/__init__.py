@@ -12,7 +12,7 @@ surplus ``s`` that is maximised; costcheck stores the cost ``c = -s`` it minimis
 - the model is **nested** when ``y < y'`` with ``ν((y, y']) > 0`` implies
   ``X≤(y, k+(y)) ⊂ X<(y', k-(y'))``.  Then ``T(x) = y`` on the level set
   ``{∂s/∂y(x, y) = k(y)}`` is well defined μ-almost everywhere, pushes ``μ`` to ``ν`` and is
-  the unique optimal map (CMP 2017, their main theorem on nested models; recalled, see the team reference).  A witness of
+  the unique optimal map (CMP 2017, their main theorem on nested models; recalled; docs/conditions.md#nested).  A witness of
   non-nestedness is ``y < y'`` and a source point in ``X≤(y, k+(y))`` but not in
   ``X<(y', k-(y'))``: the level curves cross.
 

@@ -3,7 +3,7 @@
 For ``n = m`` this is ``det M(x, y) ≠ 0``; for ``n > m`` it is ``rank M = m``
 (Ma–Trudinger–Wang, ARMA 177, 2005, condition A2; for unequal dimensions
 Pass, Math. Res. Lett., 2012; Chiappori–McCann–Pass, CPAM 70, 2017).  For ``n < m``,
-which the reference does not define, full rank ``min(n, m) = n`` is checked (the same
+for which the literature gives no definition (docs/conditions.md#nondegenerate), full rank ``min(n, m) = n`` is checked (the same
 condition with the roles of ``x`` and ``y`` exchanged) and a note says so.
 
 The scale-free measure
@@ -211,7 +211,7 @@ def check(ctx) -> Verdict:
     samples = _scale(st, ctx)
     notes = []
     if st.n < st.m:
-        notes.append("n < m: the reference defines non-degeneracy for n ≥ m; full rank min(n, m) = n of M "
+        notes.append("n < m: non-degeneracy is defined for n ≥ m (docs/conditions.md#nondegenerate); full rank min(n, m) = n of M "
                      "(non-degeneracy with the roles of x and y exchanged) was checked")
 
     # 1. sign changes between sampled pairs

@@ -42,7 +42,7 @@ the symmetric part of ``Q · D²_{xy}c(x, ·)`` definite for one ``Q`` per ``x``
 ``-I`` (``n = m``) and ``M(x, y_c)⁺`` (``y_c`` the centre of ``Y``) — by
 ``(y - y')ᵀ Q (D_x c(x, y) - D_x c(x, y')) = ∫₀¹ (y - y')ᵀ Q M(x, y_t)(y - y') dt > 0`` along the
 segment ``y_t`` from ``y'`` to ``y`` (elementary: the fundamental theorem of calculus; the
-condition is the one recorded in the team's reference); otherwise "no collision found in
+condition is the one stated in docs/conditions.md#twist); otherwise "no collision found in
 N x-samples × K y-samples and L local searches: evidence, not proof".
 
 Modules

@@ -2,8 +2,8 @@
 
 Everything here is a function of arrays in, arrays out (no hidden state), batched
 over ``N`` pairs ``(x, y)``; the field shapes are those of
-:class:`costcheck.derivatives.Derivatives`.  The mathematics follows
-``shared/reference/conditions.md``:
+:class:`costcheck.derivatives.Derivatives`.  The mathematics is that of
+``docs/conditions.md`` (section ``mtw``):
 
     T_{ijkl} = sum_{r,s} c_{ij,r} c^{r,s} c_{s,kl} - c_{ij,kl},     c^{r,s} = (M^{-1})[r, s]
     S(ξ, η)  = sum T_{ijkl} ξ_i ξ_j η'_k η'_l,                        η' = M^{-1} η
@@ -21,13 +21,16 @@ covector ``η``, with ``A(ξ)_{kl} = sum_ij T_{ijkl} ξ_i ξ_j``.  Margins:
 * A3w (weak MTW): ``min_{|ξ|=1} λ_min(Q_ξ restricted to ξ^⊥)``;
 * NNCC (non-negative cross-curvature): ``min_{|ξ|=1} λ_min(Q_ξ)``.
 
-**Scale-free margins.**  ``|S(ξ, η)| <= ||T||_F |η'|^2 <= scale * ||M^{-1}||_2^2`` for unit
-``ξ, η``, where ``scale = ||c_{ij,r} c^{r,s} c_{s,kl}||_F + ||c_{ij,kl}||_F`` is the size of the
-two terms whose difference is ``T``.  The scale-free margin
-``margin / (scale * ||M^{-1}||_2^2)`` therefore lies in ``[-1, 1]``, does not change when the
-cost is multiplied by a positive constant, and measures the margin against the size of the
-terms that cancel to make it: a value near ``1e-16`` is rounding, a value of ``-0.005`` is a
-half-percent violation.  Where ``scale == 0`` (``T`` vanishes exactly) the margin is exactly 0.
+**Scale-free margins** (:func:`algebra.finish`).  For unit ``ξ`` and the minimising unit covector
+``η``, ``S(ξ, η) / |M^{-1} η|^2`` is ``T`` on the unit vectors ``ξ`` and ``η' / |η'|``, so
+``|S(ξ, η)| <= scale * |M^{-1} η|^2`` with ``scale = ||c_{ij,r} c^{r,s} c_{s,kl}||_F + ||c_{ij,kl}||_F``,
+the size of the two terms whose difference is ``T``.  The scale-free margin
+``margin / (scale * |M^{-1} η|^2)`` therefore lies in ``[-1, 1]``, does not change when the
+cost is multiplied by a positive constant, does not depend on the conditioning of ``M``, and
+measures the margin against the size of the terms that cancel to make it: a value near
+``1e-16`` is rounding, a value of ``-0.005`` is a half-percent violation.  Where ``scale == 0``
+(``T`` vanishes exactly) the margin is exactly 0.  (Dividing by ``||M^{-1}||_2^2`` instead made
+strong costs next to a degenerate one read as weak; see ``docs/evidence.md#margins``.)
 
 For ``n = 2`` the A3w margin is exact: with ``ξ = (cos θ, sin θ)`` and ``η = (-sin θ, cos θ)``,
 ``S(θ)`` is a homogeneous quartic in ``(cos θ, sin θ)`` whose minimum is found exactly, with a

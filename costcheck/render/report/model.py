@@ -2,7 +2,7 @@
 
 Every sentence of the report is built here from the :class:`~costcheck.model.verdict.Verdict` and
 :class:`~costcheck.model.verdict.Evidence` objects, so the two renderers cannot drift apart in what
-they claim.  The wording keeps the evidence kinds apart (the reference's vocabulary):
+they claim.  The wording keeps the evidence kinds apart (the vocabulary of docs/evidence.md):
 "proved on the whole domain" only for ``proved``; "refuted at …" names the confirmed witness;
 a ``sampled`` verdict says how many samples found no counterexample, and the page carries a
 caution that this is evidence, not proof.

@@ -6,7 +6,7 @@ The A3w (weak MTW) margin at one pair ``(x, y)`` is
 
 with ``G`` from :func:`costcheck.numerics.curvature.margins.eta_form_tensor` (symmetric in ``(i, j)`` and in
 ``(a, b)``; Ma, Trudinger & Wang, Arch. Ration. Mech. Anal. 177 (2005) 151–183; see
-``shared/reference/conditions.md``).  A biquadratic form on orthogonal unit pairs has no closed-form
+``docs/conditions.md``, section ``mtw``).  A biquadratic form on orthogonal unit pairs has no closed-form
 minimum for ``n >= 3`` (it is the "M-eigenvalue" problem of an elasticity-type tensor: Qi, Dai & Han,
 "Conditions for strong ellipticity and M-eigenvalues", Front. Math. China 4 (2009) 349–364,
 cited from memory), so
