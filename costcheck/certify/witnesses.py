@@ -303,6 +303,12 @@ def certify_refutation(ctx, verdict: Verdict) -> Verdict:
         return verdict
     cost, w = ctx.cost, verdict.witness
     method = verdict.evidence.details.get("method", "")
+    bound = None
+    if verdict.condition in STATED_WHERE_INVERTIBLE and cost.n == cost.m and cost.expr is not None:
+        # first of all: a witness counts only where the condition is stated (D²_xy c invertible, certified)
+        bound, part_text = _where_defined(ctx, verdict, w)
+        if bound is None:
+            return _not_where_defined(verdict, part_text)
     with balls.precision(BITS):
         try:
             if cost.expr is None:
@@ -322,11 +328,7 @@ def certify_refutation(ctx, verdict: Verdict) -> Verdict:
         except (ValueError, ArithmeticError) as exc:  # an arithmetic failure is reported, not raised
             enclosure, text = None, f"ball evaluation failed ({exc})"
         interval = None if enclosure is None else [balls.lower(enclosure), balls.upper(enclosure)]
-    bound = None
-    if enclosure is not None and verdict.condition in STATED_WHERE_INVERTIBLE and cost.n == cost.m:
-        bound, part_text = _where_defined(ctx, verdict, w)
-        if bound is None:
-            return _not_where_defined(verdict, part_text)
+    if enclosure is not None and bound is not None:
         text = f"{text}; {part_text}"
     if enclosure is not None:
         details = {**verdict.evidence.details, "enclosure": {"interval": interval, "text": text, "bits": BITS}}

@@ -302,8 +302,9 @@ def refuted_or_unconfirmed(ctx, s: Search, *, condition: str, orthogonal: bool, 
     # where non-degeneracy fails, the witness is the failing pair farthest from the singular set (if
     # it is clearly farther than the minimiser), so that it is plainly not an effect of that set
     candidates = [best]
-    if s.degenerate_somewhere and s.far is not None and s.far.rho > 10 * best.rho:
-        candidates = [s.far, best]
+    if s.degenerate_somewhere and s.far is not None and (
+            s.far.rho > 10 * best.rho or (s.far.rho > best.rho and s.far.rel <= best.rel + 1e-12)):
+        candidates = [s.far, best]  # (a tie, as for n = 1 where every failing margin is -1: the farther one)
     for point in candidates:
         conf = confirm_minimum(ctx, s, orthogonal=orthogonal, best=point)
         rel_conf = conf.value / point.normaliser if point.normaliser > 0 else 0.0
