@@ -82,6 +82,14 @@ def test_exp_cost_witness_is_in_the_json_with_its_bound(exp_report):
     mtw = doc["checks"]["mtw"]
     assert mtw["scope"]["text"] == "on the non-degenerate part"
     assert mtw["witness"]["nondegeneracy"]["relative_det_lower"] >= DEFINED_RATIO
+    # a cached result reads back with its scope and bound (the cache stores this JSON)
+    cost = exp_report.cost
+    back = Verdict.from_json("mtw", json.loads(json.dumps(mtw)), cost.x_names, cost.y_names)
+    assert back.words == "fails on the non-degenerate part"
+    assert back.witness.nondegeneracy == exp_report.verdicts["mtw"].witness.nondegeneracy
+    from costcheck.render.report.model import verdict_rows  # noqa: PLC0415 - the report's sentences
+
+    assert "fails on the non-degenerate part" in [row.verdict_words for row in verdict_rows(exp_report)]
 
 
 def test_negative_margins_only_next_to_the_singular_set_do_not_make_a_failure():
