@@ -201,3 +201,25 @@ def test_crossings_within_a_fixed_samples_band_make_nestedness_undecided(tmp_pat
     assert "no finer sample can be taken" in v.evidence.summary
     assert "neither confirmed nor excluded" in v.evidence.summary
     assert v.evidence.details["refinement"]["pending"] >= 1
+
+
+def test_crossings_within_the_tolerance_that_a_finer_quadrature_clears_leave_a_sampled_holds():
+    # Our own case: the bump model with beta = 14.9, just below the crossing threshold.  Two source
+    # nodes cross the coarse central levels within the tolerance; at the levels they use, recomputed
+    # on 4 × 4 sub-cells near the level curves, neither crosses.  Independent check (computed here,
+    # once, too slow for the suite): a 3000²-node rule on 100 levels finds no crossing, the largest
+    # margin being -2.5e-4 in ∂s/∂y — nested, barely.
+    from costcheck.spec.expression import parse_expression  # noqa: PLC0415
+
+    cost = costcheck.from_expression("y * x1 + y**2 / 2 * 14.9 * x2 * exp(-(x1**2 + x2**2) / 0.0225)",
+                                     x=["x1", "x2"], y=["y"], sense="surplus",
+                                     domain={"x": {"ball": {"center": [0, 0], "radius": 1}}, "y": {"box": [[-1, 1]]}})
+    names = {s.name: s for s in cost.x_symbols}
+    source = SideSpec("source", "density", density=parse_expression("x1**2 + x2**2", names), written="x1**2 + x2**2")
+    target = SideSpec("target", "density", density=parse_expression("1", {"y": cost.y_symbols[0]}), written="1")
+    v = analyse(cost, source, target, with_map=False).verdict
+    assert v.verdict == "holds" and v.evidence.kind == "sampled", v.evidence.summary
+    ref = v.evidence.details["refinement"]
+    assert ref["candidates"] >= 1 and ref["cleared"] == ref["candidates"] and ref["pending"] == 0
+    assert "cleared on a finer quadrature" in v.evidence.summary
+    assert any("none of them crosses the refined central levels" in note for note in v.notes)
