@@ -20,6 +20,7 @@ import io
 import json
 import sys
 from contextlib import redirect_stdout
+from functools import lru_cache
 from pathlib import Path
 
 ROOT = Path(__file__).resolve().parent.parent
@@ -40,7 +41,9 @@ def normalised(value):
     return value
 
 
-def _catalog_json() -> dict:
+@lru_cache(maxsize=1)
+def catalog_json() -> dict:
+    """The live ``check --json`` document of the catalog (computed once per test process; do not modify)."""
     import os
 
     from costcheck.cli import main
@@ -58,12 +61,12 @@ def _catalog_json() -> dict:
 
 def catalog_document() -> str:
     """The normalised JSON text of ``costcheck check catalog --json`` at :data:`BUDGET`."""
-    return json.dumps(normalised(_catalog_json()), indent=1, ensure_ascii=False, sort_keys=True) + "\n"
+    return json.dumps(normalised(catalog_json()), indent=1, ensure_ascii=False, sort_keys=True) + "\n"
 
 
 def verdict_table(document: dict | None = None) -> str:
     """``{file: {condition: "verdict code evidence-kind"}}`` as JSON text, one condition a line."""
-    document = _catalog_json() if document is None else document
+    document = catalog_json() if document is None else document
     table = {cost["file"]: {name: f'{c["verdict"]} {c["code"]} {c["evidence"]["kind"]}'
                             for name, c in cost["checks"].items()}
              for cost in document["costs"]}

@@ -32,7 +32,9 @@ import numpy as np
 from flint import arb
 
 from ..model.verdict import Evidence, Verdict
+from ..numerics.curvature import nondegenerate_part
 from . import balls, quantities
+from .defined import STATED_WHERE_INVERTIBLE, certify_nondegenerate, witness_points
 from .enclosures import TENSOR_FIELDS, FieldEnclosures
 from .region import Locator
 
@@ -301,6 +303,12 @@ def certify_refutation(ctx, verdict: Verdict) -> Verdict:
         return verdict
     cost, w = ctx.cost, verdict.witness
     method = verdict.evidence.details.get("method", "")
+    bound = None
+    if verdict.condition in STATED_WHERE_INVERTIBLE and cost.n == cost.m and cost.expr is not None:
+        # first of all: a witness counts only where the condition is stated (D²_xy c invertible, certified)
+        bound, part_text = _where_defined(ctx, verdict, w)
+        if bound is None:
+            return _not_where_defined(verdict, part_text)
     with balls.precision(BITS):
         try:
             if cost.expr is None:
@@ -320,9 +328,12 @@ def certify_refutation(ctx, verdict: Verdict) -> Verdict:
         except (ValueError, ArithmeticError) as exc:  # an arithmetic failure is reported, not raised
             enclosure, text = None, f"ball evaluation failed ({exc})"
         interval = None if enclosure is None else [balls.lower(enclosure), balls.upper(enclosure)]
+    if enclosure is not None and bound is not None:
+        text = f"{text}; {part_text}"
     if enclosure is not None:
         details = {**verdict.evidence.details, "enclosure": {"interval": interval, "text": text, "bits": BITS}}
-        witness = dataclasses.replace(w, confirmation=f"{w.confirmation}  Certified: {text}.")
+        witness = dataclasses.replace(w, confirmation=f"{w.confirmation}  Certified: {text}.",
+                                      nondegeneracy=bound or {})
         evidence = dataclasses.replace(verdict.evidence, summary=f"{verdict.evidence.summary}; certified by ball "
                                        "arithmetic", details=details)
         return dataclasses.replace(verdict, evidence=evidence, witness=witness)
@@ -332,3 +343,23 @@ def certify_refutation(ctx, verdict: Verdict) -> Verdict:
                         details={**verdict.evidence.details, "certification": text})
     return dataclasses.replace(verdict, evidence=evidence,
                                notes=verdict.notes + (f"the failure witness could not be certified: {text}",))
+
+
+def _where_defined(ctx, verdict: Verdict, w):
+    """The certified distance of the witness from the singular set of D²_xy c (see :mod:`.defined`)."""
+    S = nondegenerate_part.scale(ctx.derivs.dxy, ctx.defined)
+    with balls.precision(BITS):
+        try:
+            return certify_nondegenerate(ctx.cost, witness_points(verdict.condition, w), S, BITS)
+        except (ValueError, ArithmeticError) as exc:
+            return None, f"ball evaluation of D²_xy c failed ({exc})"
+
+
+def _not_where_defined(verdict: Verdict, why: str) -> Verdict:
+    """A witness next to the singular set refutes nothing: the verdict is undecided, and says why."""
+    summary = (f"a candidate failure was found, but not where the condition is defined: {why}; not a refutation, "
+               f"so the condition is not decided (the candidate was: {verdict.evidence.summary})")
+    evidence = Evidence("undecided", summary, samples=verdict.evidence.samples, resolution=verdict.evidence.resolution,
+                        details={**verdict.evidence.details, "certification": why})
+    return dataclasses.replace(verdict, verdict="undecided", evidence=evidence, witness=None,
+                               notes=verdict.notes + (f"the candidate witness is not a refutation: {why}",))

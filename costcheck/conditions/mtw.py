@@ -39,7 +39,12 @@ from .engines.curvature_search import (
     coverage,
     fmt,
     location,
+    nowhere_defined,
+    part_details,
+    part_notes,
+    part_prefix,
     refuted_or_unconfirmed,
+    scope,
     search_minimum,
     skipped_notes,
     where,
@@ -61,15 +66,15 @@ def check(ctx) -> Verdict:
                                          "forces ξ = 0 or η = 0, so S(ξ, η) = 0 for every admissible pair")
     s = search_minimum(ctx, a3w_margin, orthogonal=True)
     if s is None:
-        return undecided(CONDITION, "no sampled pair has finite derivatives up to order 4 and an invertible mixed "
-                                    "Hessian, so the MTW tensor could not be evaluated anywhere")
+        return undecided(CONDITION, nowhere_defined("the MTW tensor"))
     tol = TOLERANCE
     best = s.best
-    notes = skipped_notes(s)
+    notes = part_notes(s, skipped_notes(s))
     meaning = ("the smallest scale-free A3w margin found, min over pairs and unit ξ ⊥ η of " + SCALE_TEXT
                + f"; the tolerance is ±{tol:g}; the witness value is the raw S(ξ, η) at the unit vectors shown")
     details = {"tolerance": tol, "local_searches": s.starts, "smallest_at": location(best),
-               "smallest_raw": best.raw, "sampled_minimum": s.sample_min}
+               "smallest_raw": best.raw, "sampled_minimum": s.sample_min,
+               "nondegenerate_part": part_details(s)}
 
     if best.rel < -tol:
         return refuted_or_unconfirmed(ctx, s, condition=CONDITION, orthogonal=True, failure="A3w fails",
@@ -81,7 +86,7 @@ def check(ctx) -> Verdict:
         if best.rel < 0 and best.normaliser > 0:
             conf = confirm_minimum(ctx, s, orthogonal=True)
             value, error, text = conf.value, conf.error, conf.text + "; not a failure witness"
-        summary = (f"no pair with a scale-free margin below -{tol:g} among {coverage(s)}; the smallest margin, "
+        summary = (f"{part_prefix(s)}no pair with a scale-free margin below -{tol:g} among {coverage(s)}; the smallest margin, "
                    f"{best.rel:.3g}, is within ±{tol:g} of zero at {where(best)}: A3w holds but A3s is not "
                    "seen (evidence, not proof)")
         if s.flat == s.valid:
@@ -89,13 +94,13 @@ def check(ctx) -> Verdict:
         return Verdict(CONDITION, "weak", Evidence("sampled", summary, samples=s.samples, resolution=s.resolution,
                                                    details=details),
                        value=best.rel, value_meaning=meaning, witness=witness(best, value, error, text),
-                       notes=tuple(notes))
+                       notes=tuple(notes), scope=scope(s))
 
-    summary = (f"no pair with a scale-free margin at or below {tol:g} among {coverage(s)}; the smallest, "
+    summary = (f"{part_prefix(s)}no pair with a scale-free margin at or below {tol:g} among {coverage(s)}; the smallest, "
                f"{best.rel:.4g}, is at x = {fmt(best.x)}, y = {fmt(best.y)}: evidence of A3s on the sampled region, "
                "not proof")
     return Verdict(CONDITION, "strong", Evidence("sampled", summary, samples=s.samples, resolution=s.resolution,
                                                  details=details),
-                   value=best.rel, value_meaning=meaning, notes=tuple(notes))
+                   value=best.rel, value_meaning=meaning, notes=tuple(notes), scope=scope(s))
 
 

@@ -23,7 +23,12 @@ from .engines.curvature_search import (
     coverage,
     fmt,
     location,
+    nowhere_defined,
+    part_details,
+    part_notes,
+    part_prefix,
     refuted_or_unconfirmed,
+    scope,
     search_minimum,
     skipped_notes,
 )
@@ -38,22 +43,22 @@ def check(ctx) -> Verdict:
                                          "needs the inverse of the square mixed Hessian")
     s = search_minimum(ctx, margins.nncc_margin, orthogonal=False)
     if s is None:
-        return undecided(CONDITION, "no sampled pair has finite derivatives up to order 4 and an invertible mixed "
-                                    "Hessian, so the cross-curvature could not be evaluated anywhere")
+        return undecided(CONDITION, nowhere_defined("the cross-curvature"))
     tol = TOLERANCE
     best = s.best
-    notes = skipped_notes(s)
+    notes = part_notes(s, skipped_notes(s))
     meaning = ("the smallest scale-free cross-curvature margin found, min over pairs and unit ξ, η of " + SCALE_TEXT
                + f"; the tolerance is ±{tol:g}; the witness value is the raw S(ξ, η) at the unit vectors shown")
     details = {"tolerance": tol, "local_searches": s.starts, "smallest_at": location(best),
-               "smallest_raw": best.raw, "sampled_minimum": s.sample_min}
+               "smallest_raw": best.raw, "sampled_minimum": s.sample_min,
+               "nondegenerate_part": part_details(s)}
 
     if best.rel < -tol:
         return refuted_or_unconfirmed(ctx, s, condition=CONDITION, orthogonal=False, failure="NNCC fails",
                                       fallback="holds", meaning=meaning, details=details, notes=notes)
 
-    summary = (f"no pair with a scale-free cross-curvature margin below -{tol:g} among {coverage(s)}; the "
+    summary = (f"{part_prefix(s)}no pair with a scale-free cross-curvature margin below -{tol:g} among {coverage(s)}; the "
                f"smallest, {best.rel:.4g}, is at x = {fmt(best.x)}, y = {fmt(best.y)}: evidence, not proof")
     return Verdict(CONDITION, "holds", Evidence("sampled", summary, samples=s.samples, resolution=s.resolution,
                                                 details=details),
-                   value=best.rel, value_meaning=meaning, notes=tuple(notes))
+                   value=best.rel, value_meaning=meaning, notes=tuple(notes), scope=scope(s))

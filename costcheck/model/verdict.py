@@ -169,6 +169,9 @@ class Witness:
     vectors: Mapping[str, Sequence[float]] = field(default_factory=dict)
     #: for each entry of ``vectors``, which side's coordinate names label it ("x" or "y")
     vector_sides: Mapping[str, str] = field(default_factory=dict)
+    #: a certified lower bound on how far D²_xy c is from singular at the witness (set by
+    #: :mod:`costcheck.certify` for conditions stated only where D²_xy c is invertible)
+    nondegeneracy: Mapping = field(default_factory=dict)
 
     def to_json(self, x_names: Sequence[str], y_names: Sequence[str]) -> dict:
         named = lambda names, values: {n: float(v) for n, v in zip(names, values)}  # noqa: E731
@@ -179,6 +182,8 @@ class Witness:
         out["value"] = float(self.value)
         out["error_bound"] = None if self.error_bound is None else float(self.error_bound)
         out["confirmation"] = self.confirmation
+        if self.nondegeneracy:
+            out["nondegeneracy"] = dict(self.nondegeneracy)
         return out
 
     @classmethod
@@ -189,7 +194,7 @@ class Witness:
                 raise ValueError(f"coordinates {list(named)} are not labelled {list(names)}")
             return tuple(float(named[n]) for n in names)
 
-        fixed = ("x", "y", "value", "error_bound", "confirmation")
+        fixed = ("x", "y", "value", "error_bound", "confirmation", "nondegeneracy")
         vectors, sides = {}, {}
         for name, named in data.items():
             if name in fixed:
@@ -199,7 +204,8 @@ class Witness:
             if side == "y":
                 sides[name] = "y"
         return cls(coords(data["x"], x_names), coords(data["y"], y_names), _number(data["value"]),
-                   _number(data.get("error_bound")), data.get("confirmation", ""), vectors, sides)
+                   _number(data.get("error_bound")), data.get("confirmation", ""), vectors, sides,
+                   dict(data.get("nondegeneracy") or {}))
 
 
 @dataclass(frozen=True)
@@ -213,6 +219,14 @@ class Verdict:
     value_meaning: str = ""
     witness: Witness | None = None
     notes: tuple[str, ...] = ()
+    #: where the verdict holds when that is less than the declared domain: ``{"part": ..., "text":
+    #: "on the non-degenerate part", ...}``; empty when it was decided on the whole domain
+    scope: Mapping = field(default_factory=dict)
+
+    @property
+    def words(self) -> str:
+        """The verdict word with its scope, as a reader should see it ("fails on the non-degenerate part")."""
+        return f"{self.verdict} {self.scope['text']}" if self.scope.get("text") else self.verdict
 
     @property
     def code(self) -> str:
@@ -229,6 +243,7 @@ class Verdict:
             "value_meaning": self.value_meaning,
             "witness": None if self.witness is None else self.witness.to_json(x_names, y_names),
             "notes": list(self.notes),
+            **({"scope": dict(self.scope)} if self.scope else {}),
         }
 
     @classmethod
@@ -242,7 +257,7 @@ class Verdict:
         verdict = cls(condition, data["verdict"], Evidence.from_json(data["evidence"]), _number(data.get("value")),
                       data.get("value_meaning", ""),
                       None if witness is None else Witness.from_json(witness, x_names, y_names),
-                      tuple(data.get("notes", ())))
+                      tuple(data.get("notes", ())), dict(data.get("scope") or {}))
         if "code" in data and data["code"] != verdict.code:
             raise ValueError(f"stored code {data['code']} is not {verdict.code} for {condition}: {verdict.verdict}")
         return verdict

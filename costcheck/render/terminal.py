@@ -66,7 +66,7 @@ def render_report(console: Console, report: CostReport) -> None:
     console.print(head)
     table = Table(show_header=True, header_style="bold", expand=False, pad_edge=False)
     table.add_column("condition")
-    table.add_column("verdict")
+    table.add_column("verdict", max_width=16)  # a scope ("on the non-degenerate part") wraps
     table.add_column("code", style="dim")
     table.add_column("evidence")
     table.add_column("worst value", justify="right")
@@ -74,6 +74,8 @@ def render_report(console: Console, report: CostReport) -> None:
     for name, v in report.verdicts.items():
         expected = cost.expect.get(name)
         verdict = Text(v.verdict, style=verdict_style(v.verdict))
+        if v.scope.get("text"):  # the part it was decided on is part of the verdict's words
+            verdict.append(f" {v.scope['text']}", style="bold")
         if expected and expected != v.verdict:
             verdict.append(f" (expected {expected})", style="bold red")
         detail = v.evidence.summary

@@ -14,7 +14,7 @@ import numpy as np
 
 from ...errors import UsageError
 from ...model.verdict import Evidence, Verdict, Witness
-from ...numerics.curvature import algebra, precise
+from ...numerics.curvature import algebra, nondegenerate_part, precise
 from ...numerics.curvature.margins import a3w_margin, form_at, margin_at
 from ...numerics.search import batched_descent
 
@@ -39,6 +39,8 @@ class Minimum:
     rel: float
     raw: float
     normaliser: float
+    #: the scale-free determinant ρ there (:mod:`~costcheck.numerics.curvature.nondegenerate_part`)
+    rho: float = float("nan")
 
 
 @dataclass(frozen=True)
@@ -55,6 +57,21 @@ class Search:
     evaluations: int
     sample_min: float
     best: Minimum
+    #: the scale S of ρ, and the sampled pairs off the non-degenerate part (ρ < DEFINED_RATIO)
+    scale_S: float = 1.0
+    near_singular: int = 0
+    #: the smallest margin at those pairs (computed, not used for the verdict); NaN if none
+    near_min: float = float("nan")
+    #: signs of det M on the usable pairs
+    det_positive: int = 0
+    det_negative: int = 0
+    #: among usable sampled pairs with a margin below -TOLERANCE, the one with the largest ρ
+    far: Minimum | None = None
+
+    @property
+    def degenerate_somewhere(self) -> bool:
+        """Non-degeneracy fails on the sample: pairs near the singular set, or det M of both signs."""
+        return self.near_singular > 0 or (self.det_positive > 0 and self.det_negative > 0)
 
 
 def separated_starts(points: np.ndarray, order: np.ndarray, count: int, spacing: float) -> list[int]:
@@ -96,10 +113,15 @@ def search_minimum(ctx, margin_fn, orthogonal: bool, *, starts: int = STARTS,
     derivs = ctx.derivs
     defined = ctx.defined
     margins = sample_margins(ctx, margin_fn)
-    valid = margins.valid & defined
+    S = nondegenerate_part.scale(derivs.dxy, defined)
+    rho, sign = nondegenerate_part.relative_det(derivs.dxy, S)
+    part = nondegenerate_part.on_part(derivs.dxy, S, search=True)
+    near = margins.valid & defined & ~part
+    valid = margins.valid & defined & part
     if not valid.any():
         return None
     rel = np.where(valid, margins.rel, np.inf)
+    failing = valid & (margins.rel < -TOLERANCE)
     # every batch of the search has at most starts · (2 · 2n) points
     evaluator = ctx.evaluator(4)  # the JAX backend pads batch sizes, so the search compiles once
     domain = cost.domain
@@ -109,8 +131,10 @@ def search_minimum(ctx, margin_fn, orthogonal: bool, *, starts: int = STARTS,
         xs, ys = Z[:, :n], Z[:, n:]
         inside = domain.contains_pairs(xs, ys)
         if inside.any():
-            values = margin_fn(evaluator(xs[inside], ys[inside])).rel
-            out[inside] = np.where(np.isfinite(values), values, np.inf)
+            d = evaluator(xs[inside], ys[inside])
+            values = margin_fn(d).rel
+            usable = np.isfinite(values) & nondegenerate_part.on_part(d.dxy, S, search=True)
+            out[inside] = np.where(usable, values, np.inf)
         return out
 
     points = np.concatenate([sample.xs, sample.ys], axis=1)
@@ -136,11 +160,13 @@ def search_minimum(ctx, margin_fn, orthogonal: bool, *, starts: int = STARTS,
     m1 = margin_fn(d1)
     m1 = margin_at(d1, m1.xi, orthogonal) if n > 1 else m1
     best = Minimum(np.asarray(x, float), np.asarray(y, float), m1.xi[0], m1.eta[0],
-                   float(m1.rel[0]), float(m1.raw[0]), float(m1.normaliser[0]))
+                   float(m1.rel[0]), float(m1.raw[0]), float(m1.normaliser[0]),
+                   float(nondegenerate_part.relative_det(d1.dxy, S)[0][0]))
     if not np.isfinite(best.rel):  # cannot happen for a valid sample; keep the sample's own numbers
         best = Minimum(sample.xs[i_sample], sample.ys[i_sample], margins.xi[i_sample], margins.eta[i_sample],
                        float(margins.rel[i_sample]), float(margins.raw[i_sample]),
-                       float(margins.normaliser[i_sample]))
+                       float(margins.normaliser[i_sample]), float(rho[i_sample]))
+    far = _farthest_failure(evaluator, margin_fn, orthogonal, sample, failing, rho, S)
     inv_ok = np.all(np.isfinite(derivs.dxy.reshape(derivs.dxy.shape[0], -1)), axis=1)
     return Search(
         evaluate=evaluator,
@@ -154,7 +180,28 @@ def search_minimum(ctx, margin_fn, orthogonal: bool, *, starts: int = STARTS,
         evaluations=int(evaluations),
         sample_min=float(rel[i_sample]),
         best=best,
+        scale_S=S,
+        near_singular=int(near.sum()),
+        near_min=float(np.nanmin(margins.rel[near])) if near.any() else float("nan"),
+        det_positive=int(np.sum(valid & (sign > 0))),
+        det_negative=int(np.sum(valid & (sign < 0))),
+        far=far,
     )
+
+
+def _farthest_failure(evaluator, margin_fn, orthogonal, sample, failing, rho, S) -> Minimum | None:
+    """The failing sampled pair farthest from the singular set (largest ρ), re-evaluated as a minimiser."""
+    if not failing.any():
+        return None
+    i = int(np.argmax(np.where(failing, rho, -np.inf)))
+    x, y = sample.xs[i], sample.ys[i]
+    d1 = evaluator(x[None], y[None])
+    m1 = margin_fn(d1)
+    m1 = margin_at(d1, m1.xi, orthogonal) if sample.xs.shape[1] > 1 else m1
+    if not np.isfinite(m1.rel[0]):
+        return None
+    return Minimum(np.asarray(x, float), np.asarray(y, float), m1.xi[0], m1.eta[0], float(m1.rel[0]),
+                   float(m1.raw[0]), float(m1.normaliser[0]), float(rho[i]))
 
 
 @dataclass(frozen=True)
@@ -167,9 +214,10 @@ class Confirmation:
     text: str
 
 
-def confirm_minimum(ctx, search: Search, orthogonal: bool) -> Confirmation:
-    """Re-evaluate ``S(ξ, η)`` at the minimum: mpmath at 30 and 60 digits, or float64 for a function cost."""
-    best = search.best
+def confirm_minimum(ctx, search: Search, orthogonal: bool, best: Minimum | None = None) -> Confirmation:
+    """Re-evaluate ``S(ξ, η)`` at the minimum (or at ``best``): mpmath at 30 and 60 digits, or float64 for a
+    function cost."""
+    best = search.best if best is None else best
     constraint = "η made exactly orthogonal to ξ and both normalised" if orthogonal else "ξ and η normalised"
     hp = ctx.high_precision
     if hp is None:
@@ -251,13 +299,25 @@ def refuted_or_unconfirmed(ctx, s: Search, *, condition: str, orthogonal: bool, 
     """
     tol = TOLERANCE
     best = s.best
-    conf = confirm_minimum(ctx, s, orthogonal=orthogonal)
-    rel_conf = conf.value / best.normaliser if best.normaliser > 0 else 0.0
+    # where non-degeneracy fails, the witness is the failing pair farthest from the singular set (if
+    # it is clearly farther than the minimiser), so that it is plainly not an effect of that set
+    candidates = [best]
+    if s.degenerate_somewhere and s.far is not None and (
+            s.far.rho > 10 * best.rho or (s.far.rho > best.rho and s.far.rel <= best.rel + 1e-12)):
+        candidates = [s.far, best]  # (a tie, as for n = 1 where every failing margin is -1: the farther one)
+    for point in candidates:
+        conf = confirm_minimum(ctx, s, orthogonal=orthogonal, best=point)
+        rel_conf = conf.value / point.normaliser if point.normaliser > 0 else 0.0
+        if conf.negative and rel_conf < -tol:
+            break
     orth = " (ξ · η = 0)" if orthogonal else ""
     if conf.negative and rel_conf < -tol:
         kind_text = "in high precision" if conf.high_precision else "in float64 only"
-        summary = (f"{failure}: at {where(best)}{orth} S(ξ, η) = {conf.value:.6g} ± {conf.error:.2g}, "
+        summary = (f"{part_prefix(s)}{failure}: at {where(point)}{orth} S(ξ, η) = {conf.value:.6g} ± {conf.error:.2g}, "
                    f"confirmed {kind_text}; scale-free margin {rel_conf:.4g} (tolerance {tol:g})")
+        if point is not best:
+            summary += (f"; this is the failing sampled pair farthest from the singular set (ρ = {point.rho:.3g}); "
+                        f"the smallest margin found, {best.rel:.4g}, is at ρ = {best.rho:.3g}")
         if not conf.high_precision:
             notes.append("the witness is confirmed in float64 only (no high-precision evaluator for a "
                          "Python-function cost)")
@@ -265,15 +325,70 @@ def refuted_or_unconfirmed(ctx, s: Search, *, condition: str, orthogonal: bool, 
                        Evidence("refuted", summary, samples=s.samples, resolution=s.resolution,
                                 details={**details, "scale_free_value": rel_conf}),
                        value=best.rel, value_meaning=meaning,
-                       witness=witness(best, conf.value, conf.error, conf.text + f"; scale-free value {rel_conf:.6g}"),
-                       notes=tuple(notes))
+                       witness=witness(point, conf.value, conf.error, conf.text + f"; scale-free value {rel_conf:.6g}"),
+                       notes=tuple(notes), scope=scope(s))
     notes.append(f"float64 found a scale-free margin {best.rel:.3g} below -{tol:g} at {where(best)}, but the "
                  f"high-precision re-evaluation gives S = {conf.value:.3g} ± {conf.error:.2g} "
                  f"(scale-free {rel_conf:.3g}), not negative beyond its error and the tolerance; "
                  f"reported as {fallback}")
-    summary = (f"no confirmed negative margin among {coverage(s)}; the one float64 candidate did not survive "
+    summary = (f"{part_prefix(s)}no confirmed negative margin among {coverage(s)}; the one float64 candidate did not survive "
                "high-precision re-evaluation: evidence, not proof")
     return Verdict(condition, fallback, Evidence("sampled", summary, samples=s.samples, resolution=s.resolution,
                                                  details=details),
                    value=rel_conf, value_meaning=meaning,
-                   witness=witness(best, conf.value, conf.error, conf.text), notes=tuple(notes))
+                   witness=witness(best, conf.value, conf.error, conf.text), notes=tuple(notes), scope=scope(s))
+
+
+# --------------------------------------------------------------------------- the part it was decided on
+
+def part_details(s: Search) -> dict:
+    """The part of the domain the verdict was decided on, for the evidence's details."""
+    out = {"relative_det_at_least": nondegenerate_part.DEFINED_RATIO, "scale_S": s.scale_S,
+           "pairs_used": s.valid, "pairs_near_singular": s.near_singular,
+           "det_signs_on_used_pairs": {"positive": s.det_positive, "negative": s.det_negative}}
+    if s.near_singular:
+        out["smallest_margin_near_singular"] = s.near_min
+    if s.far is not None:
+        out["failing_pair_farthest_from_singular"] = {"relative_det": s.far.rho, "margin": s.far.rel}
+    return out
+
+
+def scope(s: Search) -> dict:
+    """The verdict's scope: empty where non-degeneracy holds on the sample, else the part it was decided on."""
+    if not s.degenerate_somewhere:
+        return {}
+    return {"part": "non-degenerate", "relative_det_at_least": nondegenerate_part.DEFINED_RATIO,
+            "text": "on the non-degenerate part"}
+
+
+def part_prefix(s: Search) -> str:
+    """The sentence that opens the summary when non-degeneracy fails on the sample ('' otherwise)."""
+    if not s.degenerate_somewhere:
+        return ""
+    why = []
+    if s.near_singular:
+        why.append(f"{s.near_singular} sampled pairs have ρ below {nondegenerate_part.DEFINED_RATIO:g} and were not "
+                   "used" + (f" — their scale-free margins reach {s.near_min:.3g}, so next to the singular set the "
+                             "condition is left undecided" if s.near_min < -TOLERANCE else ""))
+    if s.det_positive and s.det_negative:
+        why.append(f"det D²_xy c takes both signs on the {s.valid} pairs used ({s.det_positive} positive, "
+                   f"{s.det_negative} negative), so it vanishes in between")
+    return (f"non-degeneracy fails on this domain ({'; '.join(why)}): decided on {nondegenerate_part.describe()} "
+            "only — ")
+
+
+def part_notes(s: Search, notes: list[str]) -> list[str]:
+    """Notes on what was computed off the part and how far from the singular set a failure reaches."""
+    if s.near_singular and np.isfinite(s.near_min) and s.near_min >= -TOLERANCE:
+        notes.append(f"at the {s.near_singular} sampled pairs off the non-degenerate part the scale-free margin "
+                     f"reaches {s.near_min:.3g}; it is not used: the condition is not stated where D²_xy c is "
+                     "singular")
+    if s.far is not None and s.degenerate_somewhere:
+        notes.append(f"the sampled pair with a margin below -{TOLERANCE:g} farthest from the singular set has "
+                     f"ρ = {s.far.rho:.3g} (margin {s.far.rel:.3g} there)")
+    return notes
+
+
+def nowhere_defined(what: str) -> str:
+    return (f"no sampled pair has finite derivatives up to order 4 and lies on {nondegenerate_part.describe()}, "
+            f"so {what} could not be evaluated anywhere it is defined")

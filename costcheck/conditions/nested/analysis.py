@@ -14,6 +14,7 @@ from ...spec.data import DataSpec, SideSpec
 from . import measures
 from .decide import CONDITION, find_crossings, nested_verdict
 from .levels import Levels, compute_levels
+from .refine import settle
 from .map import LevelTable, evaluate_map, level_table, mean_surplus, pushforward_distance
 
 
@@ -76,8 +77,11 @@ def analyse(cost, source_side=None, target_side=None, *, levels: int = DEFAULT_L
     seconds["levels"] = time.perf_counter() - t0
     t0 = time.perf_counter()
     crossings = find_crossings(lv)
+    refinement = None
+    if crossings.raw_crossings and not crossings.violating.any():  # within the tolerance: take a finer rule
+        refinement = settle(evaluator, cost.domain, lv, source)
     verdict = nested_verdict(cost, lv, crossings, source.points, source.weights, source.description,
-                             target.description)
+                             target.description, refinement)
     seconds["decide"] = time.perf_counter() - t0
     result = NestedResult(cost, verdict, source, target, lv, seconds=seconds)
     summary = {"source": source.description, "target": target.description, "source_points": source.count,

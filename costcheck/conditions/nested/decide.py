@@ -72,7 +72,8 @@ def _confirm(cost, hp, x, y, yp, k_lo, k_hi):
 
 
 def nested_verdict(cost, levels: Levels, crossings: Crossings, points: np.ndarray, weights: np.ndarray,
-                   source_text: str, target_text: str) -> Verdict:
+                   source_text: str, target_text: str, refinement=None) -> Verdict:
+    """The verdict; ``refinement`` (a :class:`.refine.Outcome`) re-tested the crossings within the tolerance."""
     K, N = levels.phi.shape
     y_name = cost.y_names[0]
     details = {"levels": K, "source": source_text, "target": target_text, "tolerance": levels.band_rule,
@@ -83,9 +84,8 @@ def nested_verdict(cost, levels: Levels, crossings: Crossings, points: np.ndarra
         notes.append(f"∂s/∂y is undefined at {levels.undefined} of {K * N} (point, level) pairs (outside the pairs "
                      "domain or a singularity); those pairs decide nothing")
     if not crossings.violating.any():
-        if crossings.raw_crossings:
-            notes.append(f"{crossings.raw_crossings} source points cross between levels only within the sampling "
-                         "tolerance (not counted: they would not survive a finer or larger sample)")
+        if refinement is not None and refinement.candidates:
+            return _after_refinement(cost, levels, refinement, points, details, notes)
         summary = (f"nested on the data: no source point is inside X≤(y, k+(y)) and outside X<(y', k-(y')) for any "
                    f"y < y' among {K} levels of {y_name} ({N} source points or nodes; tolerance: {levels.band_rule}); "
                    "nothing is checked between the levels: evidence, not proof")
@@ -135,3 +135,68 @@ def nested_verdict(cost, levels: Levels, crossings: Crossings, points: np.ndarra
     return undecided(CONDITION, f"{viol.size} source points look like crossings of level curves in float64, but none "
                                "was confirmed in high precision beyond its error estimate", **details)
 
+
+
+def _refinement_details(levels: Levels, r) -> dict:
+    return {"candidates": r.candidates, "tested": len(r.tested), "untested": r.untested, "factor": r.factor,
+            "levels_refined": [float(levels.ys[j]) for j in sorted(r.refined)], "sub_nodes": r.sub_nodes,
+            "refined_max_band": r.max_band if r.refined else None, "confirmed": len(r.confirmed),
+            "cleared": len(r.cleared), "pending": len(r.pending)}
+
+
+def _after_refinement(cost, levels: Levels, r, points, details, notes) -> Verdict:
+    """Crossings of the central levels within the tolerance, after the finer quadrature of :mod:`.refine`."""
+    y_name = cost.y_names[0]
+    K, N = levels.phi.shape
+    details = {**details, "refinement": _refinement_details(levels, r)}
+    coarse = (f"{r.candidates} source points cross the central level curves of {K} levels of {y_name} only within "
+              f"the tolerance ({levels.band_rule})")
+    finer = ""
+    if r.factor:
+        finer = (f"the {len(r.refined)} levels they use were recomputed with the cells near each level curve split "
+                 f"{r.factor} × {r.factor} ({r.sub_nodes} sub-nodes; refined mass band at most {r.max_band:.2g})")
+    if r.confirmed:
+        hp, reason = precision.usable_high_precision(cost, 1, points[r.confirmed[0].point], [levels.ys[0]])
+        for c in r.confirmed[:CONFIRM_TRIES]:
+            ra, rb = r.refined[c.a], r.refined[c.b]
+            x, y, yp = points[c.point], float(levels.ys[c.a]), float(levels.ys[c.b])
+            if hp is None:
+                break
+            ok, (va, ea, vb, eb) = _confirm(cost, hp, x, y, yp, ra.k_lo, rb.k_hi)
+            if not ok:
+                continue
+            spread = float(levels.spread[c.a])
+            text = (f"{y_name} = {y:.6g} < {y_name}' = {yp:.6g}: ∂s/∂y(x, {y_name}) = {precision.fmt(va, 10)} ± "
+                    f"{precision.fmt(ea, 2)} ≤ k_lo({y_name}) = {ra.k_lo:.10g} and ∂s/∂y(x, {y_name}') = "
+                    f"{precision.fmt(vb, 10)} ± {precision.fmt(eb, 2)} ≥ k_hi({y_name}') = {rb.k_hi:.10g} (mpmath at 50 "
+                    f"and 80 digits), with both levels from the refined quadrature ({r.factor} × {r.factor} sub-cells "
+                    "near the level curves); the level curves through x cross, and x is a quadrature node where the "
+                    "source density is positive, so (the density being continuous and both inequalities strict) "
+                    "they cross on a set of positive mass")
+            margin = min(ra.k_lo - float(va), float(vb) - rb.k_hi) / spread
+            witness = Witness(x=list(map(float, x)), y=[y], value=float(margin), error_bound=float(max(ea, eb) / spread),
+                              confirmation=text, vectors={"y_prime": [yp]}, vector_sides={"y_prime": "y"})
+            crosses = "of them crosses" if len(r.confirmed) == 1 else "of them cross"
+            summary = (f"not nested: {coarse}; {finer}, and then {len(r.confirmed)} {crosses} beyond the refined "
+                       f"tolerance; the witness was confirmed in high precision against the refined levels")
+            return Verdict(CONDITION, "fails", Evidence("refuted", summary, samples=N * K, details=details),
+                           value=float(margin), value_meaning=VALUE_MEANING, witness=witness, notes=tuple(notes))
+        return undecided(CONDITION, f"{coarse}; {finer}, and {len(r.confirmed)} of them cross beyond the refined "
+                         "tolerance in float64, but none was confirmed in high precision, so neither verdict is "
+                         "established", **details)
+    if r.pending or r.untested:
+        why = r.reason or (f"{finer}, and {len(r.pending)} of them still cross within the refined tolerance"
+                           if r.factor else "")
+        if r.untested:
+            why += (f"{'; ' if why else ''}{r.untested} candidates were not re-tested (at most "
+                    f"{len(r.refined)} levels are recomputed)")
+        return undecided(CONDITION, f"{coarse}; {why}: a crossing of that little mass can be neither confirmed nor "
+                         "excluded, so nestedness is not decided on these data", **details)
+    notes.append(f"{coarse}; {finer}, and none of them crosses the refined central levels: they came from the "
+                 "coarse rule's levels")
+    summary = (f"nested on the data: no source point is inside X≤(y, k+(y)) and outside X<(y', k-(y')) for any y < y' "
+               f"among {K} levels of {y_name} ({N} source points or nodes; tolerance: {levels.band_rule}); the "
+               f"{r.candidates} crossings within the tolerance were cleared on a finer quadrature; nothing is "
+               "checked between the levels: evidence, not proof")
+    return Verdict(CONDITION, "holds", Evidence("sampled", summary, samples=N * K, details=details),
+                   value=0.0, value_meaning=VALUE_MEANING, notes=tuple(notes))

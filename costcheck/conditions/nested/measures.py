@@ -13,7 +13,7 @@ Nothing in a data file is executed: CSV cells are read with :mod:`csv` and conve
 
 from __future__ import annotations
 
-from dataclasses import dataclass
+from dataclasses import dataclass, field
 from typing import Sequence
 
 import numpy as np
@@ -40,6 +40,9 @@ class Measure:
     description: str
     #: quadrature: the cell widths per axis; points: None
     cell: np.ndarray | None = None
+    #: quadrature: ``subdivide(indices, r) -> (points, weights, owner)``, the nodes of an r-per-axis
+    #: midpoint rule inside the cells of the given nodes (see :func:`density_measure`); points: None
+    subdivide: object = field(default=None, compare=False, repr=False)
 
     @property
     def count(self) -> int:
@@ -103,9 +106,30 @@ def density_measure(side: SideSpec, symbols: Sequence[sp.Symbol], region, contai
         raise CostFileError(f"the {side.role} density integrates to zero on its domain", file=file,
                             field=side.origin or None)
     nodes, mass = nodes[keep], mass[keep]
-    return Measure(nodes, mass / mass.sum(), "quadrature",
+    weights = mass / mass.sum()
+
+    def subdivide(indices: np.ndarray, r: int):
+        """Nodes of an ``r``-per-axis midpoint rule in the cells of ``nodes[indices]``, with the density's
+        weights rescaled so that each cell keeps its mass (only where the mass sits inside a cell changes)."""
+        offsets = (np.arange(r) + 0.5) / r - 0.5
+        grid = np.stack([g.ravel() for g in np.meshgrid(*([offsets] * dim), indexing="ij")], axis=1) * cell
+        pts = (nodes[indices][:, None, :] + grid[None, :, :]).reshape(-1, dim)
+        owner = np.repeat(np.asarray(indices), grid.shape[0])
+        inside = contains(pts)
+        values = np.zeros(pts.shape[0])
+        if inside.any():
+            values[inside] = _density_values(side, symbols, pts[inside], file)
+        per_cell = values.reshape(-1, grid.shape[0])
+        totals = per_cell.sum(axis=1, keepdims=True)
+        # a cell whose sub-nodes all carry no density keeps its mass at its midpoint's sub-node(s), evenly
+        even = np.full_like(per_cell, 1.0 / grid.shape[0])
+        share = np.where(totals > 0, per_cell / np.where(totals > 0, totals, 1.0), even)
+        w = (share * weights[indices][:, None]).reshape(-1)
+        return pts, w, owner
+
+    return Measure(nodes, weights, "quadrature",
                    f"density {side.written} by a {per_axis}^{dim}-node midpoint rule ({nodes.shape[0]} nodes with "
-                   "positive mass)", cell=cell)
+                   "positive mass)", cell=cell, subdivide=subdivide)
 
 
 @dataclass(frozen=True)

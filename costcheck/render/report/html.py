@@ -53,7 +53,7 @@ def _verdict_cell(row: VerdictRow | None) -> str:
         return '<td class="cell dim">—</td>'
     miss = "" if row.met else f' <span class="miss">✗ expected {escape(row.expected or "")}</span>'
     kind = row.kind.replace("_", " ")
-    return (f'<td class="cell v-{escape(row.verdict)}"><span class="v">{escape(row.verdict)}</span>{miss}'
+    return (f'<td class="cell v-{escape(row.verdict)}"><span class="v">{escape(row.verdict_words)}</span>{miss}'
             f'<br><span class="kind">{escape(kind)}{" · " + escape(row.code) if row.code else ""}</span></td>')
 
 
@@ -76,7 +76,7 @@ def _verdicts(section: CostSection) -> str:
                         else f' <span class="miss">(expected {escape(r.expected)}: NOT met)</span>')
         notes = "".join(f'<br><span class="dim">Note: {escape(n)}</span>' for n in r.notes)
         detail = f'<br><span class="dim">{escape(r.summary)}</span>' if r.summary else ""
-        items.append(f"<li><b>{escape(r.title)}</b>: <span class=\"v\">{escape(r.verdict)}</span>"
+        items.append(f"<li><b>{escape(r.title)}</b>: <span class=\"v\">{escape(r.verdict_words)}</span>"
                      f"{' [' + escape(r.code) + ']' if r.code else ''}{expected} — {escape(r.words)}."
                      f"{detail}{notes}</li>")
     return f"<ul>{''.join(items)}</ul>"

@@ -28,7 +28,7 @@ def _cell(model: ReportModel, s: CostSection, condition: str) -> str:
     if r is None:
         return "—"
     miss = "" if r.met else f" ✗ expected {r.expected}"
-    return f"**{r.verdict}**{miss} ({r.kind.replace('_', ' ')}{', ' + r.code if r.code else ''})"
+    return f"**{r.verdict_words}**{miss} ({r.kind.replace('_', ' ')}{', ' + r.code if r.code else ''})"
 
 
 def _section(s: CostSection) -> list[str]:
@@ -43,7 +43,7 @@ def _section(s: CostSection) -> list[str]:
         expected = ""
         if r.expected:
             expected = f" (expected {r.expected}: {'met' if r.met else 'NOT met'})"
-        out.append(f"- **{r.title}**: **{r.verdict}**{' [' + r.code + ']' if r.code else ''}{expected} — {r.words}.")
+        out.append(f"- **{r.title}**: **{r.verdict_words}**{' [' + r.code + ']' if r.code else ''}{expected} — {r.words}.")
         if r.summary:
             out.append(f"  {r.summary}")
         out += [f"  Note: {n}" for n in r.notes]

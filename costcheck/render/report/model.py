@@ -97,6 +97,12 @@ class VerdictRow:
     expected: str | None
     met: bool
     notes: tuple[str, ...]
+    #: where the verdict holds when less than the domain ("on the non-degenerate part"), else ""
+    scope: str = ""
+
+    @property
+    def verdict_words(self) -> str:
+        return f"{self.verdict} {self.scope}" if self.scope else self.verdict
 
 
 @dataclass(frozen=True)
@@ -132,7 +138,8 @@ def verdict_rows(report) -> list[VerdictRow]:
         expected = cost.expect.get(name)
         rows.append(VerdictRow(name, CONDITION_TITLES.get(name, name), v.verdict, v.code, v.evidence.kind,
                                evidence_words(v, cost.x_names, cost.y_names), v.evidence.summary, expected,
-                               expected is None or expected == v.verdict, tuple(v.notes)))
+                               expected is None or expected == v.verdict, tuple(v.notes),
+                               v.scope.get("text", "") if v.scope else ""))
     for mm in report.mismatches:
         if mm.condition not in report.verdicts:
             rows.append(VerdictRow(mm.condition, CONDITION_TITLES.get(mm.condition, mm.condition), mm.got, "",
