@@ -14,6 +14,7 @@ import numpy as np
 from ..derivatives.fields import Derivatives, Evaluator
 from ..derivatives.mp_backend import HighPrecision, high_precision
 from ..model.cost import Cost
+from ..numerics import precision
 from ..numerics.sampling import PairSample, sample_pairs
 
 
@@ -25,6 +26,8 @@ class CheckContext:
     backend: str = "sympy"
     #: evaluators by derivative order, built on first use
     _evaluators: dict = field(default_factory=dict, repr=False)
+    #: ``(mpmath evaluator or None, reason)`` by derivative order, tried on first use
+    _usable_hp: dict = field(default_factory=dict, repr=False)
 
     def evaluator(self, order: int = 4) -> Evaluator:
         """Derivatives up to at least ``order``, built once and kept.
@@ -64,6 +67,15 @@ class CheckContext:
     @cached_property
     def defined(self) -> np.ndarray:
         return self.derivs.defined
+
+    def usable_high_precision(self, order: int) -> tuple:
+        """``(evaluator, None)`` if the mpmath derivatives up to ``order`` evaluate at a defined sample,
+        else ``(None, reason)``; tried once per order."""
+        if order not in self._usable_hp:
+            i = int(np.argmax(self.defined))
+            self._usable_hp[order] = precision.usable_high_precision(self.cost, order, self.sample.xs[i],
+                                                                     self.sample.ys[i])
+        return self._usable_hp[order]
 
     @cached_property
     def high_precision(self) -> HighPrecision | None:

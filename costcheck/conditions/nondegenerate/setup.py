@@ -29,8 +29,6 @@ class Setup:
         self.width = np.concatenate([hi_x - lo_x, hi_y - lo_y])
         self.diam = float(np.linalg.norm(self.width))
         self.S = 1.0
-        self._hp = None
-        self._hp_reason = None
         self._M_sym = None
         self.decimals = False
 
@@ -61,16 +59,12 @@ class Setup:
     # --- high precision
     @property
     def hp(self):
-        if self._hp is None and self._hp_reason is None:
-            sample = self.ctx.sample
-            i = int(np.argmax(self.ctx.defined))
-            self._hp, self._hp_reason = precision.usable_high_precision(self.cost, 2, sample.xs[i], sample.ys[i])
-        return self._hp
+        return self.ctx.usable_high_precision(2)[0]
 
     @property
     def hp_reason(self):
         """Why high precision is not usable (read after :attr:`hp`; None while it is)."""
-        return self._hp_reason
+        return self.ctx.usable_high_precision(2)[1]
 
     def hp_F(self, u, dps):
         """``det M`` (``n = m``) or ``det AᵀA`` at the mpf point ``u`` and ``dps`` digits."""

@@ -10,7 +10,7 @@ import mpmath
 import numpy as np
 import sympy as sp
 
-from ...numerics import exact, precision, search
+from ...numerics import exact, search
 
 CONDITION = "twist"
 #: stream of the random far-apart pairs in the general search
@@ -45,8 +45,6 @@ class Setup:
         self.diam_y = search.region_diameter(self.domain.y) or 1.0
         lo_x, hi_x = self.domain.x.bounds()
         self.width_x = np.where(hi_x - lo_x > 0, hi_x - lo_x, 1.0)
-        self._hp = None
-        self._hp_reason = None
         self._grad_sym = None
         self.decimals = False
 
@@ -58,16 +56,12 @@ class Setup:
     def hp(self):
         # first derivatives suffice here, and their mpmath form avoids the DiracDelta that a second
         # derivative of abs() brings
-        if self._hp is None and self._hp_reason is None:
-            sample = self.ctx.sample
-            i = int(np.argmax(self.ctx.defined))
-            self._hp, self._hp_reason = precision.usable_high_precision(self.cost, 1, sample.xs[i], sample.ys[i])
-        return self._hp
+        return self.ctx.usable_high_precision(1)[0]
 
     @property
     def hp_reason(self) -> str | None:
         """Why there is no high-precision form (``None`` while there is one or it was not asked for)."""
-        return self._hp_reason
+        return self.ctx.usable_high_precision(1)[1]
 
     def exact_gradient(self) -> list:
         """``D_x c`` as exact sympy expressions (decimal constants read as the decimals written)."""
