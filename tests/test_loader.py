@@ -294,7 +294,7 @@ def test_name_defined_twice(tmp_path):
     rejects(tmp_path, variant(params={"x1": 1}), "params.x1", "'x1' is defined twice", "'x'", "'params'")
     rejects(tmp_path, variant(y=["x1", "y2"]), "y", "'x1' is defined twice")
     rejects(tmp_path, variant(define={"p": "x1", "r2": "x2"}), "define.p", "'p' is defined twice")
-    rejects(tmp_path, variant(x=["x1", "x1"]), "x", "non-unique")
+    rejects(tmp_path, variant(x=["x1", "x1"]), "x", "'x1' appears twice")
 
 
 def test_duplicate_yaml_key_in_define(tmp_path):
