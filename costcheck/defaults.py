@@ -9,3 +9,27 @@ DEFAULT_SEED = 20261201
 
 #: Levels of y on which k(y) is computed by ``costcheck nested``.
 DEFAULT_LEVELS = 96
+
+# Upper bounds of the options a user (or a script fed by a hostile file) can raise; each error
+# message names the option and its limit.
+
+#: --budget: sampled pairs per cost (memory grows with it: measured: 4 GB for 1,000,000 pairs in 2-D)
+MAX_BUDGET = 200_000
+
+#: --seed: 0 .. 2**32 - 1
+MAX_SEED = 2**32 - 1
+
+#: a sweep's grid points in all (each one is a whole check)
+MAX_SWEEP_POINTS = 10_000
+
+#: --prove-seconds, --simplify-seconds: seconds for one stage
+MAX_STAGE_SECONDS = 3600.0
+
+#: --prove-cells
+MAX_PROVE_CELLS = 10_000_000
+
+#: --levels of ``costcheck nested``
+MAX_LEVELS = 100_000
+
+#: --workers of ``costcheck sweep``
+MAX_WORKERS = 256

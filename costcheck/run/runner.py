@@ -12,7 +12,7 @@ import time
 from typing import TYPE_CHECKING, Callable, Sequence
 
 from ..conditions import REGISTRY
-from ..model.verdict import CostReport, Verdict, undecided
+from ..model.verdict import CostReport, Verdict
 from ..defaults import DEFAULT_BUDGET, DEFAULT_SEED
 
 if TYPE_CHECKING:  # the checks' machinery (sympy, SciPy) is imported when checks run, not before
@@ -37,6 +37,7 @@ def run_checks(
     """
     from ..certify import ProofOptions, certify_refutation, strengthen
     from ..conditions.context import CheckContext
+    from .preflight import refuse_nothing_to_check
 
     if isinstance(prove, dict):
         prove = ProofOptions(**prove)
@@ -47,15 +48,13 @@ def run_checks(
 
     started = time.perf_counter()
     ctx = CheckContext(cost=cost, seed=seed, budget=budget, backend=backend)
+    # an empty domain, or a cost undefined on all of it, is a mistake in the file (exit status 2)
+    refuse_nothing_to_check(ctx)
     verdicts: dict[str, Verdict] = {}
     for name in conditions or REGISTRY:
         if on_progress:
             on_progress(name)
         module = importlib.import_module(f"costcheck.conditions.{REGISTRY[name]}")
-        if ctx.sample.count == 0 or not ctx.defined.any():
-            verdicts[name] = undecided(name, "no sampled pair lies where the cost is defined (inside the domain "
-                                             "and with finite derivatives); check the expression and the domain")
-            continue
         verdict = certify_refutation(ctx, module.check(ctx))
         if prove is not None:
             if on_progress:

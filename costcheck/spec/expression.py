@@ -404,3 +404,56 @@ def referenced_names(text: object) -> set[str]:
     """The plain names an expression mentions (for ordering helper definitions)."""
     tree = _parse_tree(text)
     return {n.id for n in ast.walk(tree) if isinstance(n, ast.Name)}
+
+
+def _why_undefined(node: sp.Expr, args: list[complex]) -> str:
+    """Why ``node`` has no finite real value although its arguments do (words for a user)."""
+    a = args[0].real if args else 0.0
+    if node.is_Pow:
+        base, exponent = args
+        if base == 0 and exponent.real < 0:
+            return "a division by zero"
+        if base.real < 0:
+            return f"a fractional power of the negative number {base.real:.6g}"
+        return "too large for floating point"
+    name = getattr(node.func, "__name__", str(node.func))
+    if name == "log":
+        return f"log of {'0' if a == 0 else f'the negative number {a:.6g}'}"
+    if name in ("asin", "acos"):
+        return f"{name} of {a:.6g}, outside [-1, 1]"
+    if name == "acosh":
+        return f"acosh of {a:.6g}, below 1"
+    if name == "atanh":
+        return f"atanh of {a:.6g}, outside (-1, 1)"
+    return "not finite in floating point"
+
+
+def locate_undefined(expr: sp.Expr, point: Mapping[sp.Symbol, float]) -> tuple[str, str] | None:
+    """The innermost part of ``expr`` with no finite real value at ``point``, and why.
+
+    ``(part as text, reason)``, or ``None`` when every part has a finite real value there
+    (then only a derivative is undefined, e.g. at the kink of ``abs``).  Evaluated in
+    float64, as the derivative evaluators are.
+    """
+    memo: dict = {sym: complex(float(v)) for sym, v in point.items()}
+    stack = [(expr, False)]
+    while stack:
+        node, done = stack.pop()
+        if node in memo:
+            continue
+        if not done:
+            stack.append((node, True))
+            stack.extend((a, False) for a in node.args if a not in memo)
+            continue
+        args = [memo[a] for a in node.args]
+        if any(v is None for v in args):
+            memo[node] = None
+            continue
+        try:
+            value = _float_of(node, {**{a: v for a, v in zip(node.args, args)}})
+        except ConstantOverflow:
+            value = None
+        if value is None or abs(value.imag) > 1e-12 * max(1.0, abs(value.real)):
+            return _brief(node, 60), _why_undefined(node, args)
+        memo[node] = complex(value.real)
+    return None
