@@ -241,14 +241,15 @@ def check_expanded(expr: sp.Expr) -> None:
                   f"{MAX_EXPANDED_DEPTH} levels")
         if node.is_Pow and seen[node.args[1]][2]:
             _check_exponent(node.args[1])
-        if constant and node.args:
+        if constant and not node.is_Rational:  # also the atoms I, zoo, nan, oo
             try:
                 value = _float_of(node, values)
             except ConstantOverflow:
                 _fail(f"the constant {_brief(node)} is not finite in floating point (it overflows, or is "
                       f"undefined); numbers are limited to about 1e308")
             if value.imag != 0:
-                _fail(f"the constant {_brief(node)} is not a real number")
+                what = "the imaginary unit I" if node is sp.I else _brief(node)
+                _fail(f"the constant {what} is not a real number (as from sqrt(-1) or log(-2))")
 
 
 class _Builder:

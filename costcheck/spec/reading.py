@@ -60,7 +60,8 @@ class _StrictSafeLoader(yaml.SafeLoader):
                 kind = {bool: "true/false", int: "a whole number", float: "a number",
                         type(None): "empty (null)"}.get(type(key), f"a {type(key).__name__}")
                 raise yaml.MarkedYAMLError(
-                    None, None, f"the key {str(key)[:40]!r} is {kind}; keys must be names (text)",
+                    None, None, f"the key {str(getattr(key_node, 'value', key))[:40]!r} is {kind}; keys must be "
+                                f"names (text)",
                     key_node.start_mark)
             if duplicate:
                 raise yaml.MarkedYAMLError(
@@ -85,7 +86,8 @@ def read_yaml(text: str, file: str | None = None) -> Any:
     except ValueError as exc:
         # Fix: PyYAML's constructors raise plain ValueError for an integer over Python's
         # 4300-digit limit or an impossible date (2001-02-30); this escaped as a traceback.
-        raise CostFileError(f"bad YAML: a value cannot be read ({exc})", file=file) from None
+        detail = "a number has more than 4300 digits" if "digits" in str(exc) else " ".join(str(exc).split())[:120]
+        raise CostFileError(f"bad YAML: a value cannot be read ({detail})", file=file) from None
 
 
 # --------------------------------------------------------------------------- schema
