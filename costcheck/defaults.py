@@ -33,3 +33,15 @@ MAX_LEVELS = 100_000
 
 #: --workers of ``costcheck sweep``
 MAX_WORKERS = 256
+
+# Wall-time bounds on the stages a cost file controls (its expression decides how long they
+# take); past a bound the verdict is "undecided" and says so, instead of a hang.
+
+#: building and evaluating the shared derivatives (symbolic differentiation, compilation)
+DERIVATIVE_SECONDS = 60.0
+
+#: one condition's check, including the certification of its witness and any proof attempt
+CONDITION_SECONDS = 900.0
+
+#: one exact zero test (an expansion of a constant expression)
+EXACT_ZERO_SECONDS = 10.0

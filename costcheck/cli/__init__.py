@@ -317,7 +317,7 @@ def _cmd_show(args, out: Console) -> int:
 
     cost = load_cost(args.file)
     order = 4 if cost.n == cost.m else 2
-    derivs = symbolic_derivatives(cost.expr, cost.x_symbols, cost.y_symbols, order)
+    derivs = _bounded(cost.file, "the derivatives", symbolic_derivatives, cost.expr, cost.x_symbols, cost.y_symbols, order)
     sizes = {}
     for name, entries in derivs.items():
         flat = sp.flatten(entries) if isinstance(entries, list) else [entries]
@@ -360,13 +360,28 @@ def _cmd_show(args, out: Console) -> int:
     return EXIT_OK
 
 
+def _bounded(file, stage: str, fn, *args, extra: float = 0.0, **kwargs):
+    """``fn(*args, **kwargs)`` within the derivative stage's wall-time bound, or a one-line error."""
+    from ..defaults import DERIVATIVE_SECONDS
+    from ..errors import CostFileError
+    from ..numerics.bounded import within
+
+    status, value = within(DERIVATIVE_SECONDS + extra, stage, fn, *args, **kwargs)
+    if status == "timeout":
+        raise CostFileError(f"{stage} did not finish within {DERIVATIVE_SECONDS + extra:g} s (the bound on the symbolic "
+                         "work a cost file can ask for); the expression is too large for this command", file=file, field="expr")
+    return value
+
+
 def _cmd_tensor(args, out: Console) -> int:
     from ..spec.loader import load_cost
     from ..numerics.curvature.symbolic import mtw_tensor_symbolic
     import sympy as sp
 
     cost = load_cost(args.file)
-    components = mtw_tensor_symbolic(cost, simplify_seconds=args.simplify_seconds)
+    # the simplification has its own limit (--simplify-seconds); forming the tensor is bounded here
+    components = _bounded(cost.file, "forming the MTW tensor", mtw_tensor_symbolic, cost, simplify_seconds=args.simplify_seconds,
+                          extra=args.simplify_seconds)
     label = lambda idx: "".join(str(i + 1) for i in idx)  # noqa: E731
     if args.json:
         print(json.dumps({

@@ -2,9 +2,11 @@
 
     python tests/hostile/harness.py < cases.json > results.json
 
-``cases.json`` is a list of ``{"name", "argv", "cwd"}``; each result adds ``status`` (the exit
+``cases.json`` is a list of ``{"name", "argv", "cwd"}`` (and optionally ``"bounds"``: values
+for :mod:`costcheck.defaults`' stage bounds in that child); each result adds ``status`` (the exit
 status, or ``None`` if a signal ended the child), ``signal``, ``stdout``, ``stderr``,
-``seconds`` (wall time) and ``grown_mb`` (peak resident memory above what the child inherited).
+``seconds`` (wall time) and ``peak_mb`` (the child's peak resident memory, as the kernel counts it: pages it
+inherited count once it touches them).
 
 The parent imports costcheck's reading, loading and checking machinery once (a second or
 two), so each case costs only its own work.  A child gets ``alarm(TIME_LIMIT)`` (a read that
@@ -34,7 +36,7 @@ def _vm_kb(field: str) -> int:
     return 0
 
 
-def _child(argv: list[str], cwd: str, out_path: str, err_path: str) -> None:
+def _child(argv: list[str], cwd: str, out_path: str, err_path: str, bounds: dict) -> None:
     os.chdir(cwd)
     out = os.open(out_path, os.O_WRONLY | os.O_TRUNC)
     err = os.open(err_path, os.O_WRONLY | os.O_TRUNC)
@@ -48,7 +50,11 @@ def _child(argv: list[str], cwd: str, out_path: str, err_path: str) -> None:
     signal.alarm(TIME_LIMIT)
     code = 99
     try:
+        import costcheck.defaults
         from costcheck.cli import main
+
+        for name, value in bounds.items():  # smaller stage bounds, to see one reached in seconds
+            setattr(costcheck.defaults, name, value)
 
         code = main(argv)
     except SystemExit as exc:
@@ -74,7 +80,6 @@ def run(cases: list[dict]) -> list[dict]:
     import costcheck.run.runner  # noqa: F401
     import costcheck.spec.loader  # noqa: F401
 
-    inherited_kb = _vm_kb("VmRSS")
     results = []
     with tempfile.TemporaryDirectory(prefix="costcheck-hostile-") as scratch:
         out_path, err_path = os.path.join(scratch, "out"), os.path.join(scratch, "err")
@@ -86,7 +91,7 @@ def run(cases: list[dict]) -> list[dict]:
             started = time.perf_counter()
             pid = os.fork()
             if pid == 0:
-                _child(case["argv"], case.get("cwd", "."), out_path, err_path)
+                _child(case["argv"], case.get("cwd", "."), out_path, err_path, case.get("bounds", {}))
             _, status, usage = os.wait4(pid, 0)
             seconds = time.perf_counter() - started
             with open(out_path, encoding="utf-8", errors="replace") as handle:
@@ -100,7 +105,7 @@ def run(cases: list[dict]) -> list[dict]:
                 "stdout": stdout[-4000:],
                 "stderr": stderr[-4000:],
                 "seconds": round(seconds, 3),
-                "grown_mb": round(max(0, usage.ru_maxrss - inherited_kb) / 1024, 1),
+                "peak_mb": round(usage.ru_maxrss / 1024, 1),
             })
     return results
 
