@@ -262,7 +262,11 @@ def _cmd_report(args, out: Console, err: Console) -> int:
     result = _checked(args, err, full_costs=True)
     if result is None:
         return EXIT_BAD_INPUT
-    written = write_report(result.reports, result.errors, args.out, options=_run_options(args))
+    try:
+        written = write_report(result.reports, result.errors, args.out, options=_run_options(args))
+    except OSError as exc:
+        from ..errors import UsageError
+        raise UsageError(f"cannot write the report into {args.out}: {exc.strerror or exc} (option --out)") from None
     for path in written:
         out.print(f"wrote {path}", markup=False)
     return _exit_code(result)

@@ -104,6 +104,11 @@ def _make_special(folder: Path) -> dict[str, tuple[list[str], str, str]]:
         "show-named-pipe": (["show", str(fifo)], str(fifo), "named pipe"),
         "tensor-link-to-dev-zero": (["tensor", str(zero)], str(zero), "device"),
         "sweep-named-pipe": (["sweep", str(fifo), "--vary", "p=0:1:3"], str(fifo), "named pipe"),
+        "nested-source-named-pipe": (["nested", str(valid), "--source", str(data_pipe)], str(data_pipe), "named pipe"),
+        "report-out-is-a-file": (["report", str(valid), "--out", str(big), "--budget", "64", "--only", "twist"],
+                                 "--out", "cannot write the report"),
+        "junit-unwritable": (["check", str(valid), "--junit", str(folder / "absent" / "j.xml"), "--budget", "64",
+                              "--only", "twist"], "j.xml", "cannot write the JUnit file"),
     }
 
 
