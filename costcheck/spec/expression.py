@@ -245,6 +245,8 @@ def check_expanded(expr: sp.Expr) -> None:
             try:
                 value = _float_of(node, values)
             except ConstantOverflow:
+                if node in (sp.zoo, sp.nan, sp.oo, -sp.oo):
+                    _fail("the expression is undefined (a division by zero, log(0) or similar between constants)")
                 _fail(f"the constant {_brief(node)} is not finite in floating point (it overflows, or is "
                       f"undefined); numbers are limited to about 1e308")
             if value.imag != 0:
