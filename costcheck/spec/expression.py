@@ -250,8 +250,9 @@ def check_expanded(expr: sp.Expr) -> None:
                 _fail(f"the constant {_brief(node)} is not finite in floating point (it overflows, or is "
                       f"undefined); numbers are limited to about 1e308")
             if value.imag != 0:
-                what = "the imaginary unit I" if node is sp.I else _brief(node)
-                _fail(f"the constant {what} is not a real number (as from sqrt(-1) or log(-2))")
+                if node is sp.I:
+                    _fail("the expression is not a real number: it contains the imaginary unit (as from sqrt(-1))")
+                _fail(f"the constant {_brief(node)} is not a real number (as sqrt(-1) or log(-2) are not)")
 
 
 class _Builder:
