@@ -17,3 +17,40 @@ DEFAULT_PROOF_SECONDS = 4.0
 LONG_PROOF_SECONDS = 60.0
 #: Cells (boxes) each proof attempt may split the domain into.
 DEFAULT_PROOF_CELLS = 20000
+
+# Upper bounds of the options a user (or a script fed by a hostile file) can raise; each error
+# message names the option and its limit.
+
+#: --budget: sampled pairs per cost (memory grows with it; measured on the 2-D squared distance:
+#: 0.9 GB peak at 200,000 pairs, 4 GB at 1,000,000)
+MAX_BUDGET = 200_000
+
+#: --seed: 0 .. 2**32 - 1
+MAX_SEED = 2**32 - 1
+
+#: a sweep's grid points in all (each one is a whole check)
+MAX_SWEEP_POINTS = 10_000
+
+#: --prove-seconds, --simplify-seconds: seconds for one stage
+MAX_STAGE_SECONDS = 3600.0
+
+#: --prove-cells
+MAX_PROVE_CELLS = 10_000_000
+
+#: --levels of ``costcheck nested``
+MAX_LEVELS = 100_000
+
+#: --workers of ``costcheck sweep``
+MAX_WORKERS = 256
+
+# Wall-time bounds on the stages a cost file controls (its expression decides how long they
+# take); past a bound the verdict is "undecided" and says so, instead of a hang.
+
+#: building and evaluating the shared derivatives (symbolic differentiation, compilation)
+DERIVATIVE_SECONDS = 60.0
+
+#: one condition's check, including the certification of its witness and any proof attempt
+CONDITION_SECONDS = 900.0
+
+#: one exact zero test (an expansion of a constant expression)
+EXACT_ZERO_SECONDS = 10.0

@@ -2,13 +2,15 @@
 
 Exit codes, like a linter's: 0 all fine; 1 an expectation written in a cost file
 was not met; 2 bad input or usage (a one-line message naming the file and the
-field; never a traceback).
+field; never a traceback); 3 an internal error (a bug: one line, the traceback in a
+file the line names).
 """
 
 from __future__ import annotations
 
 import argparse
 import json
+import os
 import sys
 from contextlib import contextmanager
 from pathlib import Path
@@ -17,7 +19,7 @@ from typing import Sequence
 from rich.console import Console
 
 from .. import __version__
-from ..errors import EXIT_BAD_INPUT, EXIT_EXPECTATION_FAILED, EXIT_OK, CostcheckError
+from ..errors import EXIT_BAD_INPUT, EXIT_EXPECTATION_FAILED, EXIT_INTERNAL_ERROR, EXIT_OK, CostcheckError
 
 
 class _Parser(argparse.ArgumentParser):
@@ -29,33 +31,57 @@ class _Parser(argparse.ArgumentParser):
         raise SystemExit(EXIT_BAD_INPUT)
 
 
-def _positive_int(text: str) -> int:
-    try:
-        value = int(text)
-    except ValueError:
-        raise argparse.ArgumentTypeError(f"expected a whole number, got {text!r}") from None
-    if value < 1:
-        raise argparse.ArgumentTypeError(f"expected a positive number, got {value}")
-    return value
+def _whole(low: int, high: int, what: str = ""):
+    """An argparse type: a whole number in [low, high]; the message names the limit."""
+    def parse(text: str) -> int:
+        try:
+            value = int(text)
+        except ValueError:
+            raise argparse.ArgumentTypeError(f"expected a whole number, got {text[:40]!r}") from None
+        if value < low:
+            raise argparse.ArgumentTypeError(
+                f"expected {'a positive number' if low == 1 else f'at least {low}'}, got {value}")
+        if value > high:
+            raise argparse.ArgumentTypeError(f"at most {high}{what} (got {value})")
+        return value
+    return parse
 
 
-def _positive_float(text: str) -> float:
-    try:
-        value = float(text)
-    except ValueError:
-        raise argparse.ArgumentTypeError(f"expected a number, got {text!r}") from None
-    if not value > 0:
-        raise argparse.ArgumentTypeError(f"expected a positive number, got {text}")
-    return value
+def _real(low: float, high: float, *, allow_low: bool = False, what: str = ""):
+    """An argparse type: a finite number above ``low`` (or equal, with ``allow_low``), at most ``high``."""
+    def parse(text: str) -> float:
+        try:
+            value = float(text)
+        except ValueError:
+            raise argparse.ArgumentTypeError(f"expected a number, got {text[:40]!r}") from None
+        if not (value >= low if allow_low else value > low):
+            raise argparse.ArgumentTypeError(
+                f"expected a {'non-negative' if allow_low and low == 0 else 'positive'} number, got {text[:40]}")
+        if not value <= high:  # also refuses nan and inf
+            raise argparse.ArgumentTypeError(f"at most {high:g}{what} (got {text[:40]})")
+        return value
+    return parse
+
+
+def _seed_option(command, default_seed: int) -> None:
+    from ..defaults import MAX_SEED
+    command.add_argument("--seed", type=_whole(0, MAX_SEED), default=default_seed,
+                         help=f"random seed, 0 to {MAX_SEED} (default {default_seed})")
+
+
+def _budget_type():
+    from ..defaults import MAX_BUDGET
+    return _whole(1, MAX_BUDGET, " sampled pairs per cost")
 
 
 def _add_check_options(command, conditions, default_seed: int, default_budget: int) -> None:
     """The options ``check`` and ``report`` share: which files, and how they are checked."""
-    from ..defaults import DEFAULT_PROOF_CELLS, DEFAULT_PROOF_SECONDS, LONG_PROOF_SECONDS
+    from ..defaults import (DEFAULT_PROOF_CELLS, DEFAULT_PROOF_SECONDS, LONG_PROOF_SECONDS, MAX_PROVE_CELLS,
+                            MAX_STAGE_SECONDS)
 
     command.add_argument("paths", nargs="+", metavar="PATH")
-    command.add_argument("--seed", type=int, default=default_seed, help=f"random seed (default {default_seed})")
-    command.add_argument("--budget", type=_positive_int, default=default_budget,
+    _seed_option(command, default_seed)
+    command.add_argument("--budget", type=_budget_type(), default=default_budget,
                          help=f"sampled (x, y) pairs per cost; more is slower and more thorough "
                               f"(default {default_budget})")
     command.add_argument("--backend", choices=["sympy", "jax"], default="sympy",
@@ -71,10 +97,11 @@ def _add_check_options(command, conditions, default_seed: int, default_budget: i
                              "MTW identities); an unfinished attempt reports the coverage reached")
     proofs.add_argument("--quick", action="store_true",
                         help="sampling only: attempt no proofs (every 'holds' stays sampled evidence)")
-    command.add_argument("--prove-seconds", type=_positive_float, default=None, metavar="S",
+    command.add_argument("--prove-seconds", type=_real(0.0, MAX_STAGE_SECONDS, what=" seconds"), default=None,
+                         metavar="S",
                          help=f"time for each condition's proof attempt (default {DEFAULT_PROOF_SECONDS:g}, "
                               f"or {LONG_PROOF_SECONDS:g} with --prove)")
-    command.add_argument("--prove-cells", type=_positive_int, default=DEFAULT_PROOF_CELLS, metavar="N",
+    command.add_argument("--prove-cells", type=_whole(1, MAX_PROVE_CELLS, " cells"), default=DEFAULT_PROOF_CELLS, metavar="N",
                          help=f"cells (boxes) for each condition's proof attempt (default {DEFAULT_PROOF_CELLS})")
 
 
@@ -114,7 +141,9 @@ def _build_parser() -> argparse.ArgumentParser:
     tensor.add_argument("file", metavar="FILE")
     tensor.add_argument("--latex", action="store_true", help="print LaTeX instead of plain text")
     tensor.add_argument("--json", action="store_true")
-    tensor.add_argument("--simplify-seconds", type=float, default=10.0,
+    from ..defaults import MAX_LEVELS, MAX_STAGE_SECONDS, MAX_WORKERS
+    tensor.add_argument("--simplify-seconds", type=_real(0.0, MAX_STAGE_SECONDS, allow_low=True, what=" seconds"),
+                        default=10.0,
                         help="time allowed for simplification, in total (default 10; 0 skips it)")
 
     sweep = sub.add_parser("sweep", help="check a cost over a range (or grid) of parameter values and "
@@ -125,14 +154,14 @@ def _build_parser() -> argparse.ArgumentParser:
     sweep.add_argument("--only", action="append", choices=list(REGISTRY), metavar="CONDITION",
                        help=f"run only this condition (repeatable): {', '.join(REGISTRY)}")
     sweep.add_argument("--json", action="store_true", help="print one JSON document instead of tables")
-    sweep.add_argument("--seed", type=int, default=DEFAULT_SEED, help=f"random seed (default {DEFAULT_SEED})")
-    sweep.add_argument("--budget", type=_positive_int, default=DEFAULT_BUDGET,
+    _seed_option(sweep, DEFAULT_SEED)
+    sweep.add_argument("--budget", type=_budget_type(), default=DEFAULT_BUDGET,
                        help=f"sampled (x, y) pairs per value (default {DEFAULT_BUDGET})")
-    sweep.add_argument("--workers", type=_positive_int, default=None,
+    sweep.add_argument("--workers", type=_whole(1, MAX_WORKERS, " workers"), default=None,
                        help="local worker processes (default: the number of CPUs; 1 runs in this process)")
     sweep.add_argument("--scheduler", metavar="ADDRESS", default=None,
                        help="run on a Dask distributed scheduler at ADDRESS instead of local processes")
-    sweep.add_argument("--tolerance", type=float, default=1e-3,
+    sweep.add_argument("--tolerance", type=_real(0.0, 1e6), default=1e-3,
                        help="bisect verdict boundaries to this width (default 1e-3)")
     sweep.add_argument("--no-bisect", action="store_true", help="report grid changes only, no bisection")
     sweep.add_argument("--plots", metavar="DIR", default=None, help="write PNG and SVG pictures into DIR")
@@ -146,7 +175,7 @@ def _build_parser() -> argparse.ArgumentParser:
     nested.add_argument("--target", metavar="CSV", default=None,
                         help="weighted target points (columns: the y name, optional weight) instead of the file's data")
     nested.add_argument("--at", metavar="CSV", default=None, help="evaluate the map T at the points of this CSV")
-    nested.add_argument("--levels", type=_positive_int, default=DEFAULT_LEVELS,
+    nested.add_argument("--levels", type=_whole(1, MAX_LEVELS, " levels"), default=DEFAULT_LEVELS,
                         help=f"levels of y on which k(y) is computed (default {DEFAULT_LEVELS})")
     nested.add_argument("--out", metavar="DIR", default=None,
                         help="write nested.json, levels.csv (k(y)) and the map as CSV into DIR")
@@ -247,7 +276,11 @@ def _cmd_report(args, out: Console, err: Console) -> int:
     result = _checked(args, err, full_costs=True)
     if result is None:
         return EXIT_BAD_INPUT
-    written = write_report(result.reports, result.errors, args.out, options=_run_options(args))
+    try:
+        written = write_report(result.reports, result.errors, args.out, options=_run_options(args))
+    except OSError as exc:
+        from ..errors import UsageError
+        raise UsageError(f"cannot write the report into {args.out}: {exc.strerror or exc} (option --out)") from None
     for path in written:
         out.print(f"wrote {path}", markup=False)
     return _exit_code(result)
@@ -302,7 +335,7 @@ def _cmd_show(args, out: Console) -> int:
 
     cost = load_cost(args.file)
     order = 4 if cost.n == cost.m else 2
-    derivs = symbolic_derivatives(cost.expr, cost.x_symbols, cost.y_symbols, order)
+    derivs = _bounded(cost.file, "the derivatives", symbolic_derivatives, cost.expr, cost.x_symbols, cost.y_symbols, order)
     sizes = {}
     for name, entries in derivs.items():
         flat = sp.flatten(entries) if isinstance(entries, list) else [entries]
@@ -345,13 +378,28 @@ def _cmd_show(args, out: Console) -> int:
     return EXIT_OK
 
 
+def _bounded(file, stage: str, fn, *args, extra: float = 0.0, **kwargs):
+    """``fn(*args, **kwargs)`` within the derivative stage's wall-time bound, or a one-line error."""
+    from ..defaults import DERIVATIVE_SECONDS
+    from ..errors import CostFileError
+    from ..numerics.bounded import within
+
+    status, value = within(DERIVATIVE_SECONDS + extra, stage, fn, *args, **kwargs)
+    if status == "timeout":
+        raise CostFileError(f"{stage} did not finish within {DERIVATIVE_SECONDS + extra:g} s (the bound on the symbolic "
+                         "work a cost file can ask for); the expression is too large for this command", file=file, field="expr")
+    return value
+
+
 def _cmd_tensor(args, out: Console) -> int:
     from ..spec.loader import load_cost
     from ..numerics.curvature.symbolic import mtw_tensor_symbolic
     import sympy as sp
 
     cost = load_cost(args.file)
-    components = mtw_tensor_symbolic(cost, simplify_seconds=args.simplify_seconds)
+    # the simplification has its own limit (--simplify-seconds); forming the tensor is bounded here
+    components = _bounded(cost.file, "forming the MTW tensor", mtw_tensor_symbolic, cost, simplify_seconds=args.simplify_seconds,
+                          extra=args.simplify_seconds)
     label = lambda idx: "".join(str(i + 1) for i in idx)  # noqa: E731
     if args.json:
         print(json.dumps({
@@ -436,6 +484,44 @@ def _error(problem) -> None:
 
 
 def main(argv: Sequence[str] | None = None) -> int:
+    """The command line; an exception nobody expected becomes one line and exit status 3."""
+    try:
+        return _main(argv)
+    except (SystemExit, KeyboardInterrupt):
+        raise
+    except BrokenPipeError:
+        # the reader of our output went away (``costcheck check ... | head``): nothing to report
+        try:
+            sys.stdout = open(os.devnull, "w")  # noqa: SIM115 - Python flushes stdout at exit
+        except OSError:
+            pass
+        return 128 + 13  # the shell's status for a process ended by SIGPIPE
+    except BaseException as exc:  # noqa: BLE001 - the guard: whatever it is, one line, never 0/1/2
+        return _internal_error(exc, argv)
+
+
+def _internal_error(exc: BaseException, argv) -> int:
+    """Write the traceback to a file and say where, in one line (a bug, not bad input)."""
+    import tempfile
+    import traceback
+
+    kind = type(exc).__name__
+    text = " ".join(str(exc).split())[:160]
+    try:
+        fd, path = tempfile.mkstemp(prefix="costcheck-internal-error-", suffix=".txt")
+        with os.fdopen(fd, "w", encoding="utf-8") as handle:
+            handle.write(f"costcheck {__version__}\nargv: {list(sys.argv if argv is None else argv)!r}\n\n")
+            handle.write("".join(traceback.format_exception(exc)))
+        where = f"traceback in {path}"
+    except OSError as write_error:
+        where = f"the traceback could not be written ({write_error.strerror or write_error})"
+    sys.stderr.write(f"costcheck: internal error: {kind}{': ' + text if text else ''} (a bug in costcheck, "
+                     f"not a problem with the input; {where})\n")
+    sys.stderr.flush()
+    return EXIT_INTERNAL_ERROR
+
+
+def _main(argv: Sequence[str] | None = None) -> int:
     # tables are wider than 80 columns; outside a terminal (CI logs, pipes) use a fixed width
     out = Console(highlight=False, width=None if sys.stdout.isatty() else 150)
     err = Console(stderr=True, highlight=False)

@@ -1,8 +1,9 @@
-"""Run one symbolic computation with a time limit (sympy has none of its own).
+"""Run one computation with a time limit (sympy has none of its own).
 
-The work runs in a forked child process and its result comes back through a queue; when the
-time is up the child is terminated and the caller is told so, to report honestly that the
-computation gave up rather than hang.
+:func:`run_with_time_limit` runs the work in a forked child process and its result comes back
+through a queue; when the time is up the child is terminated and the caller is told so, to
+report honestly that the computation gave up rather than hang.  :func:`within` bounds work in
+this process (for results that do not pickle, such as compiled evaluators).
 """
 
 from __future__ import annotations
@@ -37,3 +38,58 @@ def run_with_time_limit(fn: Callable, args: tuple, seconds: float) -> tuple[str,
         proc.terminate()
     proc.join()
     return status, value
+
+
+class StageTimeout(BaseException):
+    """A stage ran past its wall-time bound.
+
+    A ``BaseException``, so that a library's ``except Exception`` around the interrupted work
+    (sympy has several) cannot swallow it and carry on past the bound.
+    """
+
+    def __init__(self, stage: str, seconds: float, token: object):
+        super().__init__(f"{stage} did not finish within {seconds:g} s")
+        self.stage = stage
+        self.seconds = seconds
+        self.token = token
+
+
+def within(seconds: float | None, stage: str, fn: Callable, *args, **kwargs) -> tuple[str, Any]:
+    """``("ok", fn(*args, **kwargs))``, or ``("timeout", None)`` once ``seconds`` of wall time pass.
+
+    In-process, with ``SIGALRM`` (so the result need not pickle, unlike
+    :func:`run_with_time_limit`): the interrupt lands between two Python steps, which bounds
+    sympy's pure-Python work (differentiation, expansion, determinants) but not one long call
+    into compiled code.  Outside the main thread, where Python delivers no signals, ``fn``
+    runs without a bound.  An enclosing bound that ends sooner stays in charge, and its
+    timeout passes through to its own caller.
+    """
+    import signal
+    import threading
+    import time
+
+    if (seconds is None or not hasattr(signal, "setitimer")
+            or threading.current_thread() is not threading.main_thread()):
+        return "ok", fn(*args, **kwargs)
+    outer_left, _ = signal.getitimer(signal.ITIMER_REAL)
+    if outer_left and outer_left <= seconds:
+        return "ok", fn(*args, **kwargs)
+    token = object()
+
+    def expire(signum, frame):
+        raise StageTimeout(stage, seconds, token)
+
+    previous = signal.signal(signal.SIGALRM, expire)
+    started = time.monotonic()
+    signal.setitimer(signal.ITIMER_REAL, max(seconds, 1e-3))
+    try:
+        return "ok", fn(*args, **kwargs)
+    except StageTimeout as exc:
+        if exc.token is not token:
+            raise
+        return "timeout", None
+    finally:
+        signal.setitimer(signal.ITIMER_REAL, 0)
+        signal.signal(signal.SIGALRM, previous)
+        if outer_left:
+            signal.setitimer(signal.ITIMER_REAL, max(outer_left - (time.monotonic() - started), 1e-3))

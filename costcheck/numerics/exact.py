@@ -11,6 +11,8 @@ import mpmath
 import numpy as np
 import sympy as sp
 
+from ..defaults import EXACT_ZERO_SECONDS
+from .bounded import within
 from .precision import mp_det
 
 _DENOMINATORS = (1, 2, 3, 4, 5, 6, 8, 10, 12, 16, 20, 25, 50, 100, 1000, 10**4, 10**6)
@@ -113,14 +115,18 @@ def exactly_zero(expr: sp.Expr, digits: int = 40, max_ops: int = 200) -> bool:
         return True
     if sp.count_ops(expr) > max_ops:
         return False
-    return sp.expand(expr) == 0
+    # a few operations can still expand to very many terms ((a + b + c)**60): bounded, and a
+    # timeout is "not shown exactly", which the caller already handles
+    status, expanded = within(EXACT_ZERO_SECONDS, "an exact zero test", sp.expand, expr)
+    return status == "ok" and expanded == 0
 
 
 def exact_det(rows: sp.Matrix) -> sp.Expr | None:
     """The determinant of a matrix of exact numbers without sympy's intermediate simplification.
 
     ``None`` when a cheap numeric screen (40 digits) already shows it is not zero, so no
-    exact work is wasted on it.
+    exact work is wasted on it, or when the exact work takes longer than
+    :data:`~costcheck.defaults.EXACT_ZERO_SECONDS`.
     """
     with mpmath.workdps(40):
         try:
@@ -136,7 +142,9 @@ def exact_det(rows: sp.Matrix) -> sp.Expr | None:
     from sympy.matrices.utilities import dotprodsimp
 
     with dotprodsimp(False):
-        return rows.det(method="berkowitz")
+        # bounded like exactly_zero; None (no exact determinant) sends the caller to high precision
+        status, det = within(EXACT_ZERO_SECONDS, "an exact determinant", rows.det, method="berkowitz")
+        return det if status == "ok" else None
 
 
 def points_in_domain(domain, x_exact: Sequence[sp.Expr], y_exact: Sequence[sp.Expr]) -> bool:

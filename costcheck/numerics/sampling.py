@@ -26,6 +26,8 @@ class PairSample:
     acceptance: float
     #: typical spacing of the samples in the joint box, (volume / N) ** (1/d)
     resolution: float
+    #: how many points of the bounding boxes were drawn to find them
+    drawn: int = 0
 
     @property
     def count(self) -> int:
@@ -64,7 +66,7 @@ def sample_pairs(domain: Domain, n: int, m: int, count: int, seed: int) -> PairS
     volume = float(np.prod(upper - lower)) * acceptance
     d = n + m
     resolution = (volume / max(points.shape[0], 1)) ** (1.0 / d) if volume > 0 else float("nan")
-    return PairSample(points[:, :n], points[:, n:], acceptance, resolution)
+    return PairSample(points[:, :n], points[:, n:], acceptance, resolution, drawn)
 
 
 def sample_side(domain: Domain, side: str, dim: int, count: int, seed: int) -> np.ndarray:

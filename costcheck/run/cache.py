@@ -64,7 +64,9 @@ def default_directory() -> Path:
 def tool_fingerprint() -> dict:
     """The tool's version, a digest of its own source and its numerical libraries' versions."""
     digest = hashlib.sha256()
-    package = Path(__file__).resolve().parent
+    # the whole costcheck package (this file is in costcheck/run/): since the layout by pipeline
+    # step, ``.parent`` alone hashed only run/, so a changed loader or condition kept old results
+    package = Path(__file__).resolve().parent.parent
     for path in sorted(package.rglob("*.py")):
         digest.update(path.relative_to(package).as_posix().encode())
         digest.update(b"\0")

@@ -12,8 +12,10 @@ import time
 from typing import TYPE_CHECKING, Callable, Sequence
 
 from ..conditions import REGISTRY
+from .. import defaults
 from ..model.verdict import CostReport, Verdict, undecided
 from ..defaults import DEFAULT_BUDGET, DEFAULT_SEED
+from ..numerics.bounded import within
 
 if TYPE_CHECKING:  # the checks' machinery (sympy, SciPy) is imported when checks run, not before
     from ..model.cost import Cost
@@ -37,6 +39,7 @@ def run_checks(
     """
     from ..certify import ProofOptions, certify_refutation, strengthen
     from ..conditions.context import CheckContext
+    from .preflight import refuse_nothing_to_check
 
     if isinstance(prove, dict):
         prove = ProofOptions(**prove)
@@ -47,20 +50,37 @@ def run_checks(
 
     started = time.perf_counter()
     ctx = CheckContext(cost=cost, seed=seed, budget=budget, backend=backend)
+    # an empty domain, or a cost undefined on all of it, is a mistake in the file (exit status 2);
+    # finding out builds and evaluates the shared derivatives, a stage the file's expression
+    # can make arbitrarily slow: bounded, and past the bound nothing is decided
+    # (the sample is drawn first, outside the bound: an interrupt inside SciPy's one-time Sobol
+    # initialisation is swallowed by its compiled code and would leave it half done)
+    ctx.sample  # noqa: B018 - drawn here on purpose
+    status, _ = within(defaults.DERIVATIVE_SECONDS, "the derivatives", refuse_nothing_to_check, ctx)
     verdicts: dict[str, Verdict] = {}
     for name in conditions or REGISTRY:
+        if status == "timeout":
+            verdicts[name] = undecided(name, f"not checked: computing the derivatives of the cost (symbolic "
+                                             f"differentiation and compilation) did not finish within "
+                                             f"{defaults.DERIVATIVE_SECONDS:g} s", stopped_after=defaults.DERIVATIVE_SECONDS)
+            continue
         if on_progress:
             on_progress(name)
         module = importlib.import_module(f"costcheck.conditions.{REGISTRY[name]}")
-        if ctx.sample.count == 0 or not ctx.defined.any():
-            verdicts[name] = undecided(name, "no sampled pair lies where the cost is defined (inside the domain "
-                                             "and with finite derivatives); check the expression and the domain")
-            continue
-        verdict = certify_refutation(ctx, module.check(ctx))
-        if prove is not None:
-            if on_progress:
-                on_progress(f"{name}: proof")
-            verdict = strengthen(ctx, verdict, prove)
+
+        def one_condition(module=module, name=name):
+            verdict = certify_refutation(ctx, module.check(ctx))
+            if prove is not None:
+                if on_progress:
+                    on_progress(f"{name}: proof")
+                verdict = strengthen(ctx, verdict, prove)
+            return verdict
+
+        done, verdict = within(defaults.CONDITION_SECONDS, f"the {name} check", one_condition)
+        if done == "timeout":
+            verdict = undecided(name, f"stopped: the check did not finish within {defaults.CONDITION_SECONDS:g} s "
+                                      "(the bound on one check of a cost); nothing was established",
+                                stopped_after=defaults.CONDITION_SECONDS)
         verdicts[name] = verdict
     options = {"budget": budget, "seed": seed, "backend": backend}
     if prove is not None:

@@ -6,6 +6,8 @@ condition's job (costcheck.conditions.nested.measures)."""
 from __future__ import annotations
 
 import csv
+import io
+import os
 from dataclasses import dataclass
 from pathlib import Path
 from typing import Mapping, Sequence
@@ -15,10 +17,13 @@ import sympy as sp
 
 from ..errors import CostFileError
 from .expression import parse_expression
+from .reading import open_regular_file, read_capped_bytes
 
 MAX_CSV_BYTES = 64 * 1024 * 1024
 
 MAX_CSV_ROWS = 2_000_000
+
+MAX_HEADER_CHARS = 4096
 
 WEIGHT_COLUMN = "weight"
 
@@ -81,13 +86,23 @@ def density_side(role: str, text, symbols: Sequence[sp.Symbol], constants: Mappi
 
 def points_side(role: str, path: Path, file: str | None, field: str, names: Sequence[str] | None = None) -> SideSpec:
     """A CSV side; its header is checked now (cheap), its rows when the points are needed."""
-    if not path.is_file():
+    if not os.path.lexists(path):
         raise CostFileError(f"no such CSV file: {path}", file=file, field=field)
+    # the same door as cost files: a pipe, a device or a link loop is refused by kind
+    open_regular_file(path, str(path)).close()
     if names is not None:
         try:
-            with path.open(newline="", encoding="utf-8") as handle:
-                header = next(csv.reader(handle), [])
-        except (UnicodeDecodeError, csv.Error) as exc:
+            with open_regular_file(path, str(path)) as raw, \
+                    io.TextIOWrapper(raw, encoding="utf-8", newline="") as handle:
+                first = handle.readline(MAX_HEADER_CHARS + 1)
+        except UnicodeDecodeError:
+            raise CostFileError("not UTF-8 text", file=str(path)) from None
+        if len(first) > MAX_HEADER_CHARS:
+            raise CostFileError(f"the first line (the column names) is longer than {MAX_HEADER_CHARS} characters",
+                                file=str(path))
+        try:
+            header = next(csv.reader([first]), [])
+        except csv.Error as exc:
             raise CostFileError(f"unreadable CSV ({exc})", file=str(path)) from None
         _check_header([h.strip() for h in header], names, str(path))
     return SideSpec(role, "points", path=path, written=str(path), origin=field)
@@ -113,15 +128,9 @@ def _check_header(header: list[str], names: Sequence[str], label: str) -> None:
 def read_points(path: Path, names: Sequence[str]) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
     """Coordinates, raw weights and CSV row numbers from a file whose header is ``names`` plus optional ``weight``."""
     label = str(path)
+    raw = read_capped_bytes(path, MAX_CSV_BYTES, label, kind="data files")
     try:
-        size = path.stat().st_size
-    except OSError as exc:
-        raise CostFileError(f"cannot read: {exc.strerror or exc}", file=label) from None
-    if size > MAX_CSV_BYTES:
-        raise CostFileError(f"the file is {size} bytes; data files are limited to {MAX_CSV_BYTES}", file=label)
-    try:
-        with path.open(newline="", encoding="utf-8") as handle:
-            rows = list(csv.reader(handle))
+        rows = list(csv.reader(io.StringIO(raw.decode("utf-8"), newline="")))
     except UnicodeDecodeError:
         raise CostFileError("not UTF-8 text", file=label) from None
     except csv.Error as exc:

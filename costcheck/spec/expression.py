@@ -14,6 +14,8 @@ where the caller asks for a constraint.
 from __future__ import annotations
 
 import ast
+import cmath
+import math
 from typing import Mapping
 
 import sympy as sp
@@ -53,7 +55,12 @@ MAX_NODES = 2000  # syntax-tree nodes in one expression
 MAX_DEPTH = 60  # nesting depth of the syntax tree
 MAX_LITERAL = 10**12  # largest absolute value of a number literal
 MAX_EXPONENT = 64  # largest absolute value of a numeric exponent
-MAX_RESULT_DIGITS = 300  # largest power of ten a numeric power may reach
+MAX_RESULT_DIGITS = 300  # largest power of ten a numeric power (or any number) may reach
+# Limits on the expression as it stands after helpers ('define') and parameters are substituted:
+# 41 helpers, each using the one before twice, write out to 2**41 nodes although each string
+# is short, and 60 helpers a_k = a_(k-1)*a_(k-1) fold into a power 2**60.
+MAX_EXPANDED_NODES = 5000  # nodes of the expression written out as a tree
+MAX_EXPANDED_DEPTH = 100  # nesting depth of that tree
 
 _BINARY = {ast.Add: "+", ast.Sub: "-", ast.Mult: "*", ast.Div: "/", ast.Pow: "**"}
 _COMPARE = {ast.Lt: "<", ast.LtE: "<=", ast.Gt: ">", ast.GtE: ">="}
@@ -100,6 +107,152 @@ def _parse_tree(text: object) -> ast.expr:
     if _depth(tree) > MAX_DEPTH:
         _fail(f"the expression is nested deeper than {MAX_DEPTH} levels")
     return tree.body
+
+
+def _digits(n: int) -> float:
+    return abs(n).bit_length() * math.log10(2)
+
+
+class ConstantOverflow(ValueError):
+    """A constant that does not fit a float64 (or is not finite)."""
+
+
+def _c(fn):
+    def apply(*args):
+        try:
+            return complex(fn(*args))
+        except (OverflowError, ZeroDivisionError, ValueError):
+            raise ConstantOverflow from None
+    return apply
+
+
+_FLOAT_FUNCTIONS = {
+    sp.exp: _c(cmath.exp), sp.log: _c(cmath.log), sp.sin: _c(cmath.sin), sp.cos: _c(cmath.cos),
+    sp.tan: _c(cmath.tan), sp.sinh: _c(cmath.sinh), sp.cosh: _c(cmath.cosh), sp.tanh: _c(cmath.tanh),
+    sp.asin: _c(cmath.asin), sp.acos: _c(cmath.acos), sp.atan: _c(cmath.atan), sp.asinh: _c(cmath.asinh),
+    sp.acosh: _c(cmath.acosh), sp.atanh: _c(cmath.atanh), sp.Abs: _c(abs),
+}
+
+
+def _finite(value: complex) -> complex:
+    if not (math.isfinite(value.real) and math.isfinite(value.imag)):
+        raise ConstantOverflow
+    return value
+
+
+def _float_of(node: sp.Expr, memo: dict) -> complex:
+    """A constant sympy expression in complex float64, bottom-up, never in arbitrary precision.
+
+    sympy's own numeric evaluation of a tower such as exp(exp(exp(10))) needs ~10**4 digits
+    and the next storey 10**9566; float64 overflows at once, which is the answer we need
+    (the derivative evaluators run in float64 too).
+    """
+    if node in memo:
+        return memo[node]
+    if node.is_Rational:
+        try:
+            value = complex(node.p / node.q)
+        except OverflowError:
+            raise ConstantOverflow from None
+    elif node is sp.pi:
+        value = complex(math.pi)
+    elif node is sp.E:
+        value = complex(math.e)
+    elif node is sp.I:
+        value = 1j
+    elif node.is_Float:
+        value = complex(float(node))
+    elif node.is_Add:
+        value = sum((_float_of(a, memo) for a in node.args), 0j)
+    elif node.is_Mul:
+        value = 1 + 0j
+        for a in node.args:
+            value *= _float_of(a, memo)
+            _finite(value)
+    elif node.is_Pow:
+        base, exponent = (_float_of(a, memo) for a in node.args)
+        try:
+            value = base ** exponent if base != 0 or exponent.real > 0 else complex("nan")
+        except (OverflowError, ZeroDivisionError):
+            raise ConstantOverflow from None
+    elif node.func in _FLOAT_FUNCTIONS and len(node.args) == 1:
+        value = _FLOAT_FUNCTIONS[node.func](_float_of(node.args[0], memo))
+    else:  # zoo, nan, oo, or a form sympy chose that we do not know: no finite value we trust
+        raise ConstantOverflow
+    memo[node] = _finite(value)
+    return memo[node]
+
+
+def constant_value(expr: sp.Expr) -> complex:
+    """The float64 value of a constant expression; :class:`ConstantOverflow` if it has none."""
+    return _float_of(expr, {})
+
+
+def _check_exponent(right: sp.Expr) -> None:
+    try:
+        size = abs(constant_value(right))
+    except ConstantOverflow:
+        _fail(f"the exponent {_brief(right)} is too large or not finite; exponents are limited to {MAX_EXPONENT}")
+    if size > MAX_EXPONENT:
+        _fail(f"the exponent {_brief(right)} is too large; exponents are limited to {MAX_EXPONENT}")
+
+
+def _brief(expr: sp.Expr, limit: int = 40) -> str:
+    text = str(expr)
+    return text if len(text) <= limit else text[: limit - 1] + "…"
+
+
+def check_expanded(expr: sp.Expr) -> None:
+    """Refuse an expression that, written out, is too big, too deep or has a huge number in it.
+
+    Walks the expression as sympy shares it (each distinct subexpression once), so a tree of
+    2**41 nodes is measured in 41 steps.  Every constant part must have a finite value in
+    float64; a non-real constant (sqrt(-1), log(-2)) is refused here too.
+    """
+    # per distinct node: (size written out, depth, whether it is a constant); computed here
+    # rather than with sympy's free_symbols / is_number, which recurse without memory and so
+    # take time proportional to the written-out size
+    seen: dict = {}
+    values: dict = {}
+    limit = 10 ** MAX_RESULT_DIGITS
+    stack = [(expr, False)]
+    while stack:
+        node, done = stack.pop()
+        if node in seen:
+            continue
+        if not done:
+            stack.append((node, True))
+            stack.extend((a, False) for a in node.args if a not in seen)
+            continue
+        if node.is_Rational and (abs(node.p) > limit or node.q > limit):
+            _fail(f"a number in the expression has more than {MAX_RESULT_DIGITS} digits")
+        size, depth, constant = 1, 1, not node.is_Symbol
+        for a in node.args:
+            a_size, a_depth, a_constant = seen[a]
+            size += a_size
+            depth = max(depth, a_depth + 1)
+            constant = constant and a_constant
+        seen[node] = (size, depth, constant)
+        if size > MAX_EXPANDED_NODES:
+            _fail(f"written out (helpers and parameters substituted) the expression has more than "
+                  f"{MAX_EXPANDED_NODES} nodes; simplify it or use fewer nested helpers")
+        if depth > MAX_EXPANDED_DEPTH:
+            _fail(f"written out (helpers and parameters substituted) the expression is nested deeper than "
+                  f"{MAX_EXPANDED_DEPTH} levels")
+        if node.is_Pow and seen[node.args[1]][2]:
+            _check_exponent(node.args[1])
+        if constant and not node.is_Rational:  # also the atoms I, zoo, nan, oo
+            try:
+                value = _float_of(node, values)
+            except ConstantOverflow:
+                if node in (sp.zoo, sp.nan, sp.oo, -sp.oo):
+                    _fail("the expression is undefined (a division by zero, log(0) or similar between constants)")
+                _fail(f"the constant {_brief(node)} is not finite in floating point (it overflows, or is "
+                      f"undefined); numbers are limited to about 1e308")
+            if value.imag != 0:
+                if node is sp.I:
+                    _fail("the expression is not a real number: it contains the imaginary unit (as from sqrt(-1))")
+                _fail(f"the constant {_brief(node)} is not a real number (as sqrt(-1) or log(-2) are not)")
 
 
 class _Builder:
@@ -158,16 +311,23 @@ class _Builder:
             if right.is_zero:
                 _fail("division by zero")
             return left / right
-        if right.is_number and abs(complex(sp.N(right))) > MAX_EXPONENT:
-            _fail(f"the exponent {right} is too large; exponents are limited to {MAX_EXPONENT}")
-        if left.is_number and right.is_number and not left.is_zero:
-            # sympy evaluates numeric powers exactly: (10**64)**64 is a 4096-digit integer,
-            # so bound the size of the result before asking for it
-            # Fix: take log10|left| in sympy's arbitrary-range floats; going through a Python
-            # complex first underflowed exp(-1000) to 0 and crashed with a TypeError on log(0).
-            digits = abs(complex(sp.N(right))) * abs(complex(sp.N(sp.log(abs(sp.N(left)), 10))))
-            if digits > MAX_RESULT_DIGITS:
-                _fail("a power of numbers in the expression is too large")
+        if right.is_number:
+            _check_exponent(right)
+            if left.is_number and not left.is_zero:
+                # sympy evaluates a power of a rational exactly: (10**12)**64 is a 768-digit
+                # integer, so bound the size of the result (exactly, from the digits) first;
+                # other numbers in float64, where exp(-1000) underflows: too small counts as too large
+                if isinstance(left, sp.Rational):
+                    base_digits = max(_digits(left.p), _digits(left.q))
+                else:
+                    try:
+                        magnitude = abs(constant_value(left))
+                    except ConstantOverflow:
+                        magnitude = math.inf
+                    base_digits = abs(math.log10(magnitude)) if 0 < magnitude < math.inf else math.inf
+                digits = abs(constant_value(right)) * base_digits
+                if digits > MAX_RESULT_DIGITS:
+                    _fail("a power of numbers in the expression is too large")
         return sp.Pow(left, right)
 
     def _Call(self, node: ast.Call) -> sp.Expr:
@@ -221,7 +381,9 @@ def _describe(node: ast.AST) -> str:
 def parse_expression(text: object, names: Mapping[str, sp.Expr]) -> sp.Expr:
     """Parse ``text`` in the safe language; ``names`` maps each allowed name to its value."""
     tree = _parse_tree(text)
-    return _Builder(names, str(text)).build(tree)
+    expr = _Builder(names, str(text)).build(tree)
+    check_expanded(expr)
+    return expr
 
 
 def parse_inequalities(text: object, names: Mapping[str, sp.Expr]) -> list[Inequality]:
@@ -237,6 +399,7 @@ def parse_inequalities(text: object, names: Mapping[str, sp.Expr]) -> list[Inequ
             _fail(f"comparison '{type(op).__name__}' is not allowed; use < <= > >=")
         strict = isinstance(op, (ast.Lt, ast.Gt))
         g = (rhs - lhs) if isinstance(op, (ast.Lt, ast.LtE)) else (lhs - rhs)
+        check_expanded(g)
         result.append(Inequality(g=g, strict=strict, text=str(text)))
     return result
 
@@ -245,3 +408,56 @@ def referenced_names(text: object) -> set[str]:
     """The plain names an expression mentions (for ordering helper definitions)."""
     tree = _parse_tree(text)
     return {n.id for n in ast.walk(tree) if isinstance(n, ast.Name)}
+
+
+def _why_undefined(node: sp.Expr, args: list[complex]) -> str:
+    """Why ``node`` has no finite real value although its arguments do (words for a user)."""
+    a = args[0].real if args else 0.0
+    if node.is_Pow:
+        base, exponent = args
+        if base == 0 and exponent.real < 0:
+            return "a division by zero"
+        if base.real < 0:
+            return f"a fractional power of the negative number {base.real:.6g}"
+        return "too large for floating point"
+    name = getattr(node.func, "__name__", str(node.func))
+    if name == "log":
+        return f"log of {'0' if a == 0 else f'the negative number {a:.6g}'}"
+    if name in ("asin", "acos"):
+        return f"{name} of {a:.6g}, outside [-1, 1]"
+    if name == "acosh":
+        return f"acosh of {a:.6g}, below 1"
+    if name == "atanh":
+        return f"atanh of {a:.6g}, outside (-1, 1)"
+    return "not finite in floating point"
+
+
+def locate_undefined(expr: sp.Expr, point: Mapping[sp.Symbol, float]) -> tuple[str, str] | None:
+    """The innermost part of ``expr`` with no finite real value at ``point``, and why.
+
+    ``(part as text, reason)``, or ``None`` when every part has a finite real value there
+    (then only a derivative is undefined, e.g. at the kink of ``abs``).  Evaluated in
+    float64, as the derivative evaluators are.
+    """
+    memo: dict = {sym: complex(float(v)) for sym, v in point.items()}
+    stack = [(expr, False)]
+    while stack:
+        node, done = stack.pop()
+        if node in memo:
+            continue
+        if not done:
+            stack.append((node, True))
+            stack.extend((a, False) for a in node.args if a not in memo)
+            continue
+        args = [memo[a] for a in node.args]
+        if any(v is None for v in args):
+            memo[node] = None
+            continue
+        try:
+            value = _float_of(node, {**{a: v for a, v in zip(node.args, args)}})
+        except ConstantOverflow:
+            value = None
+        if value is None or abs(value.imag) > 1e-12 * max(1.0, abs(value.real)):
+            return _brief(node, 60), _why_undefined(node, args)
+        memo[node] = complex(value.real)
+    return None

@@ -8,7 +8,11 @@ checks afterwards.
 
 from __future__ import annotations
 
-IDENTIFIER = r"^[A-Za-z_][A-Za-z0-9_]*$"
+# A pattern's "$" also matches before a final newline in Python's re (which jsonschema uses), so
+# "x1\n" passed as a name; "(?![\s\S])" ("no character follows") is the end of the text in
+# Python and in the ECMA-262 regexes editors use alike.
+END = r"(?![\s\S])"
+IDENTIFIER = r"^[A-Za-z_][A-Za-z0-9_]*" + END
 
 #: Verdict words per condition, as a cost file's ``expect`` writes them.
 VERDICT_WORDS: dict[str, list[str]] = {
@@ -68,7 +72,7 @@ DATA_SIDE_SCHEMA = _data_side = {
                    "points (a CSV file, path relative to the cost file: a column per coordinate, optional 'weight')",
     "properties": {
         "density": _number_or_expression,
-        "points": {"type": "string", "minLength": 1, "pattern": r"\.csv$"},
+        "points": {"type": "string", "minLength": 1, "pattern": r"\.csv" + END},
     },
     "minProperties": 1,
     "maxProperties": 1,
@@ -83,7 +87,7 @@ COST_FILE_SCHEMA: dict = {
     "required": ["id", "x", "y", "expr", "domain"],
     "additionalProperties": False,
     "properties": {
-        "id": {"type": "string", "pattern": r"^[A-Za-z0-9][A-Za-z0-9._-]*$", "maxLength": 100},
+        "id": {"type": "string", "pattern": r"^[A-Za-z0-9][A-Za-z0-9._-]*" + END, "maxLength": 100},
         "title": {"type": "string"},
         "description": {"type": "string"},
         "sense": {"enum": ["cost", "surplus"], "default": "cost"},

@@ -13,11 +13,12 @@ import math
 import re
 from dataclasses import dataclass
 
+from ..defaults import MAX_SWEEP_POINTS
 from ..errors import CostcheckError
 
 #: decimals kept when snapping a grid value
 SNAP_DIGITS = 12
-MAX_COUNT = 100_000
+MAX_COUNT = MAX_SWEEP_POINTS
 _NAME = re.compile(r"^[A-Za-z_][A-Za-z0-9_]*$")
 
 
@@ -98,6 +99,11 @@ def parse_axes(specs, params: dict | None = None) -> list[Axis]:
         raise SweepSpecError(f"--vary: the parameter {names[0]!r} is given twice")
     if len(axes) > 2:
         raise SweepSpecError("--vary: at most two parameters (a line or a grid)")
+    total = math.prod(len(a.values) for a in axes)
+    if total > MAX_SWEEP_POINTS:
+        sizes = " x ".join(str(len(a.values)) for a in axes)
+        raise SweepSpecError(f"--vary: the sweep has {sizes} = {total} points; at most {MAX_SWEEP_POINTS} "
+                             "are checked (each point is a whole check)")
     if params is not None:
         for a in axes:
             if a.name not in params:
