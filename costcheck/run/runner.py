@@ -62,6 +62,7 @@ def run_checks(
                 on_progress(f"{name}: proof")
             verdict = strengthen(ctx, verdict, prove)
         verdicts[name] = verdict
+        ctx.verdicts[name] = verdict
     options = {"budget": budget, "seed": seed, "backend": backend}
     if prove is not None:
         options["prove"] = prove.to_json()
