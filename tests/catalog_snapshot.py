@@ -10,6 +10,7 @@ the commit.
 
 from __future__ import annotations
 
+import functools
 import io
 import json
 import sys
@@ -34,8 +35,12 @@ def normalised(value):
     return value
 
 
+@functools.lru_cache(maxsize=1)
 def catalog_document() -> str:
-    """The normalised JSON text of ``costcheck check catalog --json`` at :data:`BUDGET`."""
+    """The normalised JSON text of ``costcheck check catalog --json`` at :data:`BUDGET`.
+
+    Computed once per test session: the snapshot test and the tests that read the live
+    catalog results (``tests/test_loeper.py``) share one run."""
     import os
 
     from costcheck.cli import main
