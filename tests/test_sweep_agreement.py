@@ -10,12 +10,10 @@ from __future__ import annotations
 import json
 from pathlib import Path
 
-import pytest
-
 from costcheck.cli import main
 from costcheck.sweep.boundaries import RECHECK_FACTOR, find_boundaries
 from costcheck.sweep.engine import SweepResult, run_sweep
-from costcheck.sweep.grid import Axis, parse_vary
+from costcheck.sweep.grid import Axis
 
 ROOT = Path(__file__).resolve().parent.parent
 POWER = ROOT / "catalog/euclidean/power-0.5.yaml"
