@@ -12,8 +12,9 @@ twice in ``t`` gives ``d²/dt² c_{ξξ}(x, y_t) = -L² S(ξ, η)`` (``S`` the M
 ``f(t) = const + ε (ξ · p_t) - (ε²/2) c_{ξξ}(x, y_t) + O(ε³)`` has
 ``f'' = (ε² L² / 2) S(ξ, η) + O(ε² L³, ε³ L²)``: where ``S < 0`` it is concave and bulges above
 the chord.  That bulge, of order ``ε² L²``, is only visible once the chord is level: the ``ε²``
-term tilts it by ``O(ε² L)``, more than the bulge for small ``L``.  Loeper's construction
-(2009, §5, from memory) therefore moves ``x'`` along ``p1 - p0`` until ``f(0) = f(1)``
+term tilts it by ``O(ε² L)``, more than the bulge for small ``L``.  The construction here (the
+idea of Loeper's proof that the principle forces A3w, 2009, recalled from memory rather than
+quoted) therefore moves ``x'`` along ``p1 - p0`` until ``f(0) = f(1)``
 (:func:`levelled`; only cost values and first derivatives are needed: ``y_t`` does not depend
 on ``x'``).  :func:`construction` builds these configurations at given ``(x, y, ξ, η)`` for a
 ladder of sizes; :func:`local_rows` at sampled pairs with random directions (the independent
