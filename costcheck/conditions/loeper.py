@@ -41,10 +41,10 @@ Procedure
    change of at most ``|x - x'| |p1 - p0|``, so ``J`` compares the bump with that size and is
    invariant under ``c -> λc`` and under a common scaling of the coordinates); ``J <= 0`` means
    no violation at the grid points;
-3. a Nelder–Mead maximisation of ``J`` (SciPy) from the :data:`STARTS` best configurations;
-4. the best ones re-done on :data:`FINE_STEPS` steps; the violation is reported scale-free as
-   ``v = [max_t f - max(f(0), f(1))] / (|x - x'| |p1 - p0|) >= 0``;
-5. the consistency step: where MTW failed (its witness ``(x, y, ξ, η)``, or, without an MTW
+3. the :data:`STARTS` best re-done on :data:`FINE_STEPS` steps; unless one of them is already a
+   confirmed violation, each is maximised (Nelder–Mead on ``J``, SciPy) and re-done; the
+   violation is reported scale-free as ``v = [max_t f - max(f(0), f(1))] / (|x - x'| |p1 - p0|)``;
+4. the consistency step: where MTW failed (its witness ``(x, y, ξ, η)``, or, without an MTW
    verdict in this run, the minimiser of the MTW form computed here), Loeper's construction
    at that point (:func:`~costcheck.conditions.engines.loeper_search.construction`, then
    maximised) must show the violation; if it does not, the disagreement is reported as a
@@ -98,29 +98,9 @@ def _first_confirmed(ctx, fine, counted, notes):
     return None
 
 
-def mtw_failure(ctx):
-    """MTW's failure point ``(x, y, ξ, η, where-from)``: its verdict's witness in this run, else computed here."""
-    v = ctx.verdicts.get("mtw")
-    if v is not None:
-        w = v.witness
-        if v.verdict != "fails" or w is None or "xi" not in w.vectors:
-            return None
-        return (np.asarray(w.x, float), np.asarray(w.y, float), np.asarray(w.vectors["xi"], float),
-                np.asarray(w.vectors["eta"], float), f"the MTW check's witness ({v.evidence.kind})")
-    from ..numerics.curvature.margins import a3w_margin
-    from .engines.curvature_search import TOLERANCE as MTW_TOLERANCE, search_minimum
-
-    s = search_minimum(ctx, a3w_margin, orthogonal=True)
-    if s is None or not s.best.rel < -MTW_TOLERANCE:
-        return None
-    b = s.best
-    return (b.x, b.y, b.xi, b.eta, f"the minimiser of the MTW form computed here (scale-free margin {b.rel:.3g}, "
-                                   "float64; MTW was not checked in this run)")
-
-
 def consistency(ctx, notes) -> dict | None:
     """Loeper's construction at MTW's failure point: the violation it shows, or why none."""
-    found = mtw_failure(ctx) if ctx.cost.n > 1 else None
+    found = ls.mtw_failure(ctx) if ctx.cost.n > 1 else None
     if found is None:
         return None
     x, y, xi, eta, origin = found
@@ -171,12 +151,17 @@ def check(ctx) -> Verdict:
                                     "domain is too thin)", configurations=total, singular_excluded=singular)
     order = np.argsort(-prof.J)
     starts = order[np.isfinite(prof.J[order])][:STARTS]
-    polished, evaluations = ls.polish(ctx, z[starts], ls.evaluations(ctx.budget))
-    fine, counted = _violations(ctx, np.concatenate([polished, z[starts]]))
-    details = {"configurations": total, "admissible": usable, "discarded": total - usable,
-               "singular_excluded": singular, "rcond_threshold": ls.RCOND, "local_searches": int(starts.size),
-               "evaluations": int(evaluations), "tolerance": TOLERANCE, "grid_steps": STEPS, "fine_steps": FINE_STEPS}
     notes = []
+    fine, counted = _violations(ctx, z[starts])
+    hit = _first_confirmed(ctx, fine, counted, notes) if cost.expr is not None else None
+    maximised, evaluations = 0, 0
+    if hit is None:  # nothing confirmed yet: maximise the violation from the best configurations
+        polished, evaluations = ls.polish(ctx, z[starts], ls.evaluations(ctx.budget))
+        fine, counted = _violations(ctx, np.concatenate([polished, z[starts]]))
+        maximised, hit = starts.size, _first_confirmed(ctx, fine, counted, notes) if cost.expr is not None else None
+    details = {"configurations": total, "admissible": usable, "discarded": total - usable,
+               "singular_excluded": singular, "rcond_threshold": ls.RCOND, "local_searches": int(maximised),
+               "evaluations": int(evaluations), "tolerance": TOLERANCE, "grid_steps": STEPS, "fine_steps": FINE_STEPS}
     if total - usable:
         notes.append(f"{total - usable} of {total} configurations were discarded: their c-segment leaves "
                      "Y_x ∩ Y_x' or the cost is undefined on it (the principle is stated for segments inside the "
@@ -190,7 +175,6 @@ def check(ctx) -> Verdict:
                                 "cost has no high-precision evaluator to confirm it", samples=usable,
                                 details={**details, "worst": _configuration(fine, k, n)}),
                        value=float(fine.v[k]), value_meaning=_MEANING, notes=tuple(notes))
-    hit = _first_confirmed(ctx, fine, counted, notes)
     cons = consistency(ctx, notes)
     if cons is not None:
         details["at_mtw_failure"] = {k: v for k, v in cons.items() if k != "hit"}
@@ -203,11 +187,11 @@ def check(ctx) -> Verdict:
         cfine, k, value, error, text = cons["hit"]
         return _failed(ctx, cfine, k, value, error, text, details, notes,
                        f"found by Loeper's construction at {cons['origin']}; the independent search "
-                       f"({usable} configurations, {starts.size} maximisations) did not find it")
+                       f"({usable} configurations, {maximised} maximisations) did not find it")
     largest = float(np.nanmax(fine.v)) if np.isfinite(fine.v).any() else 0.0
     details["largest_signed_gap"] = float(np.max(np.where(fine.admissible, fine.J, -np.inf)))
     searched = (f"{usable} c-segment configurations ({STEPS} steps; {singular} more excluded as nearly singular) and "
-                f"{starts.size} SciPy maximisations of the gap ({evaluations} further configurations, best ones "
+                f"{maximised} SciPy maximisations of the gap ({evaluations} further configurations, best ones "
                 f"re-done on {FINE_STEPS} steps); largest scale-free violation {largest:.3g} (tolerance {TOLERANCE:g})")
     if cons is not None and not cons.get("singular"):
         summary = (f"DEFECT: MTW fails at {_where(cons)} ({cons['origin']}), but Loeper's construction there shows no "
