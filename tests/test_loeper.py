@@ -145,3 +145,16 @@ def test_the_construction_shows_no_violation_where_a3w_holds(relpath):
     assert prof.admissible.sum() > 20
     assert np.nanmax(prof.v) <= loeper.TOLERANCE
 
+
+
+def test_loeper_reads_mtw_whatever_order_the_conditions_are_asked_in():
+    # the runner keeps the registry's order, so Loeper always sees MTW's verdict when both run;
+    # p = 3 violates A3w (Loeper 2009: p > 1, p ≠ 2)
+    report = run_checks(costcheck.load(CATALOG / "euclidean/power-3.yaml"), conditions=["loeper", "mtw"], budget=512)
+    assert list(report.verdicts) == ["mtw", "loeper"]
+    at = report.verdicts["loeper"].evidence.details["at_mtw_failure"]
+    assert at["origin"].startswith("the MTW check's witness") and at["shown"]
+    from costcheck.sweep.boundaries import with_inputs
+
+    assert with_inputs({"loeper"}, ["mtw", "loeper"]) == ["loeper", "mtw"]
+    assert with_inputs({"loeper"}, ["loeper"]) == ["loeper"]  # a sweep of Loeper alone stays alone

@@ -48,7 +48,11 @@ def run_checks(
     started = time.perf_counter()
     ctx = CheckContext(cost=cost, seed=seed, budget=budget, backend=backend)
     verdicts: dict[str, Verdict] = {}
-    for name in conditions or REGISTRY:
+    # always in the registry's order, whatever order they were asked in: a later check may read an
+    # earlier one's verdict (Loeper's principle at MTW's witness), so the order is part of the evidence
+    order = list(REGISTRY)
+    names = sorted(conditions, key=lambda c: order.index(c) if c in order else len(order)) if conditions else order
+    for name in names:
         if on_progress:
             on_progress(name)
         module = importlib.import_module(f"costcheck.conditions.{REGISTRY[name]}")

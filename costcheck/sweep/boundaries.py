@@ -25,6 +25,7 @@ and missed by others): a bracket whose side changes verdict at the higher budget
 
 from __future__ import annotations
 
+from ..conditions import READS
 from .grid import snap
 from .point import ERROR
 
@@ -32,6 +33,15 @@ KEY = ("verdict", "kind", "value", "witness", "code", "where")
 
 #: the re-check of a bracket's two sides uses this many times the sweep's budget
 RECHECK_FACTOR = 4
+
+
+def with_inputs(conditions, among) -> list[str]:
+    """``conditions`` and those of ``among`` (the sweep's conditions) their checks read (Loeper reads
+    MTW's witness), so that a subset is checked with the same evidence as the sweep's points."""
+    out = set(conditions)
+    for c in conditions:
+        out.update(r for r in READS.get(c, ()) if r in among)
+    return sorted(out)
 
 
 def _side(value: float, entry: dict) -> dict:
@@ -97,7 +107,8 @@ def find_boundaries(result, executor, tolerance: float):
         if requests:
             keys = list(requests)
             # evaluate every condition being bisected anywhere, so shared midpoints are reused
-            conds = sorted({c for _, cs in requests.values() for c in cs} | {b["condition"] for b in todo})
+            conds = with_inputs({c for _, cs in requests.values() for c in cs} | {b["condition"] for b in todo},
+                                result.conditions)
             outs = executor.map([requests[k][0] for k in keys], conds)
             for k, out in zip(keys, outs):
                 cache[k] = out
@@ -105,7 +116,7 @@ def find_boundaries(result, executor, tolerance: float):
             params = {**b["fixed"], b["parameter"]: b.pop("mid")}
             entry = cache[tuple(sorted(params.items()))].get(b["condition"])
             if entry is None:            # computed before this condition joined: evaluate alone
-                entry = executor.map([params], [b["condition"]])[0][b["condition"]]
+                entry = executor.map([params], with_inputs([b["condition"]], result.conditions))[0][b["condition"]]
                 cache[tuple(sorted(params.items()))][b["condition"]] = entry
             value = params[b["parameter"]]
             if entry["verdict"] == b["left"]["verdict"]:
@@ -117,7 +128,7 @@ def find_boundaries(result, executor, tolerance: float):
                 spawned.append({**b, "a": value, "left": _side(value, entry)})
                 b["b"], b["right"] = value, _side(value, entry)
         active.extend(spawned)
-    rechecked = _recheck(active, isolated, executor)
+    rechecked = _recheck(active, isolated, executor, result.conditions)
     unstable, kept = [], []
     for iso in isolated:  # a verdict seen at one value only must survive the re-check too
         params = {**iso["fixed"], iso["parameter"]: iso["value"]}
@@ -151,7 +162,7 @@ def _key(b, side):
     return tuple(sorted({**b["fixed"], b["parameter"]: b[side]["param"]}.items()))
 
 
-def _recheck(active, isolated, executor) -> dict:
+def _recheck(active, isolated, executor, among) -> dict:
     """Every non-error side of every bracket and every isolated value, checked at RECHECK_FACTOR times
     the budget: {params key: entry}."""
     requests: dict = {}
@@ -165,7 +176,7 @@ def _recheck(active, isolated, executor) -> dict:
             requests.setdefault(key, dict(key))
     if not requests:
         return {}
-    conds = sorted({b["condition"] for b in active} | {i["condition"] for i in isolated})
+    conds = with_inputs({b["condition"] for b in active} | {i["condition"] for i in isolated}, among)
     keys = list(requests)
     outs = executor.map([requests[k] for k in keys], conds, budget=executor.budget * RECHECK_FACTOR)
     return dict(zip(keys, outs))
