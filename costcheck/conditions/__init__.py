@@ -19,3 +19,7 @@ REGISTRY: dict[str, str] = {
     "index_form": "index_form",
     "nested": "nested",
 }
+
+#: conditions whose check reads another's verdict from the same run (``CheckContext.verdicts``);
+#: a caller that runs a subset (a sweep's bisection) includes these so the evidence is the same
+READS: dict[str, tuple[str, ...]] = {"loeper": ("mtw",)}

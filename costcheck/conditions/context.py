@@ -28,6 +28,10 @@ class CheckContext:
     _evaluators: dict = field(default_factory=dict, repr=False)
     #: ``(mpmath evaluator or None, reason)`` by derivative order, tried on first use
     _usable_hp: dict = field(default_factory=dict, repr=False)
+    #: the (certified) verdicts of the conditions already checked on this cost, by name; a check
+    #: that cross-examines another (Loeper's principle at MTW's witness) reads it, and must work
+    #: without it (``--only``)
+    verdicts: dict = field(default_factory=dict, repr=False)
 
     def evaluator(self, order: int = 4) -> Evaluator:
         """Derivatives up to at least ``order``, built once and kept.

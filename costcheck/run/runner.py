@@ -58,7 +58,11 @@ def run_checks(
     ctx.sample  # noqa: B018 - drawn here on purpose
     status, _ = within(defaults.DERIVATIVE_SECONDS, "the derivatives", refuse_nothing_to_check, ctx)
     verdicts: dict[str, Verdict] = {}
-    for name in conditions or REGISTRY:
+    # always in the registry's order, whatever order they were asked in: a later check may read an
+    # earlier one's verdict (Loeper's principle at MTW's witness), so the order is part of the evidence
+    order = list(REGISTRY)
+    names = sorted(conditions, key=lambda c: order.index(c) if c in order else len(order)) if conditions else order
+    for name in names:
         if status == "timeout":
             verdicts[name] = undecided(name, f"not checked: computing the derivatives of the cost (symbolic "
                                              f"differentiation and compilation) did not finish within "
@@ -82,6 +86,7 @@ def run_checks(
                                       "(the bound on one check of a cost); nothing was established",
                                 stopped_after=defaults.CONDITION_SECONDS)
         verdicts[name] = verdict
+        ctx.verdicts[name] = verdict
     options = {"budget": budget, "seed": seed, "backend": backend}
     if prove is not None:
         options["prove"] = prove.to_json()

@@ -16,7 +16,7 @@ from concurrent.futures import ProcessPoolExecutor
 from dataclasses import dataclass, field
 from typing import Callable, Sequence
 
-from .boundaries import find_boundaries
+from .boundaries import RECHECK_FACTOR, find_boundaries
 from .grid import Axis, SweepSpecError, plan
 from .point import evaluate_point
 
@@ -46,9 +46,11 @@ class Executor:
             # spawn, not fork: the parent may hold threads (JAX, BLAS) that fork would copy badly
             self._pool = ProcessPoolExecutor(self.workers, mp_context=multiprocessing.get_context("spawn"))
 
-    def map(self, points: list[dict], conditions: Sequence[str] | None) -> list[dict]:
+    def map(self, points: list[dict], conditions: Sequence[str] | None, budget: int | None = None) -> list[dict]:
+        """Each point checked at ``budget`` (the sweep's own by default) with the sweep's seed."""
         n = len(points)
-        args = ([self.path] * n, points, [self.budget] * n, [self.seed] * n, [conditions] * n, [self.cache_dir] * n)
+        budget = budget or self.budget
+        args = ([self.path] * n, points, [budget] * n, [self.seed] * n, [conditions] * n, [self.cache_dir] * n)
         if self._client is not None:
             futures = self._client.map(evaluate_point, *args, pure=False)
             return self._client.gather(futures)
@@ -72,6 +74,8 @@ class SweepResult:
     results: list[dict]                # parallel to points: {condition: {...}}
     boundaries: list[dict] = field(default_factory=list)
     isolated: list[dict] = field(default_factory=list)
+    #: verdict changes that did not survive the re-check at a higher budget (not boundaries)
+    unstable: list[dict] = field(default_factory=list)
     options: dict = field(default_factory=dict)
     seconds: float = 0.0
 
@@ -87,6 +91,7 @@ class SweepResult:
             "points": [{"params": p, "checks": r} for p, r in zip(self.points, self.results)],
             "boundaries": self.boundaries,
             "isolated": self.isolated,
+            "unstable": self.unstable,
             "seconds": round(self.seconds, 3),
         }
 
@@ -125,9 +130,11 @@ def run_sweep(path, axes: list[Axis], *, budget: int, seed: int, conditions: Seq
                 on_progress(len(results), len(points))
         result = SweepResult(str(path), axes, names, points, results,
                              options={"budget": budget, "seed": seed, "tolerance": tolerance,
+                                      "recheck_budget": budget * RECHECK_FACTOR,
                                       "only": list(conditions) if conditions else None})
         # without bisection, grid changes and isolated values are still reported (infinite tolerance)
-        result.boundaries, result.isolated = find_boundaries(result, executor, tolerance if bisect else float("inf"))
+        result.boundaries, result.isolated, result.unstable = find_boundaries(
+            result, executor, tolerance if bisect else float("inf"))
     finally:
         executor.close()
     result.seconds = time.perf_counter() - started
