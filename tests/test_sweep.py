@@ -95,12 +95,14 @@ def test_boundaries_at_p_1(power_sweep):
         assert b - a <= TOL and a - TOL <= 1.0 <= b + TOL
     # MTW: strong below p = 1 (MTW 2005; Trudinger–Wang 2009), fails above (Loeper 2009); at p = 1
     # MTW is 'undecided' (degenerate cost), its own verdict.  The margin vanishes like (1 - p)² as
-    # p -> 1 (S / |M⁻¹η|², computed here), so at the tolerance 1e-7 no 'weak' band wider than the
-    # bisection tolerance appears: both sides are located within 1e-3.
+    # p -> 1 (S / |M⁻¹η|², computed here), so at the tolerance 1e-7 no 'weak' band appears.  MTW is
+    # decided only where D²_xy c is clearly invertible (relative determinant ≥ DEFINED_RATIO = 1e-3),
+    # and that ratio is about |p − 1| here (eigenvalues (p − 1) r^(p−2) and r^(p−2), elementary), so
+    # within about 2e-3 of p = 1 no sampled pair qualifies and MTW is undecided: the band is that wide.
     mtw = [b for b in power_sweep.boundaries if b["condition"] == "mtw" and b["grid_interval"][0] >= 0.9]
     last_strong = max(b["interval"][0] for b in mtw if b["from"] == "strong")
     first_fails = min(b["interval"][1] for b in mtw if b["to"] == "fails")
-    assert 1.0 - TOL <= last_strong < 1.0 < first_fails <= 1.0 + TOL
+    assert 1.0 - 2e-3 - TOL <= last_strong < 1.0 < first_fails <= 1.0 + 2e-3 + TOL
     assert {(b["from"], b["to"]) for b in mtw} == {("strong", "undecided"), ("undecided", "fails")}
     assert power_sweep.results[4]["mtw"]["verdict"] == "undecided"
     assert ("mtw", 1.0, "undecided") in [(i["condition"], i["value"], i["verdict"]) for i in power_sweep.isolated]

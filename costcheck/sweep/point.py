@@ -36,6 +36,7 @@ def evaluate_point(path: str, params: dict, budget: int, seed: int, conditions: 
     ``check`` on a file with these parameter values).
     """
     from ..conditions import REGISTRY
+    from ..defaults import DEFAULT_PROOF_CELLS, DEFAULT_PROOF_SECONDS
     from ..errors import CostcheckError, CostFileError
     from ..run.batch import check_one
     from ..run.cache import ResultCache
@@ -50,7 +51,9 @@ def evaluate_point(path: str, params: dict, budget: int, seed: int, conditions: 
             raise CostFileError(f"no parameter named '{unknown[0]}' (parameters: "
                                 f"{', '.join(data.get('params') or {}) or 'none'})", file=str(path), field="params")
         data = {**data, "params": {**(data.get("params") or {}), **params}}
-        options = {"budget": budget, "seed": seed, "backend": "sympy", "conditions": names, "prove": None}
+        # the evidence of `check`: the same proof attempt too (its default budget)
+        options = {"budget": budget, "seed": seed, "backend": "sympy", "conditions": names,
+                   "prove": {"seconds": DEFAULT_PROOF_SECONDS, "cells": DEFAULT_PROOF_CELLS}}
         report, _ = check_one(data, str(path), options, cache=cache)
         cost = report.cost
     except CostcheckError as exc:
