@@ -110,7 +110,7 @@ def test_corrupt_truncated_or_foreign_entries_are_ignored_and_rewritten(tmp_path
     stored = json.loads(original)
     other_key = dict(stored, key="0" * 64)
     tampered = json.loads(original)
-    tampered["verdicts"]["twist"]["verdict"] = "fails"  # its code T100 no longer matches
+    tampered["verdicts"]["twist"]["verdict"] = "fails"  # its code twist-holds no longer matches
     for bad in [original[: len(original) // 2], "not json", json.dumps(other_key), json.dumps(tampered), "[]"]:
         entry.write_text(bad)
         _, again = _run(capsys, *argv)

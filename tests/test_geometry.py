@@ -208,7 +208,7 @@ def test_geometry_checks_appear_in_json(tmp_path):
                          capture_output=True, text=True, timeout=300)
     assert out.returncode == 0, out.stderr
     checks = json.loads(out.stdout)["costs"][0]["checks"]
-    assert [checks[k]["code"] for k in ("target_c_convex", "source_c_convex", "loeper")] == ["Y601", "X700", "L800"]
+    assert [checks[k]["code"] for k in ("target_c_convex", "source_c_convex", "loeper")] == ["target_c_convex-fails", "source_c_convex-holds", "loeper-holds"]
     w = checks["target_c_convex"]["witness"]
     assert set(w["y0"]) == {"y1", "y2"} and set(w["y_exit"]) == {"y1", "y2"} and w["error_bound"] is not None
     assert checks["source_c_convex"]["evidence"]["kind"] == "sampled"
@@ -217,7 +217,9 @@ def test_geometry_checks_appear_in_json(tmp_path):
 def test_new_codes_are_unique():
     assert len(set(CODES.values())) == len(CODES)
     for name in ("target_c_convex", "source_c_convex", "loeper"):
-        assert {CODES[(name, v)][-1] for v in ("holds", "fails", "not-applicable", "undecided")} == set("0189")
+        # a code says its condition and its verdict word (docs/codes.md)
+        assert {CODES[(name, v)] for v in ("holds", "fails", "not-applicable", "undecided")} == \
+            {f"{name}-{v}" for v in ("holds", "fails", "not-applicable", "undecided")}
 
 
 def test_budget_scales_the_work():

@@ -60,7 +60,7 @@ def test_junit_counts_cases_failures_skips_and_errors(tmp_path, capsys):
     case = cases[("quad-line", "nondegenerate")]
     [properties] = case.iterchildren(Properties)
     props = {p.name: p.value for p in properties.iterchildren(Property)}
-    assert props["verdict"] == "holds" and props["expected"] == "fails" and props["code"] == "N200"
+    assert props["verdict"] == "holds" and props["expected"] == "fails" and props["code"] == "nondegenerate-holds"
     # the expectation is wrong and the proof (on by default) says so: det D²_xy c is enclosed away
     # from 0 on the whole domain
     assert props["evidence"] == "proved"

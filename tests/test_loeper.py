@@ -45,7 +45,7 @@ def test_loeper_finds_the_small_failure_of_the_p_minus_2_5_power_cost(reproducer
     report = reproducer
     mtw, lp = report.verdicts["mtw"], report.verdicts["loeper"]
     assert (mtw.verdict, mtw.evidence.kind) == ("fails", "refuted")
-    assert (lp.verdict, lp.evidence.kind, lp.code) == ("fails", "refuted", "L801"), lp.evidence.summary
+    assert (lp.verdict, lp.evidence.kind, lp.code) == ("fails", "refuted", "loeper-fails"), lp.evidence.summary
     assert "found by the independent search" in lp.evidence.summary
     assert "certified by ball arithmetic" in lp.evidence.summary
     lo, hi = lp.evidence.details["enclosure"]["interval"]

@@ -91,7 +91,7 @@ def test_index_form_costs_are_nested_for_any_data_and_map_through_the_index(tmp_
     assert np.max(np.abs(G_T - F_I)) < 0.02
     if seed == 0:  # and the index-form condition finds the index symbolically (an exact identity)
         verdict = run_checks(cost, conditions=["index_form"], budget=256).verdicts["index_form"]
-        assert (verdict.verdict, verdict.code, verdict.evidence.kind) == ("holds", "I900", "proved")
+        assert (verdict.verdict, verdict.code, verdict.evidence.kind) == ("holds", "index_form-holds", "proved")
         assert verdict.evidence.details["index"] == "x1 + x2**2"
 
 
@@ -101,7 +101,7 @@ def test_index_form_fails_with_a_witness_when_the_kernel_turns():
     cost = costcheck.from_expression("-(x1*y + x2*y**2)", x=["x1", "x2"], y=["y"],
                                      domain={"x": {"box": [[0, 1], [0, 1]]}, "y": {"box": [[0, 1]]}})
     v = run_checks(cost, conditions=["index_form"], budget=256).verdicts["index_form"]
-    assert (v.verdict, v.code, v.evidence.kind) == ("fails", "I901", "refuted")
+    assert (v.verdict, v.code, v.evidence.kind) == ("fails", "index_form-fails", "refuted")
     y, yp = v.witness.y[0], v.witness.vectors["y_prime"][0]
     u, up = np.array([1.0, 2 * y]), np.array([1.0, 2 * yp])
     sine = abs(u[0] * up[1] - u[1] * up[0]) / (np.linalg.norm(u) * np.linalg.norm(up))
@@ -111,8 +111,8 @@ def test_index_form_fails_with_a_witness_when_the_kernel_turns():
 def test_index_form_is_not_applicable_for_equal_dimensions():
     cost = costcheck.load(ROOT / "catalog/euclidean/sq-euclid.yaml")
     v = run_checks(cost, conditions=["index_form", "nested"], budget=128).verdicts
-    assert (v["index_form"].verdict, v["index_form"].code) == ("not-applicable", "I908")
-    assert (v["nested"].verdict, v["nested"].code) == ("not-applicable", "J958")
+    assert (v["index_form"].verdict, v["index_form"].code) == ("not-applicable", "index_form-not-applicable")
+    assert (v["nested"].verdict, v["nested"].code) == ("not-applicable", "nested-not-applicable")
 
 
 def test_twist_nondegeneracy_and_mtw_for_n_greater_than_m():
@@ -178,7 +178,7 @@ def test_rotating_half_planes_are_not_nested_and_the_witness_rechecks(tmp_path):
     (y_sym,) = cost.y_symbols
     result = analyse(cost, points(tmp_path, "source", ["x1", "x2"], X), density("target", "1", [y_sym]))
     v = result.verdict
-    assert (v.verdict, v.code, v.evidence.kind) == ("fails", "J951", "refuted")
+    assert (v.verdict, v.code, v.evidence.kind) == ("fails", "nested-fails", "refuted")
     x = np.array(v.witness.x)
     y, yp = v.witness.y[0], v.witness.vectors["y_prime"][0]
     assert y < yp
@@ -225,7 +225,7 @@ def test_cli_demo_end_to_end(tmp_path):
     doc = json.loads(run.stdout)
     check = doc["checks"]["nested"]
     assert {"verdict", "code", "evidence", "value", "witness", "notes", "summary"} <= set(check)
-    assert check["verdict"] == "holds" and check["code"] == "J950"
+    assert check["verdict"] == "holds" and check["code"] == "nested-holds"
     assert len(doc["levels"]["k"]) == len(doc["levels"]["rung"]) > 40
     low, high = doc["at"]["values"]
     assert low["rung"] < high["rung"]  # a more skilled worker gets a higher rung

@@ -111,7 +111,7 @@ def test_quadratic_and_bilinear_costs_twist_and_nondegenerate(expr):
     assert v["nondegenerate"].value == pytest.approx(1.0, abs=1e-12)
     # Y is a box and sym(Q M) = I for Q = -I: the sufficient condition (b) holds (Gangbo–McCann 1996)
     assert "(b) holds" in v["twist"].evidence.details["sufficient_condition"]
-    assert v["twist"].code == "T100" and v["nondegenerate"].code == "N200"
+    assert v["twist"].code == "twist-holds" and v["nondegenerate"].code == "nondegenerate-holds"
 
 
 # --------------------------------------------------------------------------- |x - y|

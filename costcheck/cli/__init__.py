@@ -128,7 +128,7 @@ def _build_parser() -> argparse.ArgumentParser:
         _add_check_options(command, REGISTRY, DEFAULT_SEED, DEFAULT_BUDGET)
 
     explain = sub.add_parser("explain", help="explain a condition, a code or a term (the entry of docs/)")
-    explain.add_argument("name", nargs="?", metavar="CONDITION|CODE", help="e.g. mtw, M302, sampled; none: list all")
+    explain.add_argument("name", nargs="?", metavar="CONDITION|CODE", help="e.g. mtw, mtw-fails, sampled; none: list all")
     sub.add_parser("schema", help="print the JSON Schema of cost files (draft 2020-12)")
     new = sub.add_parser("new", help="write a commented template cost file NAME.yaml to start from")
     new.add_argument("name", metavar="NAME", help="file to write (.yaml is added if missing); its stem is the id")

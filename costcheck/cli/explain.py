@@ -1,7 +1,7 @@
 """``costcheck explain NAME``: print the entry of ``docs/`` for a condition, a code or a term.
 
 The text is the repository's own pages, not a copy: ``docs/conditions.md`` (a section per
-condition, ``## twist`` …), ``docs/codes.md`` (``### T100`` …) and ``docs/evidence.md``
+condition, ``## twist`` …), ``docs/codes.md`` (``### twist-holds`` …) and ``docs/evidence.md``
 (``## proved`` …).  Any section heading of those pages is an entry, found by its anchor (the
 heading in lower case, spaces as hyphens: ``sign-convention``), plus a few names readers use
 for the same thing (``A3w``, ``cross-curvature``).  Markdown is printed as plain text wrapped
@@ -189,7 +189,7 @@ def index_text(table: dict[str, Entry]) -> str:
     """What can be explained, page by page."""
     out = ["costcheck explain NAME prints one entry of docs/. Entries:"]
     for page in PAGES:
-        names = [e.anchor.upper() if page == "codes.md" else e.anchor for e in table.values() if e.page == page]
+        names = [e.anchor for e in table.values() if e.page == page]
         out.append("")
         out.extend(_wrap(f"docs/{page}: {', '.join(names)}", "", "  "))
     out.append("")
@@ -206,7 +206,7 @@ def run(name: str | None) -> int:
     entry = find(name, table)
     if entry is None:
         raise CostcheckError(f"nothing to explain under {name!r}: give a condition (twist, mtw, …), a code "
-                             "(T100, M302, …), an evidence kind (proved, sampled, …) or a term (A3w, margins); "
+                             "(twist-holds, mtw-fails, …), an evidence kind (proved, sampled, …) or a term (A3w, margins); "
                              "'costcheck explain' lists them all")
     sys.stdout.write(plain_text(entry))
     return EXIT_OK

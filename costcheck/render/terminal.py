@@ -67,7 +67,7 @@ def render_report(console: Console, report: CostReport) -> None:
     table = Table(show_header=True, header_style="bold", expand=False, pad_edge=False)
     table.add_column("condition")
     table.add_column("verdict", max_width=16)  # a scope ("on the non-degenerate part") wraps
-    table.add_column("code", style="dim")
+    # no code column: a code is the condition and its verdict word, both already in the row
     table.add_column("evidence")
     table.add_column("worst value", justify="right")
     table.add_column("what was established", overflow="fold")
@@ -83,7 +83,7 @@ def render_report(console: Console, report: CostReport) -> None:
             detail += "\nwitness: " + format_witness(v.witness, cost.x_names, cost.y_names)
         for note in v.notes:
             detail += f"\nnote: {note}"
-        table.add_row(name, verdict, v.code, EVIDENCE_WORDS.get(v.evidence.kind, v.evidence.kind), _value(v), detail)
+        table.add_row(name, verdict, EVIDENCE_WORDS.get(v.evidence.kind, v.evidence.kind), _value(v), detail)
     console.print(table)
     for mm in report.mismatches:
         console.print(f"  [bold red]✗[/] {cost.file or cost.id}: {mm.condition}: expected {mm.expected}, got {mm.got}")
@@ -99,5 +99,5 @@ def render_summary(console: Console, reports: list[CostReport], errors: list[Cos
         console.print(Text("'sampled' verdicts found no counterexample among the samples: evidence, not proof.",
                            style="dim"))
     if reports:
-        console.print(Text("What a code or word means: costcheck explain NAME (e.g. M302, sampled; see docs/).",
+        console.print(Text("What a code or word means: costcheck explain NAME (e.g. mtw-fails, sampled; see docs/).",
                            style="dim"))
