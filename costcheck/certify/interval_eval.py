@@ -24,6 +24,7 @@ enclosure — as :meth:`.arb_eval.BallFunction.over_box` does for one box.
 
 from __future__ import annotations
 
+import operator
 from fractions import Fraction
 from functools import lru_cache
 from typing import Sequence
@@ -34,7 +35,7 @@ import sympy as sp
 from ival import Interval
 
 from . import intervals as iv
-from .interval_dual import IntervalDual, tighten
+from .interval_dual import IntervalDual, repeat_rows, tighten
 from .program import Unsupported, build_program
 
 __all__ = ["IntervalFunction", "Unsupported", "cell_offsets", "compile_interval_exprs"]
@@ -178,9 +179,9 @@ def _value(op, args, extra, K):
     if op == "constant":
         return K[extra[0]]
     if op == "sum":
-        return _chain(args, lambda a, b: a + b)
+        return _chain(args, operator.add)
     if op == "product":
-        return _chain(args, lambda a, b: a * b)
+        return _chain(args, operator.mul)
     if op == "ipow":
         return ipow(args[0], extra[0])
     if op == "rpow":
@@ -190,17 +191,8 @@ def _value(op, args, extra, K):
     return UNARY[op][0](args[0])
 
 
-def _spread(x: Interval, like: Interval) -> Interval:
-    """``x`` (one interval per cell) repeated along the gradient's rows, so ival multiplies arrays of one
-    shape (its broadcasting path copies through several NumPy calls)."""
-    shape = np.shape(like.lo)
-    if np.shape(x.lo) == shape:
-        return x
-    return iv.make(np.broadcast_to(x.lo, shape).copy(), np.broadcast_to(x.hi, shape).copy())
-
-
 def _scale(partial, grad):
-    return None if grad is None else _spread(partial, grad) * grad
+    return None if grad is None else repeat_rows(partial, grad) * grad
 
 
 def _add(a, b):
@@ -209,20 +201,34 @@ def _add(a, b):
     return a if b is None else a + b
 
 
+def _product_gradient(args, grads):
+    """``Σ_i (Π_{j≠i} a_j) ∇a_i`` over the factors with a gradient.  The partial products are formed on
+    one interval per cell (prefix and suffix products) and only then spread over the gradient's rows,
+    so a product of k factors costs k multiplications on the ``(d, N)`` arrays."""
+    k = len(args)
+    prefix = [None] * (k + 1)
+    suffix = [None] * (k + 1)
+    for i in range(k):
+        prefix[i + 1] = args[i] if prefix[i] is None else prefix[i] * args[i]
+    for i in range(k - 1, -1, -1):
+        suffix[i] = args[i] if suffix[i + 1] is None else args[i] * suffix[i + 1]
+    total = None
+    for i, g in enumerate(grads):
+        if g is None:
+            continue
+        before, after = prefix[i], suffix[i + 1]
+        partial = ONE if before is None and after is None else (
+            after if before is None else (before if after is None else before * after))
+        total = _add(total, _scale(partial, g))
+    return total
+
+
 def _gradient(op, args, grads, extra, value):
     """The step's gradient (a ``(d, N)`` interval array, or None for zero) from its arguments'."""
     if op == "sum":
         return _chain(grads, _add)
     if op == "product":
-        # (a·b)' = a·b' + b·a', folded left: at least as tight as Σ_i (Π_{j≠i} a_j) a_i' (subdistributivity)
-        acc_value, acc_grad = args[0], grads[0]
-        for a, g in zip(args[1:], grads[1:]):
-            if g is not None and acc_grad is not None:
-                acc_grad = ival.fma(_spread(acc_value, g), g, _scale(a, acc_grad))  # one rounding per end
-            else:
-                acc_grad = _add(_scale(acc_value, g), _scale(a, acc_grad))
-            acc_value = acc_value * a
-        return acc_grad
+        return _product_gradient(args, grads)
     if op == "ipow":
         k = extra[0]
         return _scale(k * ipow(args[0], k - 1), grads[0])
@@ -295,13 +301,19 @@ class IntervalFunction:
         natural, gradients = self.with_gradients(box)
         middle, offsets = cell_offsets(lo, hi)
         at_middle = self([iv.from_bounds(middle[:, j], middle[:, j]) for j in range(lo.shape[1])])
-        duals = [IntervalDual(tighten(IntervalDual(v, g), m, offsets), g)
-                 for v, g, m in zip(natural, gradients, at_middle)]
+        # all expressions stacked into (E, N) and (E, d, N) arrays: a few calls instead of a dozen per expression
+        values, grads, middles = _stack(natural), _stack(gradients), _stack(at_middle)
+        tight = tighten(IntervalDual(values, grads), middles, offsets)
+        duals = [IntervalDual(iv.make(tight.lo[e], tight.hi[e]), g) for e, g in enumerate(gradients)]
         return duals, at_middle, offsets
 
     def over_cells(self, lo: np.ndarray, hi: np.ndarray) -> list[Interval]:
         """Enclosures over the cells: natural ∩ mean-value form."""
         return [d.value for d in self.duals_over_cells(lo, hi)[0]]
+
+
+def _stack(items: list) -> Interval:
+    return iv.make(np.stack([x.lo for x in items]), np.stack([x.hi for x in items]))
 
 
 def cell_offsets(lo: np.ndarray, hi: np.ndarray) -> tuple[np.ndarray, Interval]:
