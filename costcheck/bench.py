@@ -14,7 +14,13 @@ Every figure is measured in the same run (nothing is copied from earlier runs):
   interpreter start included) with an empty result cache, the catalog again with that cache
   warm (``catalog_warm``), and the peak resident memory of the cold catalog check
   (``getrusage(RUSAGE_CHILDREN).ru_maxrss``, MB).  Compiled code (JAX's and numba's caches) is
-  as the margin measurements above left it: compiled once on this machine.
+  as the margin measurements above left it: compiled once on this machine;
+* ``certify``: rigorous enclosures of the MTW tensor's derivative fields (values and gradients,
+  natural ∩ mean-value form) over one seeded set of cells of the pair box of
+  :data:`CERTIFY_COST`, in cells per second: ``arb`` (today's engine, ball arithmetic one cell at
+  a time, ``FieldEnclosures.duals_on_cell``) and ``vectorised`` (IEEE 1788 interval arrays, all
+  cells at once, ``CellFieldEnclosures.duals_on_cells``), and ``speedup``, their ratio; the two are
+  timed in interleaved rounds and each reports its best round.
 
 Progress goes to stderr; stdout carries only the JSON object.
 """
@@ -43,14 +49,20 @@ COSTS = {
 }
 #: pairs per throughput measurement, and points for the (slow) naive reference
 SIZES = {
-    "default": {"pairs": {2: 200_000, 3: 50_000}, "naive": {2: 200, 3: 40}, "single_budget": None},
-    "small": {"pairs": {2: 2_000, 3: 100}, "naive": {2: 10, 3: 4}, "single_budget": 256},
+    "default": {"pairs": {2: 200_000, 3: 50_000}, "naive": {2: 200, 3: 40}, "single_budget": None,
+                "certify_cells": 2_000},
+    "small": {"pairs": {2: 2_000, 3: 100}, "naive": {2: 10, 3: 4}, "single_budget": 256, "certify_cells": 16},
 }
 SINGLE_COST = "euclidean/power-0.5.yaml"
 NAIVE_GRID = 64
 
 TARGETS = {"n2_pairs_per_s": 2e6, "n2_speedup_vs_naive": 200.0, "n3_pairs_per_s": 2e5,
-           "single_cost_check_s": 5.0, "catalog_check_s": 60.0, "catalog_peak_mb": 2048.0}
+           "single_cost_check_s": 5.0, "catalog_check_s": 60.0, "catalog_peak_mb": 2048.0,
+           "certify_speedup": 100.0}
+#: the cost and the cells of the certify figures: each cell's side is CERTIFY_CELL_SIDE of the pair
+#: box's (after four halvings of every axis, where branch and bound spends most of its cells)
+CERTIFY_COST = "euclidean/power-0.5.yaml"
+CERTIFY_CELL_SIDE = 1 / 16
 
 
 def _log(message: str) -> None:
@@ -229,6 +241,59 @@ def measure_naive(cost, xs, ys) -> dict:
             "grid": NAIVE_GRID}
 
 
+# --------------------------------------------------------------------------- certified enclosures
+
+def certify_cells(cost, count: int, seed: int = 1):
+    """``count`` seeded cells inside the pair box of the cost's domain, each side CERTIFY_CELL_SIDE of the box's."""
+    from .certify.region import bounding_box
+
+    lo, hi = bounding_box(cost.domain)
+    rng = np.random.default_rng(seed)
+    side = (hi - lo) * CERTIFY_CELL_SIDE
+    a = lo + rng.random((count, lo.size)) * (hi - lo - side)
+    return a, a + side
+
+
+#: rounds of the certify figures: each round times the arb engine on its share of the cells, then the
+#: vectorised engine on all of them, so both see the same load on a shared machine
+CERTIFY_ROUNDS = 4
+
+
+def measure_certify(cost, count: int) -> dict:
+    """Cells per second of the two rigorous engines on the same cells (the TENSOR_FIELDS' values and
+    gradients), both measured here and interleaved; each engine's figure is its best round.  Build
+    times (symbolic differentiation, compilation, one warm-up call) are excluded."""
+    from .certify.cell_enclosures import CellFieldEnclosures
+    from .certify.enclosures import TENSOR_FIELDS, FieldEnclosures
+
+    lo, hi = certify_cells(cost, count)
+    t0 = time.perf_counter()
+    balls = FieldEnclosures(cost, TENSOR_FIELDS)
+    balls.duals_on_cell(lo[0], hi[0])
+    arb_build = time.perf_counter() - t0
+    t0 = time.perf_counter()
+    arrays = CellFieldEnclosures(cost, TENSOR_FIELDS)
+    arrays.duals_on_cells(lo, hi)
+    vec_build = time.perf_counter() - t0
+    enclosed, arb_rates, vec_runs = [], [], []
+    for share in np.array_split(np.arange(count), CERTIFY_ROUNDS):
+        t0 = time.perf_counter()
+        enclosed += [balls.duals_on_cell(lo[k], hi[k])[0] is not None for k in share]
+        arb_rates.append(len(share) / (time.perf_counter() - t0))
+        t0 = time.perf_counter()
+        fields = arrays.duals_on_cells(lo, hi)[0]
+        vec_runs.append(time.perf_counter() - t0)
+    arb = {"cells": count, "cells_per_s": max(arb_rates), "rounds_cells_per_s": arb_rates, "build_s": arb_build,
+           "enclosed_fraction": float(np.mean(enclosed)), "path": "arb balls, one cell at a time"}
+    vectorised = {"cells": count, "cells_per_s": count / min(vec_runs), "runs_s": vec_runs,
+                  "build_s": vec_build, "enclosed_fraction": float(np.mean(fields.enclosed)),
+                  "operations": arrays.function.operations,
+                  "path": "ival interval arrays, all cells at once"}
+    return {"file": f"catalog/{CERTIFY_COST}", "fields": list(TENSOR_FIELDS), "variables": int(lo.shape[1]),
+            "cell_side": CERTIFY_CELL_SIDE, "arb": arb, "vectorised": vectorised,
+            "speedup": vectorised["cells_per_s"] / arb["cells_per_s"]}
+
+
 # --------------------------------------------------------------------------- command line
 
 #: a tiny launcher: a child forked from this (large) process would start with its resident set,
@@ -276,6 +341,9 @@ LIMITS = {
                       "the two cores",
     "n2_speedup_vs_naive": "follows from n2_pairs_per_s: the naive per-point loop runs at "
                            "~1e2-1e3 pairs/s",
+    "certify_speedup": "the vectorised engine's time is ival's per-call work (~10 us of Python and ctypes "
+                       "per operation, then ~5-10 ns per interval): the gradient pass, on (d, N) "
+                       "arrays, is ~80 % of it; a batch of a few hundred cells is overhead-bound",
 }
 
 
@@ -307,6 +375,14 @@ def _margins(result: dict, cfg: dict, size: str, backends) -> dict:
     return per_n
 
 
+def _certify(result: dict, cfg: dict) -> None:
+    """Cells per second of the ball-arithmetic engine and of the vectorised one, on the same cells."""
+    import costcheck
+
+    _log(f"certify {CERTIFY_COST} ({cfg['certify_cells']} cells, arb then vectorised)")
+    result["certify"] = measure_certify(costcheck.load(CATALOG / CERTIFY_COST), cfg["certify_cells"])
+
+
 def _command_times(result: dict, cfg: dict, skip_catalog: bool) -> None:
     """Wall time of ``costcheck check`` on one cost, and on the catalog cold and warm."""
     single = [f"catalog/{SINGLE_COST}"]
@@ -336,6 +412,7 @@ def _targets(result: dict, per_n: dict, skip_catalog: bool) -> None:
     speedups = [v["speedup"] for k, v in result["naive"].items() if result["margin"][k]["n"] == 2]
     if speedups:
         t["n2_speedup_vs_naive"] = {"measured": min(speedups), "target": TARGETS["n2_speedup_vs_naive"]}
+    t["certify_speedup"] = {"measured": result["certify"]["speedup"], "target": TARGETS["certify_speedup"]}
     t["single_cost_check_s"] = {"measured": result["cli"]["single_cost"]["seconds"],
                                 "target": TARGETS["single_cost_check_s"], "lower_is_better": True}
     if not skip_catalog:
@@ -356,8 +433,9 @@ def run(size: str = "default", backends=("sympy", "jax"), skip_catalog: bool = F
     result: dict = {"tool": "costcheck.bench", "size": size, "backends": list(backends),
                     "machine": {"cpus": os.cpu_count(), "python": platform.python_version(),
                                 "numpy": np.__version__, "platform": platform.platform()},
-                    "margin": {}, "naive": {}, "cli": {}, "targets": {}}
+                    "margin": {}, "naive": {}, "cli": {}, "certify": {}, "targets": {}}
     per_n = _margins(result, cfg, size, backends)
+    _certify(result, cfg)
     _command_times(result, cfg, skip_catalog)
     _targets(result, per_n, skip_catalog)
     if size != "default":

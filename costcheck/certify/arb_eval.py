@@ -7,8 +7,8 @@ the box then stays undecided.  Numbers enter exactly: integers and rationals as 
 balls, ``pi`` and ``E`` as arb's enclosures, a binary float as its exact value.
 
 The compiled form is a straight-line program of ball operations built from the sympy tree
-alone (node types we know, constants by index): nothing is generated as source text and
-nothing from a cost file is executed.  Common subexpressions are shared (``sympy.cse``).
+alone (:mod:`.program`): nothing is generated as source text and nothing from a cost file
+is executed.  Common subexpressions are shared (``sympy.cse``).
 
 Over a box the plain ("natural") enclosure grows with the expression's size, because each
 occurrence of a variable ranges independently.  :meth:`BallFunction.over_box` therefore also
@@ -27,10 +27,9 @@ from flint import arb
 
 from . import balls
 from .dual import Dual, tighten
+from .program import Unsupported, build_program
 
-
-class Unsupported(ValueError):
-    """The expression uses something we have no sound ball version of."""
+__all__ = ["BallFunction", "Unsupported", "cell_middle", "compile_exprs"]
 
 
 def _method(name):
@@ -92,63 +91,6 @@ _UNARY = {
     "reciprocal": (_reciprocal, lambda x, v: -(v * v)),
 }
 
-_SYMPY_UNARY = {
-    sp.exp: "exp", sp.log: "log", sp.sin: "sin", sp.cos: "cos", sp.tan: "tan",
-    sp.sinh: "sinh", sp.cosh: "cosh", sp.tanh: "tanh", sp.asin: "asin", sp.acos: "acos",
-    sp.atan: "atan", sp.asinh: "asinh", sp.acosh: "acosh", sp.atanh: "atanh",
-    sp.sec: "sec", sp.csc: "csc", sp.cot: "cot", sp.Abs: "abs", sp.sign: "sign",
-    sp.DiracDelta: "delta", sp.Heaviside: "step",
-}
-
-
-class _Program:
-    """A straight-line program over registers: inputs first, then one slot per step.
-
-    A step is ``(operation name, argument slots, literal arguments)``, built from the sympy
-    tree alone, so nothing but sympy structure decides what runs.
-    """
-
-    def __init__(self, symbols):
-        self.slots: dict = {s: i for i, s in enumerate(symbols)}
-        self.constants: list = []
-        self.steps: list = []
-        self.width = len(symbols)
-
-    def _new(self, op, args, extra=()) -> int:
-        self.steps.append((op, tuple(args), tuple(extra)))
-        return self.width + len(self.steps) - 1
-
-    def slot(self, e: sp.Expr) -> int:
-        if e not in self.slots:
-            self.slots[e] = self._build(e)
-        return self.slots[e]
-
-    def _build(self, e: sp.Expr) -> int:
-        if e.is_Integer or e.is_Rational or e.is_Float or e in (sp.pi, sp.E):
-            self.constants.append(e)
-            return self._new("constant", (), (len(self.constants) - 1,))
-        if e.is_Add:
-            return self._new("sum", [self.slot(a) for a in e.args])
-        if e.is_Mul:
-            return self._new("product", [self.slot(a) for a in e.args])
-        if e.is_Pow:
-            base, exponent = e.args
-            if exponent.is_Integer:
-                if exponent == -1:
-                    return self._new("reciprocal", [self.slot(base)])
-                return self._new("ipow", [self.slot(base)], (int(exponent),))
-            if exponent.is_Rational:
-                return self._new("rpow", [self.slot(base)], (int(exponent.p), int(exponent.q)))
-            if base == sp.E:
-                return self._new("exp", [self.slot(exponent)])
-            return self._new("power", [self.slot(base), self.slot(exponent)])
-        op = _SYMPY_UNARY.get(e.func)
-        if op is not None and (len(e.args) == 1 or op == "delta"):
-            # DiracDelta(u, k), a derivative of the point mass, is zero away from u = 0 too
-            return self._new(op, [self.slot(e.args[0])])
-        raise Unsupported(f"no ball arithmetic for {type(e).__name__}")
-
-
 def _ball_constant(value: sp.Expr) -> arb:
     if value is sp.pi:
         return arb.pi()
@@ -201,11 +143,8 @@ class BallFunction:
     """Enclosures of several expressions at once, sharing their subexpressions."""
 
     def __init__(self, exprs: Sequence[sp.Expr], symbols: Sequence[sp.Symbol]):
-        program = _Program(symbols)
-        replacements, reduced = sp.cse(list(exprs), symbols=sp.numbered_symbols("_t"))
-        for name, value in replacements:
-            program.slots[name] = program.slot(value)
-        self._outputs = [program.slot(e) for e in reduced]
+        program = build_program(exprs, symbols)
+        self._outputs = list(program.outputs)
         self._steps = program.steps
         self._constants = program.constants
         self.size = len(exprs)

@@ -18,30 +18,36 @@ from .arb_eval import compile_exprs
 TENSOR_FIELDS = ("dxy", "dxxy", "dxyy", "dxxyy")
 
 
+def flat_fields(cost, fields: Sequence[str], substitution: dict | None = None):
+    """``(distinct entries, layout, shapes)`` of the named derivative fields: ``layout[name]`` lists the
+    position in the entries of each element of the field (row-major), ``shapes[name]`` its shape."""
+    order = max(k for k, names in ORDER_FIELDS.items() if set(names) & set(fields))
+    sym = symbolic_derivatives(cost.expr, cost.x_symbols, cost.y_symbols, order)
+    shapes, layout = {}, {}
+    flat, position = [], {}
+    for name in fields:
+        arr = np.array(sym[name], dtype=object)
+        shapes[name] = arr.shape
+        idx = []
+        for e in arr.reshape(-1):
+            if substitution:
+                e = e.xreplace(substitution)
+            if e not in position:
+                position[e] = len(flat)
+                flat.append(e)
+            idx.append(position[e])
+        layout[name] = idx
+    return flat, layout, shapes
+
+
 class FieldEnclosures:
     """``enclose(cell) -> {field: nested lists of balls}`` for the named derivative fields."""
 
     def __init__(self, cost, fields: Sequence[str], substitution: dict | None = None,
                  symbols: Sequence | None = None):
         """``substitution`` rewrites the derivatives into other variables ``symbols`` (default: x, then y)."""
-        order = max(k for k, names in ORDER_FIELDS.items() if set(names) & set(fields))
-        sym = symbolic_derivatives(cost.expr, cost.x_symbols, cost.y_symbols, order)
         self.fields = tuple(fields)
-        self._shapes = {}
-        flat, self._layout = [], {}
-        position: dict = {}
-        for name in self.fields:
-            arr = np.array(sym[name], dtype=object)
-            self._shapes[name] = arr.shape
-            idx = []
-            for e in arr.reshape(-1):
-                if substitution:
-                    e = e.xreplace(substitution)
-                if e not in position:
-                    position[e] = len(flat)
-                    flat.append(e)
-                idx.append(position[e])
-            self._layout[name] = idx
+        flat, self._layout, self._shapes = flat_fields(cost, self.fields, substitution)
         variables = tuple(symbols) if symbols is not None else tuple(cost.x_symbols) + tuple(cost.y_symbols)
         #: every rewritten derivative is a function of ``symbols`` alone (else nothing is compiled)
         self.free_of_others = all(e.free_symbols <= set(variables) for e in flat)
