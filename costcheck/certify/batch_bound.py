@@ -22,7 +22,7 @@ from typing import Callable
 
 import numpy as np
 
-from .branch_bound import Budget, Outcome
+from .branch_bound import Budget, Outcome, bisect_widest, finished
 
 
 def per_cell(classify: Callable[[np.ndarray, np.ndarray], str]) -> Callable[[np.ndarray, np.ndarray], np.ndarray]:
@@ -71,18 +71,11 @@ def batched_branch_and_bound(lo: np.ndarray, hi: np.ndarray, outside: Callable[[
                 proved_cells += 1
                 bound = float(value) if bound is None else min(bound, float(value))
                 continue
-            relative = (b - a) / width0
-            axis = int(np.argmax(relative))
-            if relative[axis] < budget.min_width:
+            halves = bisect_widest(a, b, width0, budget.min_width)
+            if halves is None:
                 stuck.append((a, b))
                 continue
-            middle = 0.5 * (a[axis] + b[axis])
-            left_hi, right_lo = b.copy(), a.copy()
-            left_hi[axis] = right_lo[axis] = middle
-            for pa, pb in ((a, left_hi), (right_lo, b)):
+            for pa, pb in halves:
                 heapq.heappush(queue, (-volume / 2, next(counter), pa, pb))
-    relevant = 1.0 - outside_volume
-    coverage = proved_volume / relevant if relevant > 0 else 1.0
-    proved = not queue and not stuck and proved_cells > 0 and not exhausted
-    return Outcome(proved, coverage, cells, proved_cells, outside_cells, time.perf_counter() - started,
-                   bound, stuck, exhausted)
+    return finished(queue, stuck, exhausted, proved_volume, outside_volume, cells, proved_cells, outside_cells,
+                    started, bound)

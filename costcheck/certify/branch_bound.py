@@ -89,16 +89,32 @@ def branch_and_bound(lo: np.ndarray, hi: np.ndarray, classify: Callable[[np.ndar
             proved_cells += 1
             bound = value if bound is None else min(bound, value)
             continue
-        relative = (b - a) / width0
-        axis = int(np.argmax(relative))
-        if relative[axis] < budget.min_width:
+        halves = bisect_widest(a, b, width0, budget.min_width)
+        if halves is None:
             stuck.append((a, b))
             continue
-        middle = 0.5 * (a[axis] + b[axis])
-        left_hi, right_lo = b.copy(), a.copy()
-        left_hi[axis] = right_lo[axis] = middle
-        for pa, pb in ((a, left_hi), (right_lo, b)):
+        for pa, pb in halves:
             heapq.heappush(queue, (-volume / 2, next(counter), pa, pb))
+    return finished(queue, stuck, exhausted, proved_volume, outside_volume, cells, proved_cells, outside_cells,
+                    started, bound)
+
+
+def bisect_widest(a: np.ndarray, b: np.ndarray, width0: np.ndarray, min_width: float):
+    """The two halves of ``[a, b]`` across its relatively widest side, or None when even that side
+    is below ``min_width`` of the starting box (the cell is *stuck*)."""
+    relative = (b - a) / width0
+    axis = int(np.argmax(relative))
+    if relative[axis] < min_width:
+        return None
+    middle = 0.5 * (a[axis] + b[axis])
+    left_hi, right_lo = b.copy(), a.copy()
+    left_hi[axis] = right_lo[axis] = middle
+    return (a, left_hi), (right_lo, b)
+
+
+def finished(queue, stuck, exhausted, proved_volume, outside_volume, cells, proved_cells, outside_cells,
+             started, bound) -> Outcome:
+    """The :class:`Outcome` of a search: proved only when nothing is left, stuck or cut short."""
     relevant = 1.0 - outside_volume
     coverage = proved_volume / relevant if relevant > 0 else 1.0
     proved = not queue and not stuck and proved_cells > 0 and not exhausted

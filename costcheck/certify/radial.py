@@ -73,7 +73,8 @@ def circle_coefficients(cost, frame: RadialFrame) -> list[sp.Expr] | None:
 
 
 def _only_in(frame: RadialFrame, expressions: list):
-    expressions = [sp.sympify(e) for e in expressions]
+    # the algebra starts some sums from the Python integer 0: make every entry a sympy number or expression
+    expressions = [sp.Integer(e) if isinstance(e, int) else e for e in expressions]
     return None if any(e.free_symbols - {frame.r} for e in expressions) else expressions
 
 
