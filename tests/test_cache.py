@@ -101,6 +101,14 @@ def test_witnesses_and_extra_details_survive_the_round_trip():
     assert back.witness.vector_sides == {"y_prime": "y"}
 
 
+def _timeless(value):
+    if isinstance(value, dict):
+        return {k: _timeless(v) for k, v in value.items() if k != "seconds"}
+    if isinstance(value, list):
+        return [_timeless(v) for v in value]
+    return value
+
+
 def test_corrupt_truncated_or_foreign_entries_are_ignored_and_rewritten(tmp_path, capsys, private_result_cache):
     path = _write(tmp_path, "quad.yaml", QUAD_1D)
     argv = ["check", path, "--budget", "64", "--only", "twist", "--only", "nondegenerate", "--json"]
@@ -114,7 +122,8 @@ def test_corrupt_truncated_or_foreign_entries_are_ignored_and_rewritten(tmp_path
     for bad in [original[: len(original) // 2], "not json", json.dumps(other_key), json.dumps(tampered), "[]"]:
         entry.write_text(bad)
         _, again = _run(capsys, *argv)
-        assert json.loads(again)["costs"][0]["checks"] == json.loads(good)["costs"][0]["checks"]
+        # recomputed, so equal but for the measured seconds of the proof attempts (proofs run by default)
+        assert _timeless(json.loads(again)["costs"][0]["checks"]) == _timeless(json.loads(good)["costs"][0]["checks"])
         assert json.loads(entry.read_text())["key"] == stored["key"], "the entry was not rewritten"
 
 
