@@ -15,6 +15,7 @@ import numpy as np
 import pytest
 
 import costcheck
+from loeper_witness import assert_violates_the_maximum_principle
 from costcheck.conditions.context import CheckContext
 from costcheck.run.runner import run_checks
 from costcheck.errors import UsageError
@@ -182,16 +183,7 @@ def test_zero_mtw_cost_holds_despite_rounding(cross_reports):
 def test_loeper_witness_is_a_genuine_violation(cross_reports):
     # independent re-computation of the witness with the cost's own value (no c-segment code):
     # f(t) = c(x, y_t) - c(x', y_t) exceeds max(f(0), f(1)) (definition, Loeper 2009)
-    r = cross_reports["euclidean/power-3.yaml"]
-    w = r.verdicts["loeper"].witness
-    ev = r.cost.derivatives(order=1)
-    ys = np.array([w.vectors["y0"], w.y, w.vectors["y1"]])
-    f = ev(np.repeat([w.x], 3, axis=0), ys).value - ev(np.repeat([w.vectors["x_prime"]], 3, axis=0), ys).value
-    assert f[1] > max(f[0], f[2])
-    # and y_t lies on the c-segment: -D_x c(x, y_t) is on the line through p0, p1
-    p = -ev(np.repeat([w.x], 3, axis=0), ys).dx
-    d1, d2 = p[1] - p[0], p[2] - p[0]
-    assert abs(d1[0] * d2[1] - d1[1] * d2[0]) < 1e-9 * np.linalg.norm(d2) ** 2
+    assert_violates_the_maximum_principle(cross_reports["euclidean/power-3.yaml"])
 
 
 # --------------------------------------------------------------------------- JSON and codes

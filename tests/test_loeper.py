@@ -16,6 +16,7 @@ import numpy as np
 import pytest
 
 import costcheck
+from loeper_witness import assert_violates_the_maximum_principle
 from costcheck.conditions import loeper
 from costcheck.conditions.context import CheckContext
 from costcheck.conditions.engines import loeper_search as ls
@@ -59,15 +60,7 @@ def test_loeper_finds_the_small_failure_of_the_p_minus_2_5_power_cost(reproducer
 def test_the_witness_violates_the_principle_by_the_costs_own_values(reproducer):
     # independent re-computation with the cost's values only (no c-segment code): f(y_t) exceeds
     # both ends (the definition, Loeper 2009), and y_t lies on the line -D_x c(x, ·) = p_t
-    report = reproducer
-    w = report.verdicts["loeper"].witness
-    ev = report.cost.derivatives(order=1)
-    ys = np.array([w.vectors["y0"], w.y, w.vectors["y1"]])
-    f = ev(np.repeat([w.x], 3, axis=0), ys).value - ev(np.repeat([w.vectors["x_prime"]], 3, axis=0), ys).value
-    assert f[1] > max(f[0], f[2])
-    p = -ev(np.repeat([w.x], 3, axis=0), ys).dx
-    d1, d2 = p[1] - p[0], p[2] - p[0]
-    assert abs(d1[0] * d2[1] - d1[1] * d2[0]) < 1e-9 * np.linalg.norm(d2) ** 2
+    assert_violates_the_maximum_principle(reproducer)
 
 
 def test_consistency_step_alone_shows_the_violation_at_the_mtw_minimiser():
