@@ -77,6 +77,20 @@ def test_sweep_and_check_agree_point_for_point_on_the_power_family(tmp_path, cap
     assert [r["mtw"]["verdict"] for r in result.results] == ["strong", "fails"]
 
 
+def test_a_quick_sweep_point_is_check_quick(capsys):
+    # `sweep --quick` checks each value as `check --quick` does: the same sampled verdicts, no proofs
+    conditions = ["nondegenerate", "mtw"]
+    result = run_sweep(POWER, [Axis("p", [0.5])], budget=BUDGET, seed=20261201, conditions=conditions,
+                       workers=1, bisect=False, cache=False, prove=False)
+    only = [a for c in conditions for a in ("--only", c)]
+    quick = check_json(POWER, capsys, "--quick", *only)
+    proved = check_json(POWER, capsys, *only)
+    for name in conditions:
+        assert {k: result.results[0][name][k] for k in FIELDS} == flat(quick[name]), name
+    # the default proofs do upgrade something here, so the two modes are told apart by this test
+    assert any(flat(proved[n])["kind"] != flat(quick[n])["kind"] for n in conditions)
+
+
 @pytest.mark.parametrize("path", sorted((ROOT / "catalog/euclidean").glob("power-*.yaml")), ids=lambda p: p.stem)
 def test_each_power_file_swept_at_its_own_value_is_its_check(path, capsys):
     # every file of the family: the sweep point at the file's own p is `check` of the file itself

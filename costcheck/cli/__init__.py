@@ -164,6 +164,8 @@ def _build_parser() -> argparse.ArgumentParser:
     sweep.add_argument("--tolerance", type=_real(0.0, 1e6), default=1e-3,
                        help="bisect verdict boundaries to this width (default 1e-3)")
     sweep.add_argument("--no-bisect", action="store_true", help="report grid changes only, no bisection")
+    sweep.add_argument("--quick", action="store_true",
+                       help="check each value as 'check --quick' does: sampling only, no proof attempts")
     sweep.add_argument("--plots", metavar="DIR", default=None, help="write PNG and SVG pictures into DIR")
 
     from ..defaults import DEFAULT_LEVELS
@@ -452,7 +454,8 @@ def _cmd_sweep(args, out: Console, err: Console) -> int:
                     _p.update(_t, description="bisecting boundaries")
         result = run_sweep(args.file, axes, budget=args.budget, seed=args.seed, conditions=args.only,
                            workers=args.workers, scheduler=args.scheduler, tolerance=args.tolerance,
-                           bisect=not args.no_bisect, cache=not args.no_cache, on_progress=on_progress)
+                           bisect=not args.no_bisect, cache=not args.no_cache, on_progress=on_progress,
+                           prove=not args.quick)
     if args.plots:
         from ..sweep.plots import write_plots
         files = write_plots(result, args.plots)

@@ -25,8 +25,9 @@ class Executor:
     """Maps :func:`evaluate_point` over many parameter dicts; the three back ends share this."""
 
     def __init__(self, path: str, budget: int, seed: int, workers: int | None = None,
-                 scheduler: str | None = None, client=None, cache_dir: str | None = None):
+                 scheduler: str | None = None, client=None, cache_dir: str | None = None, prove: bool = True):
         self.path, self.budget, self.seed, self.cache_dir = str(path), budget, seed, cache_dir
+        self.prove = prove
         self.workers = workers or os.cpu_count() or 1
         self._pool = None
         self._client = client
@@ -50,7 +51,8 @@ class Executor:
         """Each point checked at ``budget`` (the sweep's own by default) with the sweep's seed."""
         n = len(points)
         budget = budget or self.budget
-        args = ([self.path] * n, points, [budget] * n, [self.seed] * n, [conditions] * n, [self.cache_dir] * n)
+        args = ([self.path] * n, points, [budget] * n, [self.seed] * n, [conditions] * n, [self.cache_dir] * n,
+                [self.prove] * n)
         if self._client is not None:
             futures = self._client.map(evaluate_point, *args, pure=False)
             return self._client.gather(futures)
@@ -99,10 +101,11 @@ class SweepResult:
 def run_sweep(path, axes: list[Axis], *, budget: int, seed: int, conditions: Sequence[str] | None = None,
               workers: int | None = None, scheduler: str | None = None, client=None,
               tolerance: float = 1e-3, bisect: bool = True, cache: bool = True,
-              on_progress: Callable[[int, int], None] | None = None) -> SweepResult:
+              on_progress: Callable[[int, int], None] | None = None, prove: bool = True) -> SweepResult:
     """Check every grid point, then (for one axis, or along each line of a grid) bisect verdict changes.
 
     ``cache``: answer values already checked from the result cache (:mod:`costcheck.run.cache`).
+    ``prove``: check each point as plain ``check`` does (its default proofs); False as ``check --quick``.
     """
     from ..api import load
     from ..conditions import REGISTRY
@@ -120,7 +123,8 @@ def run_sweep(path, axes: list[Axis], *, budget: int, seed: int, conditions: Seq
     from ..run.cache import default_directory
 
     cache_dir = str(default_directory()) if cache else None
-    executor = Executor(path, budget, seed, workers=workers, scheduler=scheduler, client=client, cache_dir=cache_dir)
+    executor = Executor(path, budget, seed, workers=workers, scheduler=scheduler, client=client, cache_dir=cache_dir,
+                        prove=prove)
     try:
         results: list[dict] = []
         chunk = max(1, executor.workers * 2)
@@ -130,7 +134,7 @@ def run_sweep(path, axes: list[Axis], *, budget: int, seed: int, conditions: Seq
                 on_progress(len(results), len(points))
         result = SweepResult(str(path), axes, names, points, results,
                              options={"budget": budget, "seed": seed, "tolerance": tolerance,
-                                      "recheck_budget": budget * RECHECK_FACTOR,
+                                      "recheck_budget": budget * RECHECK_FACTOR, "proofs": prove,
                                       "only": list(conditions) if conditions else None})
         # without bisection, grid changes and isolated values are still reported (infinite tolerance)
         result.boundaries, result.isolated, result.unstable = find_boundaries(

@@ -29,11 +29,12 @@ def where(verdict) -> dict | None:
 
 
 def evaluate_point(path: str, params: dict, budget: int, seed: int, conditions: Sequence[str] | None,
-                   cache_dir: str | None = None) -> dict:
+                   cache_dir: str | None = None, prove: bool = True) -> dict:
     """Check the cost at ``params``; ``{condition: {verdict, code, kind, value, witness, where, summary}}``.
 
     With ``cache_dir`` the result cache there answers values already checked (the key is that of
-    ``check`` on a file with these parameter values).
+    ``check`` on a file with these parameter values).  ``prove=False`` checks the point as
+    ``check --quick`` does (sampling only); by default as plain ``check`` (its default proof budget).
     """
     from ..conditions import REGISTRY
     from ..defaults import DEFAULT_PROOF_CELLS, DEFAULT_PROOF_SECONDS
@@ -51,9 +52,9 @@ def evaluate_point(path: str, params: dict, budget: int, seed: int, conditions: 
             raise CostFileError(f"no parameter named '{unknown[0]}' (parameters: "
                                 f"{', '.join(data.get('params') or {}) or 'none'})", file=str(path), field="params")
         data = {**data, "params": {**(data.get("params") or {}), **params}}
-        # the evidence of `check`: the same proof attempt too (its default budget)
+        # the evidence of `check`: the same proof attempt too (its default budget), or of `check --quick`
         options = {"budget": budget, "seed": seed, "backend": "sympy", "conditions": names,
-                   "prove": {"seconds": DEFAULT_PROOF_SECONDS, "cells": DEFAULT_PROOF_CELLS}}
+                   "prove": {"seconds": DEFAULT_PROOF_SECONDS, "cells": DEFAULT_PROOF_CELLS} if prove else None}
         report, _ = check_one(data, str(path), options, cache=cache)
         cost = report.cost
     except CostcheckError as exc:
