@@ -143,7 +143,8 @@ def test_two_parameter_sweep_on_a_local_dask_cluster(tmp_path):
     axes = parse_axes(["p=0.5,1.5", "eps=0,0.1"], {"p": 0.5, "eps": 0.0})
     with distributed.LocalCluster(n_workers=1, threads_per_worker=1, processes=False,
                                   dashboard_address=None) as cluster, distributed.Client(cluster) as client:
-        result = run_sweep(path, axes, budget=128, seed=1, conditions=["mtw"], client=client, bisect=False)
+        result = run_sweep(path, axes, budget=128, seed=1, conditions=["mtw"], client=client, bisect=False,
+                           prove=False)
     assert len(result.points) == 4
     verdicts = {(p["p"], p["eps"]): r["mtw"]["verdict"] for p, r in zip(result.points, result.results)}
     # eps = 0: the power family (MTW 2005 for p = 0.5; Loeper 2009 for p = 1.5)
@@ -172,8 +173,12 @@ def test_cli_bad_options_exit_2(argv, word, capsys):
 
 def test_cli_json_shape(capsys, tmp_path):
     code = main(["sweep", POWER, "--vary", "p=1.9,2.0,2.1", "--only", "mtw", "--budget", str(BUDGET),
-                 "--workers", "1", "--tolerance", "0.05", "--json", "--plots", str(tmp_path / "pics")])
+                 "--workers", "1", "--tolerance", "0.05", "--json", "--plots", str(tmp_path / "pics"), "--quick"])
     doc = json.loads(capsys.readouterr().out)
+    assert doc["options"]["proofs"] is False
+    # nothing proved: p = 2 (weak, S ≡ 0) would be proved by identity under the default proofs
+    assert all(pt["checks"]["mtw"]["kind"] in ("sampled", "refuted") for pt in doc["points"])
+    assert doc["points"][1]["checks"]["mtw"]["kind"] == "sampled"
     assert code == 0 and doc["summary"]["exit_code"] == 0
     assert doc["axes"] == [{"name": "p", "values": [1.9, 2.0, 2.1]}]
     assert doc["conditions"] == ["mtw"] and len(doc["points"]) == 3
