@@ -12,14 +12,14 @@ import argparse
 import json
 import os
 import sys
-from contextlib import contextmanager
-from pathlib import Path
 from typing import Sequence
 
 from rich.console import Console
 
 from .. import __version__
-from ..errors import EXIT_BAD_INPUT, EXIT_EXPECTATION_FAILED, EXIT_INTERNAL_ERROR, EXIT_OK, CostcheckError
+from ..errors import EXIT_BAD_INPUT, EXIT_INTERNAL_ERROR, EXIT_OK, CostcheckError
+from . import check as check_command
+from .progress import Progress
 
 
 class _Parser(argparse.ArgumentParser):
@@ -119,9 +119,11 @@ def _build_parser() -> argparse.ArgumentParser:
     check.add_argument("--junit", metavar="FILE", default=None,
                        help="also write JUnit XML to FILE: one test case per cost and condition")
     check.add_argument("--quiet", action="store_true",
-                       help="print tables only for costs with an unmet expectation, then the summary line")
+                       help="print only costs with an unmet expectation, then the summary line; no progress")
+    check_command.add_view_options(check)
     report = sub.add_parser("report", help="write a design-review report (HTML page and Markdown) of cost files")
     report.add_argument("--out", metavar="DIR", required=True, help="folder for index.html, report.md, figures/")
+    report.add_argument("--quiet", action="store_true", help="no progress on stderr")
     check.add_argument("--plots", metavar="DIR", default=None,
                        help="also write every picture of each cost (PNG and SVG) into DIR/<cost id>/")
     for command in (check, report):
@@ -165,6 +167,7 @@ def _build_parser() -> argparse.ArgumentParser:
                        help="bisect verdict boundaries to this width (default 1e-3)")
     sweep.add_argument("--no-bisect", action="store_true", help="report grid changes only, no bisection")
     sweep.add_argument("--plots", metavar="DIR", default=None, help="write PNG and SVG pictures into DIR")
+    sweep.add_argument("--quiet", action="store_true", help="no progress on stderr")
 
     from ..defaults import DEFAULT_LEVELS
     nested = sub.add_parser("nested", help="decide nestedness of a model with a one-dimensional target (m = 1) "
@@ -186,146 +189,7 @@ def _build_parser() -> argparse.ArgumentParser:
     return parser
 
 
-#: ``check`` options that only choose where results go; every other option reaches the checks
-#: and therefore the cache key (so a new option is part of the key unless listed here)
-OUTPUT_ONLY_OPTIONS = {"command", "paths", "json", "junit", "quiet", "no_cache", "out", "plots"}
-
-
-def _run_options(args) -> dict:
-    """The options handed to ``run_checks``: all of ``check``'s options but the output-only ones."""
-    options = {k: v for k, v in vars(args).items() if k not in OUTPUT_ONLY_OPTIONS}
-    options["conditions"] = options.pop("only")
-    # the proof budget travels as one JSON-able mapping (part of the cache key), or None
-    seconds, cells, long = options.pop("prove_seconds"), options.pop("prove_cells"), options.pop("prove")
-    if options.pop("quick"):
-        options["prove"] = None
-    else:
-        from ..defaults import DEFAULT_PROOF_SECONDS, LONG_PROOF_SECONDS
-        seconds = seconds or (LONG_PROOF_SECONDS if long else DEFAULT_PROOF_SECONDS)
-        options["prove"] = {"seconds": seconds, "cells": cells}
-    return options
-
-
-def _checked(args, err: Console, *, full_costs: bool = False, on_report=None):
-    """Find and check ``args.paths`` (through the cache unless ``--no-cache``); ``None`` if no files."""
-    from ..run.batch import check_files
-    from ..run.cache import ResultCache
-    from ..spec.reading import find_cost_files
-
-    files = find_cost_files(args.paths)
-    if not files:
-        _error(f"no cost files (*.yaml, *.yml) under {' '.join(args.paths)}")
-        return None
-
-    @contextmanager
-    def progress(cost_id):
-        if not err.is_terminal:
-            yield None
-            return
-        with err.status(f"checking {cost_id}…", spinner="dots") as status:
-            yield lambda name: status.update(f"checking {cost_id}: {name}…")
-
-    return check_files(files, _run_options(args), cache=None if args.no_cache else ResultCache(),
-                       full_costs=full_costs, progress=progress, on_report=on_report, on_error=_error)
-
-
-def _exit_code(result) -> int:
-    if result.errors:
-        return EXIT_BAD_INPUT
-    if any(r.mismatches for r in result.reports):
-        return EXIT_EXPECTATION_FAILED
-    return EXIT_OK
-
-
-def _cmd_check(args, out: Console, err: Console) -> int:
-    from ..render import terminal
-
-    def show(report):
-        if not args.json and not (args.quiet and not report.mismatches):
-            terminal.render_report(out, report)
-        if args.plots:
-            _write_plots(report, args.plots, err)
-
-    result = _checked(args, err, full_costs=bool(args.plots), on_report=show)
-    if result is None:
-        return EXIT_BAD_INPUT
-    code = _exit_code(result)
-    if args.junit:
-        from ..render.junit import run_to_junit
-        try:
-            Path(args.junit).write_text(run_to_junit(result.reports, result.errors), encoding="utf-8")
-        except OSError as exc:
-            _error(f"{args.junit}: cannot write the JUnit file: {exc.strerror}")
-            code = EXIT_BAD_INPUT
-    if args.json:
-        from ..render import json_out
-        options = {"seed": args.seed, "budget": args.budget, "backend": args.backend, "only": args.only,
-                   "prove": _run_options(args)["prove"]}
-        print(json_out.run_to_json(result.reports, result.errors, options, code))
-    else:
-        terminal.render_summary(out, result.reports, result.errors)
-    if result.cached and err.is_terminal:  # said on the terminal only: the outputs stay identical
-        err.print(f"{result.cached} of {len(result.reports)} result(s) from the cache; --no-cache recomputes",
-                  style="dim", markup=False)
-    return code
-
-
-def _cmd_report(args, out: Console, err: Console) -> int:
-    from ..render.report import write_report
-
-    result = _checked(args, err, full_costs=True)
-    if result is None:
-        return EXIT_BAD_INPUT
-    try:
-        written = write_report(result.reports, result.errors, args.out, options=_run_options(args))
-    except OSError as exc:
-        from ..errors import UsageError
-        raise UsageError(f"cannot write the report into {args.out}: {exc.strerror or exc} (option --out)") from None
-    for path in written:
-        out.print(f"wrote {path}", markup=False)
-    return _exit_code(result)
-
-
-def _cmd_schema(args) -> int:
-    from ..spec.schema import schema_json
-
-    sys.stdout.write(schema_json())
-    return EXIT_OK
-
-
-def _cmd_new(args, out: Console) -> int:
-    from ..spec.template import write_template
-
-    path = write_template(args.name)
-    out.print(f"wrote {path}; edit it, then run: costcheck check {path}", markup=False)
-    return EXIT_OK
-
-
-def _write_plots(report, directory: str, err: Console) -> None:
-    """Every maker's pictures of one cost into ``directory/<cost id>/``, listed on stderr."""
-    from ..errors import UsageError
-    from ..render.plots import write_figures
-
-    target = Path(directory) / report.cost.id
-    try:
-        target.mkdir(parents=True, exist_ok=True)
-        figures = write_figures(report, target)
-    except OSError as exc:
-        raise UsageError(f"cannot write pictures into {target}: {exc.strerror or exc} (option --plots)") from None
-    if figures:
-        err.print(f"pictures of {report.cost.id} in {target}: " + ", ".join(f.png.stem for f in figures)
-                  + " (PNG and SVG)", markup=False, highlight=False, soft_wrap=True)
-    else:
-        err.print(f"no pictures for {report.cost.id} (they need n = m = 2 or a recorded configuration)",
-                  markup=False, highlight=False)
-
-
-class _Null:
-    def __enter__(self):
-        return None
-
-    def __exit__(self, *exc):
-        return False
+OUTPUT_ONLY_OPTIONS = check_command.OUTPUT_ONLY_OPTIONS  # kept here: DEVELOPERS.md names it cli.OUTPUT_ONLY_OPTIONS
 
 
 def _cmd_show(args, out: Console) -> int:
@@ -436,20 +300,12 @@ def _cmd_sweep(args, out: Console, err: Console) -> int:
     total = 1
     for a in axes:
         total *= len(a.values)
-    progress = None
-    if err.is_terminal and total > 4:
-        from rich.progress import Progress
-        progress = Progress(console=err, transient=True)
-    task = None
-    with progress if progress is not None else _Null():
-        if progress is not None:
-            task = progress.add_task("sweeping", total=total)
-
-        def on_progress(done, _total, _p=progress, _t=task):
-            if _p is not None:
-                _p.update(_t, completed=done)
-                if done >= _total:
-                    _p.update(_t, description="bisecting boundaries")
+    with Progress(err, total, quiet=args.quiet, what="sweeping") as progress:
+        progress.running(f"{total} parameter values")
+        def on_progress(done, _total):
+            progress.advance_to(done)
+            if done >= _total and not args.no_bisect:
+                progress.running("bisecting verdict boundaries")
         result = run_sweep(args.file, axes, budget=args.budget, seed=args.seed, conditions=args.only,
                            workers=args.workers, scheduler=args.scheduler, tolerance=args.tolerance,
                            bisect=not args.no_bisect, cache=not args.no_cache, on_progress=on_progress)
@@ -476,11 +332,7 @@ def _cmd_nested(args, out: Console) -> int:
     return document["exit_code"]
 
 
-def _error(problem) -> None:
-    """One line on stderr (never wrapped, never a traceback)."""
-    text = " ".join(str(problem).split())
-    sys.stderr.write(f"costcheck: error: {text}\n")
-    sys.stderr.flush()
+_error = check_command.error_line
 
 
 def main(argv: Sequence[str] | None = None) -> int:
@@ -532,7 +384,7 @@ def _main(argv: Sequence[str] | None = None) -> int:
         return EXIT_BAD_INPUT
     try:
         if args.command == "check":
-            return _cmd_check(args, out, err)
+            return check_command.cmd_check(args, out, err)
         if args.command == "show":
             return _cmd_show(args, out)
         if args.command == "tensor":
@@ -542,7 +394,7 @@ def _main(argv: Sequence[str] | None = None) -> int:
         if args.command == "nested":
             return _cmd_nested(args, out)
         if args.command == "report":
-            return _cmd_report(args, out, err)
+            return check_command.cmd_report(args, out, err)
         if args.command == "schema":
             return _cmd_schema(args)
         if args.command == "new":

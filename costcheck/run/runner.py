@@ -13,7 +13,8 @@ from typing import TYPE_CHECKING, Callable, Sequence
 
 from ..conditions import REGISTRY
 from .. import defaults
-from ..model.verdict import CostReport, Verdict, undecided
+from ..model.report import CostReport
+from ..model.verdict import Verdict, undecided
 from ..defaults import DEFAULT_BUDGET, DEFAULT_SEED
 from ..numerics.bounded import within
 
