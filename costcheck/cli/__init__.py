@@ -192,6 +192,21 @@ def _build_parser() -> argparse.ArgumentParser:
 OUTPUT_ONLY_OPTIONS = check_command.OUTPUT_ONLY_OPTIONS  # kept here: DEVELOPERS.md names it cli.OUTPUT_ONLY_OPTIONS
 
 
+def _cmd_schema(args) -> int:
+    from ..spec.schema import schema_json
+
+    sys.stdout.write(schema_json())
+    return EXIT_OK
+
+
+def _cmd_new(args, out: Console) -> int:
+    from ..spec.template import write_template
+
+    path = write_template(args.name)
+    out.print(f"wrote {path}; edit it, then run: costcheck check {path}", markup=False)
+    return EXIT_OK
+
+
 def _cmd_show(args, out: Console) -> int:
     from ..spec.loader import load_cost
     from ..derivatives.sympy_backend import symbolic_derivatives
@@ -337,8 +352,16 @@ _error = check_command.error_line
 
 def main(argv: Sequence[str] | None = None) -> int:
     """The command line; an exception nobody expected becomes one line and exit status 3."""
+    from ..run import numeric_warnings
+
     try:
-        return _main(argv)
+        with numeric_warnings.recorded() as caught:  # never printed raw; the checks turn theirs into notes
+            code = _main(argv)
+        said = numeric_warnings.summary(caught)
+        if said:
+            sys.stderr.write(f"costcheck: note: float64 evaluation outside the checks (pictures, reports) "
+                             f"reported {said}\n")
+        return code
     except (SystemExit, KeyboardInterrupt):
         raise
     except BrokenPipeError:

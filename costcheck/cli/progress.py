@@ -64,7 +64,7 @@ class Progress:
         if self._bar is not None:
             self._bar.update(self._task, description=f"{self.what} {label}")
 
-    def finished(self, label: str, seconds: float | None = None, *, count: int = 1) -> None:
+    def finished(self, label: str | None, seconds: float | None = None, *, count: int = 1) -> None:
         """``count`` more items done; a plain line names ``label`` once the run is no longer short."""
         with self._lock:
             self.done = min(self.total, self.done + count)
@@ -73,11 +73,11 @@ class Progress:
             self._bar.update(self._task, completed=self.done)
         elif self.mode == "lines" and self.total > 1 and self.clock() - self.started >= self.first:
             took = "" if seconds is None else f", {seconds:.1f} s"
-            self._line(f"{self.done}/{self.total} done ({label}{took})")
+            self._line(f"{self.done}/{self.total} done" + (f" ({label}{took})" if label else ""))
 
     def advance_to(self, done: int, label: str = "") -> None:
         if done > self.done:
-            self.finished(label or f"{done} of {self.total}", count=done - self.done)
+            self.finished(label or None, count=done - self.done)
 
     @contextmanager
     def item(self, label: str):

@@ -76,10 +76,13 @@ class CostReport:
                 + f", {self.seconds:.1f} s")
 
     def __repr__(self) -> str:
+        rows = self._rows()
+        widths = [max((len(r[i]) for r in rows), default=0) for i in range(4)]
         lines = [f"<CostReport {self._title()}>"]
-        width = max((len(r[0]) for r in self._rows()), default=0)
-        for name, words, kind, value, detail in self._rows():
-            lines.append("  " + "  ".join(p for p in (name.ljust(width), words, kind, value, detail) if p))
+        for row in rows:
+            cells = [row[0].ljust(widths[0]), row[1].ljust(widths[1]), row[2].ljust(widths[2]),
+                     row[3].rjust(widths[3]), row[4]]
+            lines.append(("  " + "  ".join(cells)).rstrip())
         return "\n".join(lines)
 
     def _repr_html_(self) -> str:
