@@ -95,6 +95,8 @@ class Progress:
 
     def heartbeat(self) -> None:
         """A line naming the current item, if the run is past ``first`` and quiet for ``every`` seconds."""
+        if self.mode != "lines":
+            return
         now = self.clock()
         with self._lock:
             current, due = self.current, now - self.started >= self.first and now - self.last >= self.every
