@@ -50,7 +50,7 @@ def _render(*reports, **options) -> str:
     view = TerminalView(Console(file=buffer, width=150, color_system=None), **options)
     for report in reports:
         view.report(report)
-    view.summary(list(reports), [], 2.0)
+    view.summary(list(reports), [])
     return buffer.getvalue()
 
 
@@ -89,8 +89,8 @@ def test_failures_keeps_only_what_fails_is_undecided_or_missed_its_expectation()
 
 
 def test_summary_line_counts_verdicts_and_expectations():
-    line = summary_line([_report(expect={"mtw": "weak"})], [], 3.25)
-    assert line == "1 cost: 1 hold, 2 fail, 1 undecided, 1 n/a; 1 expectation unmet; 3.2 s"
+    line = summary_line([_report(expect={"mtw": "weak"})], [])
+    assert line == "1 cost: 1 hold, 2 fail, 1 undecided, 1 n/a; 1 expectation unmet; 1.2 s"
 
 
 def test_numbers_are_plain_and_error_bars_honest():

@@ -397,7 +397,7 @@ def _internal_error(exc: BaseException, argv) -> int:
 
 
 def _main(argv: Sequence[str] | None = None) -> int:
-    # tables are wider than 80 columns; outside a terminal (CI logs, pipes) use a fixed width
+    # the check view keeps to 80 columns itself; other commands' tables are wider: off a terminal a fixed width
     out = Console(highlight=False, width=None if sys.stdout.isatty() else 150)
     err = Console(stderr=True, highlight=False)
     parser = _build_parser()

@@ -3,7 +3,6 @@
 from __future__ import annotations
 
 import sys
-import time
 from pathlib import Path
 
 from rich.console import Console
@@ -87,7 +86,6 @@ def view_width(out: Console) -> int:
 def cmd_check(args, out: Console, err: Console) -> int:
     from ..render.terminal import TerminalView
 
-    started = time.monotonic()
     view = TerminalView(out, verbose=args.verbose, failures=args.failures, width=view_width(out))
 
     def show(report):
@@ -113,7 +111,7 @@ def cmd_check(args, out: Console, err: Console) -> int:
                    "prove": run_options(args)["prove"]}
         print(json_out.run_to_json(result.reports, result.errors, options, code))
     else:
-        view.summary(result.reports, result.errors, time.monotonic() - started)
+        view.summary(result.reports, result.errors)
     if result.cached and err.is_terminal:  # said on the terminal only: the outputs stay identical
         err.print(f"{result.cached} of {len(result.reports)} result(s) from the cache; --no-cache recomputes",
                   style="dim", markup=False)

@@ -165,8 +165,8 @@ class TerminalView:
                                        subsequent_indent="  "):
                 self._print(_INDENT + piece)
 
-    def summary(self, reports: list[CostReport], errors: list[CostFileError], seconds: float | None = None) -> None:
-        self._print(summary_line(reports, errors, seconds),
+    def summary(self, reports: list[CostReport], errors: list[CostFileError]) -> None:
+        self._print(summary_line(reports, errors),
                     "bold red" if errors or any(r.mismatches for r in reports) else "bold")
         if any(v.evidence.kind == "sampled" for r in reports for v in r.verdicts.values()):
             self._print("'sampled': no counterexample among the samples; evidence, not proof.", "dim")
@@ -175,8 +175,12 @@ class TerminalView:
             self._print(hint if self.verbose else "--verbose: evidence, witnesses, notes; " + hint, "dim")
 
 
-def summary_line(reports: list[CostReport], errors: list[CostFileError], seconds: float | None = None) -> str:
-    """``27 costs: 109 hold, 66 fail, 2 undecided, 68 n/a; 0 expectations unmet; 48.3 s``."""
+def summary_line(reports: list[CostReport], errors: list[CostFileError]) -> str:
+    """``27 costs: 109 hold, 66 fail, 2 undecided, 68 n/a; 0 expectations unmet; 48.3 s``.
+
+    The seconds are those the checks took, as each report records them: a result from the
+    cache prints exactly as it did when it was computed.
+    """
     tally = dict.fromkeys(("hold", "fail", "undecided", "n/a"), 0)
     for r in reports:
         for v in r.verdicts.values():
@@ -187,6 +191,6 @@ def summary_line(reports: list[CostReport], errors: list[CostFileError], seconds
     text += f"; {unmet} expectation{'s' if unmet != 1 else ''} unmet"
     if errors:
         text += f"; {len(errors)} file error{'s' if len(errors) != 1 else ''}"
-    if seconds is not None:
-        text += f"; {seconds:.1f} s"
+    if reports:
+        text += f"; {sum(r.seconds for r in reports):.1f} s"
     return text
