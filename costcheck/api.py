@@ -63,7 +63,7 @@ def from_function(
     """Build a cost from a JAX-traceable ``function(x, y)`` of 1-D arrays of lengths ``n`` and ``m``.
 
     Only the ``jax`` derivative backend is available for such a cost (it has no
-    symbolic form).  ``domain`` takes the cost-file form ``{"x": {"box": ...}, "y": ...}``;
+    symbolic form); :func:`check` chooses it.  ``domain`` takes the cost-file form ``{"x": {"box": ...}, "y": ...}``;
     constraints (``where``/``pairs``) need names and are not available here.
     """
     if sense not in ("cost", "surplus"):
@@ -100,9 +100,19 @@ def from_function(
     )
 
 
-def check(cost: Cost, *, budget: int | None = None, seed: int | None = None, backend: str = "sympy",
+def backend_for(cost: Cost) -> str:
+    """The derivative backend a cost can use: sympy for an expression, JAX for a Python function."""
+    return "jax" if cost.expr is None else "sympy"
+
+
+def check(cost: Cost, *, budget: int | None = None, seed: int | None = None, backend: str | None = None,
           conditions: Sequence[str] | None = None, prove: bool | dict = True):
-    """Run the condition checks on ``cost``; returns a :class:`~costcheck.run.runner.CostReport`.
+    """Run the condition checks on ``cost``; returns a :class:`~costcheck.model.report.CostReport`.
+
+    ``backend`` (``"sympy"`` or ``"jax"``) defaults to the one the cost allows
+    (:func:`backend_for`): a cost from :func:`from_function` has no symbolic form and is
+    differentiated by JAX.  ``repr(report)`` is a short table, a notebook shows it as HTML and
+    ``report.to_dict()`` is the cost's entry of ``costcheck check --json``.
 
     Each sampled verdict is also put to a proof on the whole domain, within a few seconds per
     condition (``prove=True``, the default, as ``costcheck check`` does); a dict of
@@ -120,7 +130,7 @@ def check(cost: Cost, *, budget: int | None = None, seed: int | None = None, bac
         from .certify import ProofOptions
         options = ProofOptions(**prove) if isinstance(prove, dict) else ProofOptions()
     return run_checks(cost, budget=budget or DEFAULT_BUDGET, seed=DEFAULT_SEED if seed is None else seed,
-                      backend=backend, conditions=conditions, prove=options)
+                      backend=backend or backend_for(cost), conditions=conditions, prove=options)
 
 
 def mtw_tensor(cost: Cost, simplify_seconds: float = 10.0):

@@ -71,3 +71,32 @@ def test_mtw_tensor_closed_form():
     value = float(comp.expr.subs({x: 1.5, y: 1.2}))
     u = 1.5 * 1.2
     assert abs(value - (-math.exp(u) * (2 + 2 * u + u * u) / (1 + u))) < 1e-12
+
+
+def test_report_prints_short_displays_in_a_notebook_and_is_the_json_entry():
+    from costcheck.render.json_out import cost_to_json
+
+    cost = costcheck.from_expression("(x - y)**2 / 2", x=["x"], y=["y"],
+                                     domain={"x": {"box": [[0, 1]]}, "y": {"box": [[0, 1]]}}, id="line")
+    report = costcheck.check(cost, budget=64, conditions=["nondegenerate", "mtw"], prove=False)
+    text = repr(report)
+    assert text.splitlines()[0].startswith("<CostReport line: n=1, m=1") and len(text.splitlines()) == 3
+    assert "Verdict(" not in text and "Evidence(" not in text  # not a dataclass dump
+    assert "<table>" in report._repr_html_() and "nondegenerate" in report._repr_html_()
+    assert report.to_dict() == cost_to_json(report) and report.to_dict()["checks"]["mtw"]["verdict"] == "not-applicable"
+
+
+def test_a_function_cost_is_checked_with_jax_without_options():
+    import jax.numpy as jnp
+
+    # c = -x·y: M = -I, so non-degeneracy holds (elementary)
+    cost = costcheck.from_function(lambda x, y: -jnp.dot(x, y), n=2, m=2, domain=BOX)
+    report = costcheck.check(cost, budget=64, conditions=["nondegenerate"])
+    assert report.options["backend"] == "jax" and report.verdicts["nondegenerate"].verdict == "holds"
+
+
+def test_the_notebook_style_example_in_docs_runs():
+    import runpy
+    from pathlib import Path
+
+    runpy.run_path(str(Path(__file__).resolve().parent.parent / "docs" / "api-example.py"), run_name="__main__")

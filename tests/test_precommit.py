@@ -60,7 +60,7 @@ def _exercise(hook: str, tmp_path: Path) -> None:
     passed = _try_repo(repo, hook, tmp_path)
     assert passed.returncode == 0, passed.stdout + passed.stderr
     assert "Passed" in passed.stdout
-    assert "2 cost(s) checked" in passed.stdout  # the two catalog files, not config/settings.yaml
+    assert "2 costs: " in passed.stdout  # the two catalog files, not config/settings.yaml
 
     # a changed file whose expectation is not met fails the commit, naming the file
     (repo / "catalog" / "line-b.yaml").write_text(line_quadratic("line-b", expect="{twist: holds, nondegenerate: fails}"))

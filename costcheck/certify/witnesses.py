@@ -135,8 +135,8 @@ def _twist(cost, w, method):
                 continue
             fa, fb = ga["dx"][0] - target["dx"][0], gb["dx"][0] - target["dx"][0]
             if balls.excludes_zero(fa) and balls.excludes_zero(fb) and balls.positive(fa) != balls.positive(fb):
-                return fa, (f"c_x(x, t) − c_x(x, y) enclosed in {balls.text(fa)} at t = {lo[0]!r} and "
-                            f"{balls.text(fb)} at t = {hi[0]!r} (arb, {BITS} bits), continuous between: a collision "
+                return fa, (f"c_x(x, t) − c_x(x, y) enclosed in {balls.text(fa)} at t = {float(lo[0])!r} and "
+                            f"{balls.text(fb)} at t = {float(hi[0])!r} (arb, {BITS} bits), continuous between: a collision "
                             "partner of y lies in that interval")
             continue
         found = _krawczyk(fields, target["dx"], x, lo, hi, yp)

@@ -12,14 +12,14 @@ import argparse
 import json
 import os
 import sys
-from contextlib import contextmanager
-from pathlib import Path
 from typing import Sequence
 
 from rich.console import Console
 
 from .. import __version__
-from ..errors import EXIT_BAD_INPUT, EXIT_EXPECTATION_FAILED, EXIT_INTERNAL_ERROR, EXIT_OK, CostcheckError
+from ..errors import EXIT_BAD_INPUT, EXIT_INTERNAL_ERROR, CostcheckError
+from . import check as check_command
+from . import commands
 
 
 class _Parser(argparse.ArgumentParser):
@@ -119,9 +119,11 @@ def _build_parser() -> argparse.ArgumentParser:
     check.add_argument("--junit", metavar="FILE", default=None,
                        help="also write JUnit XML to FILE: one test case per cost and condition")
     check.add_argument("--quiet", action="store_true",
-                       help="print tables only for costs with an unmet expectation, then the summary line")
+                       help="print only costs with an unmet expectation, then the summary line; no progress")
+    check_command.add_view_options(check)
     report = sub.add_parser("report", help="write a design-review report (HTML page and Markdown) of cost files")
     report.add_argument("--out", metavar="DIR", required=True, help="folder for index.html, report.md, figures/")
+    report.add_argument("--quiet", action="store_true", help="no progress on stderr")
     check.add_argument("--plots", metavar="DIR", default=None,
                        help="also write every picture of each cost (PNG and SVG) into DIR/<cost id>/")
     for command in (check, report):
@@ -167,6 +169,7 @@ def _build_parser() -> argparse.ArgumentParser:
     sweep.add_argument("--quick", action="store_true",
                        help="check each value as 'check --quick' does: sampling only, no proof attempts")
     sweep.add_argument("--plots", metavar="DIR", default=None, help="write PNG and SVG pictures into DIR")
+    sweep.add_argument("--quiet", action="store_true", help="no progress on stderr")
 
     from ..defaults import DEFAULT_LEVELS
     nested = sub.add_parser("nested", help="decide nestedness of a model with a one-dimensional target (m = 1) "
@@ -188,284 +191,7 @@ def _build_parser() -> argparse.ArgumentParser:
     return parser
 
 
-#: ``check`` options that only choose where results go; every other option reaches the checks
-#: and therefore the cache key (so a new option is part of the key unless listed here)
-OUTPUT_ONLY_OPTIONS = {"command", "paths", "json", "junit", "quiet", "no_cache", "out", "plots"}
-
-
-def _run_options(args) -> dict:
-    """The options handed to ``run_checks``: all of ``check``'s options but the output-only ones."""
-    options = {k: v for k, v in vars(args).items() if k not in OUTPUT_ONLY_OPTIONS}
-    options["conditions"] = options.pop("only")
-    # the proof budget travels as one JSON-able mapping (part of the cache key), or None
-    seconds, cells, long = options.pop("prove_seconds"), options.pop("prove_cells"), options.pop("prove")
-    if options.pop("quick"):
-        options["prove"] = None
-    else:
-        from ..defaults import DEFAULT_PROOF_SECONDS, LONG_PROOF_SECONDS
-        seconds = seconds or (LONG_PROOF_SECONDS if long else DEFAULT_PROOF_SECONDS)
-        options["prove"] = {"seconds": seconds, "cells": cells}
-    return options
-
-
-def _checked(args, err: Console, *, full_costs: bool = False, on_report=None):
-    """Find and check ``args.paths`` (through the cache unless ``--no-cache``); ``None`` if no files."""
-    from ..run.batch import check_files
-    from ..run.cache import ResultCache
-    from ..spec.reading import find_cost_files
-
-    files = find_cost_files(args.paths)
-    if not files:
-        _error(f"no cost files (*.yaml, *.yml) under {' '.join(args.paths)}")
-        return None
-
-    @contextmanager
-    def progress(cost_id):
-        if not err.is_terminal:
-            yield None
-            return
-        with err.status(f"checking {cost_id}…", spinner="dots") as status:
-            yield lambda name: status.update(f"checking {cost_id}: {name}…")
-
-    return check_files(files, _run_options(args), cache=None if args.no_cache else ResultCache(),
-                       full_costs=full_costs, progress=progress, on_report=on_report, on_error=_error)
-
-
-def _exit_code(result) -> int:
-    if result.errors:
-        return EXIT_BAD_INPUT
-    if any(r.mismatches for r in result.reports):
-        return EXIT_EXPECTATION_FAILED
-    return EXIT_OK
-
-
-def _cmd_check(args, out: Console, err: Console) -> int:
-    from ..render import terminal
-
-    def show(report):
-        if not args.json and not (args.quiet and not report.mismatches):
-            terminal.render_report(out, report)
-        if args.plots:
-            _write_plots(report, args.plots, err)
-
-    result = _checked(args, err, full_costs=bool(args.plots), on_report=show)
-    if result is None:
-        return EXIT_BAD_INPUT
-    code = _exit_code(result)
-    if args.junit:
-        from ..render.junit import run_to_junit
-        try:
-            Path(args.junit).write_text(run_to_junit(result.reports, result.errors), encoding="utf-8")
-        except OSError as exc:
-            _error(f"{args.junit}: cannot write the JUnit file: {exc.strerror}")
-            code = EXIT_BAD_INPUT
-    if args.json:
-        from ..render import json_out
-        options = {"seed": args.seed, "budget": args.budget, "backend": args.backend, "only": args.only,
-                   "prove": _run_options(args)["prove"]}
-        print(json_out.run_to_json(result.reports, result.errors, options, code))
-    else:
-        terminal.render_summary(out, result.reports, result.errors)
-    if result.cached and err.is_terminal:  # said on the terminal only: the outputs stay identical
-        err.print(f"{result.cached} of {len(result.reports)} result(s) from the cache; --no-cache recomputes",
-                  style="dim", markup=False)
-    return code
-
-
-def _cmd_report(args, out: Console, err: Console) -> int:
-    from ..render.report import write_report
-
-    result = _checked(args, err, full_costs=True)
-    if result is None:
-        return EXIT_BAD_INPUT
-    try:
-        written = write_report(result.reports, result.errors, args.out, options=_run_options(args))
-    except OSError as exc:
-        from ..errors import UsageError
-        raise UsageError(f"cannot write the report into {args.out}: {exc.strerror or exc} (option --out)") from None
-    for path in written:
-        out.print(f"wrote {path}", markup=False)
-    return _exit_code(result)
-
-
-def _cmd_schema(args) -> int:
-    from ..spec.schema import schema_json
-
-    sys.stdout.write(schema_json())
-    return EXIT_OK
-
-
-def _cmd_new(args, out: Console) -> int:
-    from ..spec.template import write_template
-
-    path = write_template(args.name)
-    out.print(f"wrote {path}; edit it, then run: costcheck check {path}", markup=False)
-    return EXIT_OK
-
-
-def _write_plots(report, directory: str, err: Console) -> None:
-    """Every maker's pictures of one cost into ``directory/<cost id>/``, listed on stderr."""
-    from ..errors import UsageError
-    from ..render.plots import write_figures
-
-    target = Path(directory) / report.cost.id
-    try:
-        target.mkdir(parents=True, exist_ok=True)
-        figures = write_figures(report, target)
-    except OSError as exc:
-        raise UsageError(f"cannot write pictures into {target}: {exc.strerror or exc} (option --plots)") from None
-    if figures:
-        err.print(f"pictures of {report.cost.id} in {target}: " + ", ".join(f.png.stem for f in figures)
-                  + " (PNG and SVG)", markup=False, highlight=False, soft_wrap=True)
-    else:
-        err.print(f"no pictures for {report.cost.id} (they need n = m = 2 or a recorded configuration)",
-                  markup=False, highlight=False)
-
-
-class _Null:
-    def __enter__(self):
-        return None
-
-    def __exit__(self, *exc):
-        return False
-
-
-def _cmd_show(args, out: Console) -> int:
-    from ..spec.loader import load_cost
-    from ..derivatives.sympy_backend import symbolic_derivatives
-    import sympy as sp
-
-    cost = load_cost(args.file)
-    order = 4 if cost.n == cost.m else 2
-    derivs = _bounded(cost.file, "the derivatives", symbolic_derivatives, cost.expr, cost.x_symbols, cost.y_symbols, order)
-    sizes = {}
-    for name, entries in derivs.items():
-        flat = sp.flatten(entries) if isinstance(entries, list) else [entries]
-        sizes[name] = {"entries": len(flat), "operations": int(sum(sp.count_ops(e) for e in flat))}
-    domain = {"x": cost.domain.x.to_json(), "y": cost.domain.y.to_json(), **cost.domain.constraint_texts()}
-    info = {
-        "id": cost.id, "file": cost.file, "title": cost.title, "sense": cost.sense,
-        "x": list(cost.x_names), "y": list(cost.y_names),
-        "params": {k: str(v) for k, v in cost.params.items()},
-        "cost_minimised": str(cost.expr),
-        "domain": domain, "derivative_sizes": sizes,
-        "expect": dict(cost.expect), "source": cost.source,
-        "data": None if cost.data is None else {
-            role: side.describe() for role, side in (("source", cost.data.source), ("target", cost.data.target))
-            if side is not None},
-    }
-    if args.json:
-        print(json.dumps(info, indent=2, ensure_ascii=False))
-        return EXIT_OK
-    out.print(f"[bold]{cost.id}[/] — {cost.title}  [dim]({cost.file})[/]")
-    out.print(f"sense: {cost.sense}" + ("  (checked as the cost c = -s)" if cost.sense == "surplus" else ""))
-    out.print(f"x = ({', '.join(cost.x_names)}), y = ({', '.join(cost.y_names)}), n = {cost.n}, m = {cost.m}")
-    if cost.params:
-        out.print("params: " + ", ".join(f"{k} = {v}" for k, v in cost.params.items()), markup=False)
-    out.print(f"cost (minimised): {cost.expr}", markup=False, highlight=False)
-    out.print(f"domain x: {cost.domain.x.describe(cost.x_names)}", markup=False)
-    out.print(f"domain y: {cost.domain.y.describe(cost.y_names)}", markup=False)
-    for key, texts in cost.domain.constraint_texts().items():
-        for t in texts:
-            out.print(f"{key}: {t}", markup=False)
-    out.print("derivatives (entries, sympy operations):")
-    for name, s in sizes.items():
-        out.print(f"  {name:6s} {s['entries']:4d} entries, {s['operations']} operations")
-    for role, text in (info["data"] or {}).items():
-        out.print(f"data {role}: {text}", markup=False)
-    if cost.expect:
-        out.print("expected: " + ", ".join(f"{k}: {v}" for k, v in cost.expect.items()))
-    if cost.source:
-        out.print(f"source: {cost.source}", markup=False)
-    return EXIT_OK
-
-
-def _bounded(file, stage: str, fn, *args, extra: float = 0.0, **kwargs):
-    """``fn(*args, **kwargs)`` within the derivative stage's wall-time bound, or a one-line error."""
-    from ..defaults import DERIVATIVE_SECONDS
-    from ..errors import CostFileError
-    from ..numerics.bounded import within
-
-    status, value = within(DERIVATIVE_SECONDS + extra, stage, fn, *args, **kwargs)
-    if status == "timeout":
-        raise CostFileError(f"{stage} did not finish within {DERIVATIVE_SECONDS + extra:g} s (the bound on the symbolic "
-                         "work a cost file can ask for); the expression is too large for this command", file=file, field="expr")
-    return value
-
-
-def _cmd_tensor(args, out: Console) -> int:
-    from ..spec.loader import load_cost
-    from ..numerics.curvature.symbolic import mtw_tensor_symbolic
-    import sympy as sp
-
-    cost = load_cost(args.file)
-    # the simplification has its own limit (--simplify-seconds); forming the tensor is bounded here
-    components = _bounded(cost.file, "forming the MTW tensor", mtw_tensor_symbolic, cost, simplify_seconds=args.simplify_seconds,
-                          extra=args.simplify_seconds)
-    label = lambda idx: "".join(str(i + 1) for i in idx)  # noqa: E731
-    if args.json:
-        print(json.dumps({
-            "id": cost.id, "file": cost.file,
-            "convention": "T_ijkl = sum_rs c_ij,r c^r,s c_s,kl - c_ij,kl (cost minimised; symmetric in ij and in kl)",
-            "components": [{"index": label(c.index), "expr": str(c.expr), "latex": sp.latex(c.expr),
-                            "simplified": c.simplified} for c in components],
-        }, indent=2, ensure_ascii=False))
-        return EXIT_OK
-    out.print(f"MTW tensor of {cost.id}: T_ijkl = Σ c_ij,r c^r,s c_s,kl − c_ij,kl "
-              f"(symmetric in ij and in kl; indices 1..{cost.n})", markup=False)
-    for c in components:
-        body = sp.latex(c.expr) if args.latex else str(c.expr)
-        name = f"T_{{{label(c.index)}}}" if args.latex else f"T_{label(c.index)}"
-        note = "" if c.simplified else "   (not simplified within the time limit)"
-        out.print(f"{name} = {body}{note}", markup=False, highlight=False, soft_wrap=True)
-    return EXIT_OK
-
-
-def _cmd_sweep(args, out: Console, err: Console) -> int:
-    from ..spec.loader import load_cost
-    from ..sweep import report
-    from ..sweep.engine import run_sweep
-    from ..sweep.grid import SweepSpecError, parse_axes
-
-    try:
-        cost = load_cost(args.file)
-        axes = parse_axes(args.vary, dict(cost.params))
-        if not args.tolerance > 0:
-            raise SweepSpecError(f"--tolerance must be positive, got {args.tolerance}")
-    except CostcheckError as exc:
-        _error(exc)
-        return EXIT_BAD_INPUT
-    total = 1
-    for a in axes:
-        total *= len(a.values)
-    progress = None
-    if err.is_terminal and total > 4:
-        from rich.progress import Progress
-        progress = Progress(console=err, transient=True)
-    task = None
-    with progress if progress is not None else _Null():
-        if progress is not None:
-            task = progress.add_task("sweeping", total=total)
-
-        def on_progress(done, _total, _p=progress, _t=task):
-            if _p is not None:
-                _p.update(_t, completed=done)
-                if done >= _total:
-                    _p.update(_t, description="bisecting boundaries")
-        result = run_sweep(args.file, axes, budget=args.budget, seed=args.seed, conditions=args.only,
-                           workers=args.workers, scheduler=args.scheduler, tolerance=args.tolerance,
-                           bisect=not args.no_bisect, cache=not args.no_cache, on_progress=on_progress,
-                           prove=not args.quick)
-    if args.plots:
-        from ..sweep.plots import write_plots
-        files = write_plots(result, args.plots)
-        if not args.json:
-            err.print(f"wrote {len(files)} pictures into {args.plots}", markup=False)
-    if args.json:
-        print(report.to_json(result, EXIT_OK))
-    else:
-        report.render(out, result)
-    return EXIT_OK
+OUTPUT_ONLY_OPTIONS = check_command.OUTPUT_ONLY_OPTIONS  # kept here: DEVELOPERS.md names it cli.OUTPUT_ONLY_OPTIONS
 
 
 def _cmd_nested(args, out: Console) -> int:
@@ -479,17 +205,21 @@ def _cmd_nested(args, out: Console) -> int:
     return document["exit_code"]
 
 
-def _error(problem) -> None:
-    """One line on stderr (never wrapped, never a traceback)."""
-    text = " ".join(str(problem).split())
-    sys.stderr.write(f"costcheck: error: {text}\n")
-    sys.stderr.flush()
+_error = check_command.error_line
 
 
 def main(argv: Sequence[str] | None = None) -> int:
     """The command line; an exception nobody expected becomes one line and exit status 3."""
+    from ..run import numeric_warnings
+
     try:
-        return _main(argv)
+        with numeric_warnings.recorded() as caught:  # never printed raw; the checks turn theirs into notes
+            code = _main(argv)
+        said = numeric_warnings.summary(caught)
+        if said:
+            sys.stderr.write(f"costcheck: note: float64 evaluation outside the checks (pictures, reports) "
+                             f"reported {said}\n")
+        return code
     except (SystemExit, KeyboardInterrupt):
         raise
     except BrokenPipeError:
@@ -525,7 +255,7 @@ def _internal_error(exc: BaseException, argv) -> int:
 
 
 def _main(argv: Sequence[str] | None = None) -> int:
-    # tables are wider than 80 columns; outside a terminal (CI logs, pipes) use a fixed width
+    # the check view keeps to 80 columns itself; other commands' tables are wider: off a terminal a fixed width
     out = Console(highlight=False, width=None if sys.stdout.isatty() else 150)
     err = Console(stderr=True, highlight=False)
     parser = _build_parser()
@@ -535,21 +265,21 @@ def _main(argv: Sequence[str] | None = None) -> int:
         return EXIT_BAD_INPUT
     try:
         if args.command == "check":
-            return _cmd_check(args, out, err)
+            return check_command.cmd_check(args, out, err)
         if args.command == "show":
-            return _cmd_show(args, out)
+            return commands.cmd_show(args, out)
         if args.command == "tensor":
-            return _cmd_tensor(args, out)
+            return commands.cmd_tensor(args, out)
         if args.command == "sweep":
-            return _cmd_sweep(args, out, err)
+            return commands.cmd_sweep(args, out, err)
         if args.command == "nested":
             return _cmd_nested(args, out)
         if args.command == "report":
-            return _cmd_report(args, out, err)
+            return check_command.cmd_report(args, out, err)
         if args.command == "schema":
-            return _cmd_schema(args)
+            return commands.cmd_schema(args)
         if args.command == "new":
-            return _cmd_new(args, out)
+            return commands.cmd_new(args, out)
         if args.command == "explain":
             from .explain import run as explain
 

@@ -45,6 +45,7 @@ from ..numerics import precision, search
 from ..numerics.bounded import run_with_time_limit
 from ..numerics.sampling import sample_side
 from .engines.index_symbolic import find_index
+from ..model.display import with_error
 
 CONDITION = "index_form"
 #: sine of the principal angle above which the kernel is said to move
@@ -152,7 +153,7 @@ def _turning_range(cost, x, y, yp, M, Mp, largest: float, count: int, details: d
     if not (mpmath.isfinite(val) and val > err and val > 1e-12):
         return undecided(CONDITION, f"the range of D²_xy c turns by sin θ = {largest:.3g} in float64, but mpmath "
                                     "does not confirm it above its error estimate", **details)
-    text = (f"‖M' − M(MᵀM)⁻¹MᵀM'‖_F / ‖M'‖_F = {precision.fmt(val, 8)} ± {precision.fmt(err, 2)} (mpmath at 50 and 80 "
+    text = (f"‖M' − M(MᵀM)⁻¹MᵀM'‖_F / ‖M'‖_F = {with_error(val, err, 8)} (mpmath at 50 and 80 "
             "digits) with M = D²_xy c(x, y), M' = D²_xy c(x, y'): part of the range of M' lies outside the range "
             "of M, so the kernels of Mᵀ and M'ᵀ differ")
     vectors = {"y_prime": list(map(float, yp))}

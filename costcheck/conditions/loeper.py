@@ -64,6 +64,7 @@ from ..model.verdict import Evidence, Verdict, Witness, not_applicable, undecide
 from ..numerics import precision
 from .engines import loeper_search as ls
 from .engines.cconvex import fold_reason
+from ..model.display import with_error
 
 CONDITION = "loeper"
 _SALT = 0x1E8
@@ -257,10 +258,10 @@ def _confirm(ctx, p, k: int):
 
     val, err = precision.confirm_value(gap)
     if not (mpmath.isfinite(val) and val > err):
-        return False, float(p.gap[k]), None, f"high-precision gap {precision.fmt(val, 4)} ± {precision.fmt(err, 2)}"
+        return False, float(p.gap[k]), None, f"high-precision gap {with_error(val, err, 4)}"
     text = (f"y_t at t = {float(t):.6g} re-solved with mpmath (Newton at {dps} digits on -D_x c(x, y_t) = "
             f"(1 - t) p0 + t p1 from the exact binary values of x, y0, y1; residual {precision.fmt(norm, 3)}); "
-            f"f(t) - max(f(0), f(1)) = {precision.fmt(val, 8)} ± {precision.fmt(err, 2)} at {precision.DPS_LOW} and "
+            f"f(t) - max(f(0), f(1)) = {with_error(val, err, 8)} at {precision.DPS_LOW} and "
             f"{precision.DPS_HIGH} digits; scale-free violation v = {float(p.v[k]):.4g} (float64, {FINE_STEPS} steps)")
     return True, float(val), float(err), text
 

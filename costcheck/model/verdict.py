@@ -20,10 +20,7 @@ the codes), which ``costcheck explain`` prints.
 from __future__ import annotations
 
 from dataclasses import dataclass, field
-from typing import TYPE_CHECKING, Mapping, Sequence
-
-if TYPE_CHECKING:  # the cost model imports sympy; a verdict stays light (the cached path)
-    from .cost import Cost
+from typing import Mapping, Sequence
 
 EVIDENCE_KINDS = ("proved", "refuted", "sampled", "not_applicable", "undecided")
 
@@ -274,29 +271,3 @@ def not_applicable(condition: str, reason: str) -> Verdict:
 
 def undecided(condition: str, reason: str, **details) -> Verdict:
     return Verdict(condition, "undecided", Evidence("undecided", reason, details=details))
-
-@dataclass(frozen=True)
-class Mismatch:
-    condition: str
-    expected: str
-    got: str
-
-
-@dataclass
-class CostReport:
-    #: the cost checked; for a result read from the cache, a :class:`~costcheck.model.header.CostHeader`
-    #: (the file's names, expectations and labels, no expression): renderers read only those
-    cost: Cost
-    verdicts: dict[str, Verdict]
-    seconds: float
-    options: dict = field(default_factory=dict)
-
-    @property
-    def mismatches(self) -> list[Mismatch]:
-        out = []
-        for condition, expected in self.cost.expect.items():
-            verdict = self.verdicts.get(condition)
-            got = verdict.verdict if verdict else "not run"
-            if got != expected:
-                out.append(Mismatch(condition, expected, got))
-        return out

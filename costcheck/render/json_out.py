@@ -16,7 +16,7 @@ import json
 import math
 
 from .. import __version__
-from ..model.verdict import CostReport
+from ..model.report import CostReport
 from ..errors import CostFileError
 
 
@@ -32,20 +32,7 @@ def clean_json(value):
 
 
 def cost_to_json(report: CostReport) -> dict:
-    cost = report.cost
-    return {
-        "id": cost.id,
-        "file": cost.file,
-        "title": cost.title,
-        "sense": cost.sense,
-        "n": cost.n,
-        "m": cost.m,
-        "seconds": round(report.seconds, 3),
-        "checks": {name: v.to_json(cost.x_names, cost.y_names) for name, v in report.verdicts.items()},
-        "expect": dict(cost.expect),
-        "mismatches": [{"condition": mm.condition, "expected": mm.expected, "got": mm.got}
-                       for mm in report.mismatches],
-    }
+    return report.to_dict()
 
 
 def error_to_json(error: CostFileError) -> dict:

@@ -16,7 +16,7 @@ from typing import Callable, ContextManager, Mapping, Sequence
 from .cache import ResultCache, cache_key
 from ..model.header import CostHeader
 from ..conditions import REGISTRY
-from ..model.verdict import CostReport
+from ..model.report import CostReport
 from ..errors import CostFileError
 from ..spec.reading import read_cost_data
 

@@ -13,9 +13,11 @@ from typing import TYPE_CHECKING, Callable, Sequence
 
 from ..conditions import REGISTRY
 from .. import defaults
-from ..model.verdict import CostReport, Verdict, undecided
+from ..model.report import CostReport
+from ..model.verdict import Verdict, undecided
 from ..defaults import DEFAULT_BUDGET, DEFAULT_SEED
 from ..numerics.bounded import within
+from . import numeric_warnings
 
 if TYPE_CHECKING:  # the checks' machinery (sympy, SciPy) is imported when checks run, not before
     from ..model.cost import Cost
@@ -55,8 +57,9 @@ def run_checks(
     # can make arbitrarily slow: bounded, and past the bound nothing is decided
     # (the sample is drawn first, outside the bound: an interrupt inside SciPy's one-time Sobol
     # initialisation is swallowed by its compiled code and would leave it half done)
-    ctx.sample  # noqa: B018 - drawn here on purpose
-    status, _ = within(defaults.DERIVATIVE_SECONDS, "the derivatives", refuse_nothing_to_check, ctx)
+    with numeric_warnings.recorded() as shared:  # met on the shared sample: every sampled verdict reads it
+        ctx.sample  # noqa: B018 - drawn here on purpose
+        status, _ = within(defaults.DERIVATIVE_SECONDS, "the derivatives", refuse_nothing_to_check, ctx)
     verdicts: dict[str, Verdict] = {}
     # always in the registry's order, whatever order they were asked in: a later check may read an
     # earlier one's verdict (Loeper's principle at MTW's witness), so the order is part of the evidence
@@ -80,11 +83,13 @@ def run_checks(
                 verdict = strengthen(ctx, verdict, prove)
             return verdict
 
-        done, verdict = within(defaults.CONDITION_SECONDS, f"the {name} check", one_condition)
+        with numeric_warnings.recorded() as caught:
+            done, verdict = within(defaults.CONDITION_SECONDS, f"the {name} check", one_condition)
         if done == "timeout":
             verdict = undecided(name, f"stopped: the check did not finish within {defaults.CONDITION_SECONDS:g} s "
                                       "(the bound on one check of a cost); nothing was established",
                                 stopped_after=defaults.CONDITION_SECONDS)
+        verdict = numeric_warnings.with_note(verdict, [*shared, *caught])
         verdicts[name] = verdict
         ctx.verdicts[name] = verdict
     options = {"budget": budget, "seed": seed, "backend": backend}

@@ -17,7 +17,6 @@ bounds asserted here are ceilings against hangs and blow-ups, not speed targets.
 
 from __future__ import annotations
 
-import re
 
 import json
 import os
@@ -168,7 +167,7 @@ def outcomes(tmp_path_factory):
     request = [{"name": name, "argv": argv, "cwd": str(folder)} for name, (argv, _, _) in cases.items()]
     slow = folder / "slow-product.yaml"
     slow.write_text(SLOW_PRODUCT, encoding="utf-8")
-    request += [{"name": name, "argv": ["check", str(slow), "--only", "twist", "--only", "mtw"], "cwd": str(folder),
+    request += [{"name": name, "argv": ["check", str(slow), "--only", "twist", "--only", "mtw", "--verbose"], "cwd": str(folder),
                  "bounds": bounds} for name, (bounds, _) in BOUNDED.items()]
     done = subprocess.run([sys.executable, str(HERE / "harness.py")], input=json.dumps(request), env=env,
                           capture_output=True, text=True, timeout=600)
@@ -219,7 +218,7 @@ def test_a_stage_past_its_bound_gives_undecided_not_a_hang(outcomes, name):
     bounds, phrase = BOUNDED[name]
     r = results[name]
     assert r["signal"] is None and r["status"] == 0, r["stderr"][-600:]
-    # the table may wrap the sentence anywhere: read its cells' words in order, borders out
-    words = " ".join(re.sub(r"[│┃]", " ", r["stdout"]).split())
+    # the verbose view prints the evidence under its condition, wrapped anywhere: read the words in order
+    words = " ".join(r["stdout"].split())
     assert "undecided" in r["stdout"] and phrase in words, r["stdout"][-1500:]
     assert r["seconds"] < max(bounds.values()) + SECONDS_CEILING

@@ -58,6 +58,7 @@ from ...numerics.geometry.csegment import (
     solve_direct,
 )
 from ...numerics.geometry.region import Section
+from ...model.display import with_error
 
 #: a grid point further outside than LEAVE_TOL × diameter counts as leaving the section
 LEAVE_TOL = 1e-6
@@ -261,11 +262,11 @@ def confirm_exit(ctx, spec: SideSpec, section: Section, seg: Segments, fixed, e:
     point = precision.fmt_vec(u, 20)
     if not (mpmath.isfinite(val) and val > err):
         return False, float(e.depth), None, (f"the high-precision point {point} is not outside '{e.part}' beyond "
-                                              f"its error ({precision.fmt(val, 4)} ± {precision.fmt(err, 2)})")
+                                              f"its error ({with_error(val, err, 4)})")
     what = "the region's bounds" if e.part == "region" else f"the constraint '{e.part}'"
     text = (f"the c-segment point at t = {float(e.t_out):.6g} was re-solved with mpmath (Newton at {dps} digits on "
             f"-D c = (1 - t) p0 + t p1, from the exact binary values of the ends and the fixed point, residual "
-            f"{precision.fmt(norm, 3)}): {point}; it violates {what} by {precision.fmt(val, 8)} ± {precision.fmt(err, 2)} "
+            f"{precision.fmt(norm, 3)}): {point}; it violates {what} by {with_error(val, err, 8)} "
             f"(evaluated at {precision.DPS_LOW} and {precision.DPS_HIGH} digits; for a constraint g >= 0 the value is -g)")
     return True, float(val), float(err), text
 

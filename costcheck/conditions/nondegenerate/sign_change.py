@@ -18,6 +18,7 @@ from ...model.verdict import Witness
 from ...numerics import precision
 from ..engines import admissible
 from .setup import Setup
+from ...model.display import with_error
 
 
 def bisect_sign_change(st: Setup, z0, z1):
@@ -100,8 +101,8 @@ def confirm_sign_change(st: Setup, found) -> Witness | None:
         value, err = float(abs(vm) / scale_n), float(em / scale_n)
     n = st.n
     text = (f"det M changes sign between the bracket ends a and b (|b - a| = {np.linalg.norm(zb - za):.3g}): "
-            f"det M(a) = {precision.fmt(va, 6)} ± {precision.fmt(ea, 2)}, det M(b) = {precision.fmt(vb, 6)} ± "
-            f"{precision.fmt(eb, 2)} ({how}).  The bracket lies on a segment from a sampled pair to another "
+            f"det M(a) = {with_error(va, ea, 6)}, det M(b) = {with_error(vb, eb, 6)}"
+            f" ({how}).  The bracket lies on a segment from a sampled pair to another "
             f"(|z1 - z0| = {np.linalg.norm(z1 - z0):.3g}) whose 65 checked points and every bisection point "
             "are inside the domain with M finite, so det M = 0 somewhere in the bracket (intermediate value "
             "theorem); the reported point is its midpoint.  value = |det M| / S^n there.")

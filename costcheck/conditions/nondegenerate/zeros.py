@@ -19,6 +19,7 @@ from ...model.verdict import Witness
 from ...numerics import exact, precision
 from ..engines import admissible
 from .setup import Setup
+from ...model.display import with_error
 
 
 def _exact_zero(st: Setup, values) -> tuple | None:
@@ -94,7 +95,7 @@ def confirm_zero(st: Setup, z) -> tuple[Witness | None, str]:
     if not (abs(val) <= err and err <= scale * mpmath.mpf(10) ** -30):
         return None, ("nonzero" if settled and abs(val) > err else "unresolved")
     what = "det M" if st.n == st.m else ("det(MᵀM)" if st.n > st.m else "det(MMᵀ)")
-    text = (f"{what} = {precision.fmt(val, 3)} ± {precision.fmt(err, 3)} (mpmath at 50 and 80 digits) at the point "
+    text = (f"{what} = {with_error(val, err, 3)} (mpmath at 50 and 80 digits) at the point "
             f"x = {precision.fmt_vec(u[:n], 30)}, y = {precision.fmt_vec(u[n:], 30)} (given here to 30 digits; the "
             f"float coordinates above are its rounding), while the scale S^{power} = {float(scale):.3g}: zero to "
             f"the working precision.  The point was reached from the float search by Newton's method for a "

@@ -15,6 +15,7 @@ from ...model.verdict import Evidence, Verdict, Witness
 from ...numerics import exact, precision
 from ..engines import admissible
 from .setup import CONDITION, MIN_SEPARATION, VALUE_MEANING_FAIL, Setup
+from ...model.display import with_error
 
 
 def exact_collision(st: Setup, x, y, yp, extra: str = "") -> Witness | None:
@@ -121,11 +122,11 @@ def confirm_collision(st: Setup, x, y, yp, scale: float, extra: str = "", bracke
         va, ea = precision.confirm_value(h_at(lo))
         vb, eb = precision.confirm_value(h_at(hi))
         if abs(va) > ea and abs(vb) > eb and mpmath.sign(va) != mpmath.sign(vb):
-            ivt = (f"  Independently of the refinement, c_x(x, t) - c_x(x, y) = {precision.fmt(va, 6)} ± "
-                   f"{precision.fmt(ea, 2)} at t = {float(lo):.17g} and {precision.fmt(vb, 6)} ± {precision.fmt(eb, 2)} at "
+            ivt = (f"  Independently of the refinement, c_x(x, t) - c_x(x, y) = {with_error(va, ea, 6)}"
+                   f" at t = {float(lo):.17g} and {with_error(vb, eb, 6)} at "
                    f"t = {float(hi):.17g} (mpmath, 50/80 digits), so a collision partner of y lies between them "
                    "(intermediate value theorem).")
-    text = (f"|D_x c(x, y) - D_x c(x, y')| = {precision.fmt(val, 3)} ± {precision.fmt(err, 3)} (mpmath at 50 and 80 digits) "
+    text = (f"|D_x c(x, y) - D_x c(x, y')| = {with_error(val, err, 3)} (mpmath at 50 and 80 digits) "
             f"while |D_x c(x, y)| ≈ {float(size):.3g} and |y - y'| = {np.linalg.norm(ypf - y):.3g}: a collision to "
             f"the working precision.  Exact point: x = {precision.fmt_vec(u[:n], 30)}, y = {precision.fmt_vec(y, 17)} "
             f"(the float itself), y' = {precision.fmt_vec(u[n:], 30)}; (x, y') were refined by Newton's method at "

@@ -1,0 +1,153 @@
+"""``costcheck check`` and ``costcheck report``: find the files, check them with progress, print."""
+
+from __future__ import annotations
+
+import sys
+from pathlib import Path
+
+from rich.console import Console
+
+from ..errors import EXIT_BAD_INPUT, EXIT_EXPECTATION_FAILED, EXIT_OK
+from .progress import Progress
+
+#: ``check`` options that only choose where results go; every other option reaches the checks
+#: and therefore the cache key (so a new option is part of the key unless listed here)
+OUTPUT_ONLY_OPTIONS = {"command", "paths", "json", "junit", "quiet", "no_cache", "out", "plots", "verbose",
+                       "failures"}
+
+
+def error_line(problem) -> None:
+    """One line on stderr (never wrapped, never a traceback)."""
+    text = " ".join(str(problem).split())
+    sys.stderr.write(f"costcheck: error: {text}\n")
+    sys.stderr.flush()
+
+
+def add_view_options(command) -> None:
+    """How ``check`` prints: the compact grid, with details, or only what fails."""
+    command.add_argument("--verbose", "-v", action="store_true",
+                         help="under each condition: the evidence in words, the full witness and the notes; "
+                              "also list the conditions that do not apply")
+    command.add_argument("--failures", action="store_true",
+                         help="show only conditions that fail, are undecided or miss their expectation")
+
+
+def run_options(args) -> dict:
+    """The options handed to ``run_checks``: all of ``check``'s options but the output-only ones."""
+    options = {k: v for k, v in vars(args).items() if k not in OUTPUT_ONLY_OPTIONS}
+    options["conditions"] = options.pop("only")
+    # the proof budget travels as one JSON-able mapping (part of the cache key), or None
+    seconds, cells, long = options.pop("prove_seconds"), options.pop("prove_cells"), options.pop("prove")
+    if options.pop("quick"):
+        options["prove"] = None
+    else:
+        from ..defaults import DEFAULT_PROOF_SECONDS, LONG_PROOF_SECONDS
+        seconds = seconds or (LONG_PROOF_SECONDS if long else DEFAULT_PROOF_SECONDS)
+        options["prove"] = {"seconds": seconds, "cells": cells}
+    return options
+
+
+def checked(args, err: Console, *, full_costs: bool = False, on_report=None):
+    """Find and check ``args.paths`` (through the cache unless ``--no-cache``); ``None`` if no files."""
+    from ..run.batch import check_files
+    from ..run.cache import ResultCache
+    from ..spec.reading import find_cost_files
+
+    files = find_cost_files(args.paths)
+    if not files:
+        error_line(f"no cost files (*.yaml, *.yml) under {' '.join(args.paths)}")
+        return None
+    with Progress(err, len(files), quiet=getattr(args, "quiet", False)) as progress:
+        def reported(report):
+            progress.finished(report.cost.id, report.seconds)
+            if on_report:
+                on_report(report)
+
+        def refused(problem):
+            progress.finished(problem.file or "a file")
+            error_line(problem)
+
+        return check_files(files, run_options(args), cache=None if args.no_cache else ResultCache(),
+                           full_costs=full_costs, progress=progress.item, on_report=reported, on_error=refused)
+
+
+def exit_code(result) -> int:
+    if result.errors:
+        return EXIT_BAD_INPUT
+    if any(r.mismatches for r in result.reports):
+        return EXIT_EXPECTATION_FAILED
+    return EXIT_OK
+
+
+def view_width(out: Console) -> int:
+    return out.width if out.is_terminal else 80
+
+
+def cmd_check(args, out: Console, err: Console) -> int:
+    from ..render.terminal import TerminalView
+
+    view = TerminalView(out, verbose=args.verbose, failures=args.failures, width=view_width(out))
+
+    def show(report):
+        if not args.json and not (args.quiet and not report.mismatches):
+            view.report(report)
+        if args.plots:
+            write_plots(report, args.plots, err)
+
+    result = checked(args, err, full_costs=bool(args.plots), on_report=show)
+    if result is None:
+        return EXIT_BAD_INPUT
+    code = exit_code(result)
+    if args.junit:
+        from ..render.junit import run_to_junit
+        try:
+            Path(args.junit).write_text(run_to_junit(result.reports, result.errors), encoding="utf-8")
+        except OSError as exc:
+            error_line(f"{args.junit}: cannot write the JUnit file: {exc.strerror}")
+            code = EXIT_BAD_INPUT
+    if args.json:
+        from ..render import json_out
+        options = {"seed": args.seed, "budget": args.budget, "backend": args.backend, "only": args.only,
+                   "prove": run_options(args)["prove"]}
+        print(json_out.run_to_json(result.reports, result.errors, options, code))
+    else:
+        view.summary(result.reports, result.errors)
+    if result.cached and err.is_terminal:  # said on the terminal only: the outputs stay identical
+        err.print(f"{result.cached} of {len(result.reports)} result(s) from the cache; --no-cache recomputes",
+                  style="dim", markup=False)
+    return code
+
+
+def cmd_report(args, out: Console, err: Console) -> int:
+    from ..render.report import write_report
+
+    result = checked(args, err, full_costs=True)
+    if result is None:
+        return EXIT_BAD_INPUT
+    try:
+        written = write_report(result.reports, result.errors, args.out, options=run_options(args))
+    except OSError as exc:
+        from ..errors import UsageError
+        raise UsageError(f"cannot write the report into {args.out}: {exc.strerror or exc} (option --out)") from None
+    for path in written:
+        out.print(f"wrote {path}", markup=False)
+    return exit_code(result)
+
+
+def write_plots(report, directory: str, err: Console) -> None:
+    """Every maker's pictures of one cost into ``directory/<cost id>/``, listed on stderr."""
+    from ..errors import UsageError
+    from ..render.plots import write_figures
+
+    target = Path(directory) / report.cost.id
+    try:
+        target.mkdir(parents=True, exist_ok=True)
+        figures = write_figures(report, target)
+    except OSError as exc:
+        raise UsageError(f"cannot write pictures into {target}: {exc.strerror or exc} (option --plots)") from None
+    if figures:
+        err.print(f"pictures of {report.cost.id} in {target}: " + ", ".join(f.png.stem for f in figures)
+                  + " (PNG and SVG)", markup=False, highlight=False, soft_wrap=True)
+    else:
+        err.print(f"no pictures for {report.cost.id} (they need n = m = 2 or a recorded configuration)",
+                  markup=False, highlight=False)

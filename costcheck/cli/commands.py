@@ -1,0 +1,157 @@
+"""The smaller commands: ``schema``, ``new``, ``show``, ``tensor`` and ``sweep``."""
+
+from __future__ import annotations
+
+import json
+import sys
+
+from rich.console import Console
+
+from ..errors import EXIT_BAD_INPUT, EXIT_OK, CostcheckError
+from .check import error_line
+from .progress import Progress
+
+
+def cmd_schema(args) -> int:
+    from ..spec.schema import schema_json
+
+    sys.stdout.write(schema_json())
+    return EXIT_OK
+
+
+def cmd_new(args, out: Console) -> int:
+    from ..spec.template import write_template
+
+    path = write_template(args.name)
+    out.print(f"wrote {path}; edit it, then run: costcheck check {path}", markup=False)
+    return EXIT_OK
+
+
+def cmd_show(args, out: Console) -> int:
+    from ..spec.loader import load_cost
+    from ..derivatives.sympy_backend import symbolic_derivatives
+    import sympy as sp
+
+    cost = load_cost(args.file)
+    order = 4 if cost.n == cost.m else 2
+    derivs = bounded(cost.file, "the derivatives", symbolic_derivatives, cost.expr, cost.x_symbols, cost.y_symbols, order)
+    sizes = {}
+    for name, entries in derivs.items():
+        flat = sp.flatten(entries) if isinstance(entries, list) else [entries]
+        sizes[name] = {"entries": len(flat), "operations": int(sum(sp.count_ops(e) for e in flat))}
+    domain = {"x": cost.domain.x.to_json(), "y": cost.domain.y.to_json(), **cost.domain.constraint_texts()}
+    info = {
+        "id": cost.id, "file": cost.file, "title": cost.title, "sense": cost.sense,
+        "x": list(cost.x_names), "y": list(cost.y_names),
+        "params": {k: str(v) for k, v in cost.params.items()},
+        "cost_minimised": str(cost.expr),
+        "domain": domain, "derivative_sizes": sizes,
+        "expect": dict(cost.expect), "source": cost.source,
+        "data": None if cost.data is None else {
+            role: side.describe() for role, side in (("source", cost.data.source), ("target", cost.data.target))
+            if side is not None},
+    }
+    if args.json:
+        print(json.dumps(info, indent=2, ensure_ascii=False))
+        return EXIT_OK
+    out.print(f"[bold]{cost.id}[/] — {cost.title}  [dim]({cost.file})[/]")
+    out.print(f"sense: {cost.sense}" + ("  (checked as the cost c = -s)" if cost.sense == "surplus" else ""))
+    out.print(f"x = ({', '.join(cost.x_names)}), y = ({', '.join(cost.y_names)}), n = {cost.n}, m = {cost.m}")
+    if cost.params:
+        out.print("params: " + ", ".join(f"{k} = {v}" for k, v in cost.params.items()), markup=False)
+    out.print(f"cost (minimised): {cost.expr}", markup=False, highlight=False)
+    out.print(f"domain x: {cost.domain.x.describe(cost.x_names)}", markup=False)
+    out.print(f"domain y: {cost.domain.y.describe(cost.y_names)}", markup=False)
+    for key, texts in cost.domain.constraint_texts().items():
+        for t in texts:
+            out.print(f"{key}: {t}", markup=False)
+    out.print("derivatives (entries, sympy operations):")
+    for name, s in sizes.items():
+        out.print(f"  {name:6s} {s['entries']:4d} entries, {s['operations']} operations")
+    for role, text in (info["data"] or {}).items():
+        out.print(f"data {role}: {text}", markup=False)
+    if cost.expect:
+        out.print("expected: " + ", ".join(f"{k}: {v}" for k, v in cost.expect.items()))
+    if cost.source:
+        out.print(f"source: {cost.source}", markup=False)
+    return EXIT_OK
+
+
+def bounded(file, stage: str, fn, *args, extra: float = 0.0, **kwargs):
+    """``fn(*args, **kwargs)`` within the derivative stage's wall-time bound, or a one-line error."""
+    from ..defaults import DERIVATIVE_SECONDS
+    from ..errors import CostFileError
+    from ..numerics.bounded import within
+
+    status, value = within(DERIVATIVE_SECONDS + extra, stage, fn, *args, **kwargs)
+    if status == "timeout":
+        raise CostFileError(f"{stage} did not finish within {DERIVATIVE_SECONDS + extra:g} s (the bound on the symbolic "
+                         "work a cost file can ask for); the expression is too large for this command", file=file, field="expr")
+    return value
+
+
+def cmd_tensor(args, out: Console) -> int:
+    from ..spec.loader import load_cost
+    from ..numerics.curvature.symbolic import mtw_tensor_symbolic
+    import sympy as sp
+
+    cost = load_cost(args.file)
+    # the simplification has its own limit (--simplify-seconds); forming the tensor is bounded here
+    components = bounded(cost.file, "forming the MTW tensor", mtw_tensor_symbolic, cost, simplify_seconds=args.simplify_seconds,
+                          extra=args.simplify_seconds)
+    label = lambda idx: "".join(str(i + 1) for i in idx)  # noqa: E731
+    if args.json:
+        print(json.dumps({
+            "id": cost.id, "file": cost.file,
+            "convention": "T_ijkl = sum_rs c_ij,r c^r,s c_s,kl - c_ij,kl (cost minimised; symmetric in ij and in kl)",
+            "components": [{"index": label(c.index), "expr": str(c.expr), "latex": sp.latex(c.expr),
+                            "simplified": c.simplified} for c in components],
+        }, indent=2, ensure_ascii=False))
+        return EXIT_OK
+    out.print(f"MTW tensor of {cost.id}: T_ijkl = Σ c_ij,r c^r,s c_s,kl − c_ij,kl "
+              f"(symmetric in ij and in kl; indices 1..{cost.n})", markup=False)
+    for c in components:
+        body = sp.latex(c.expr) if args.latex else str(c.expr)
+        name = f"T_{{{label(c.index)}}}" if args.latex else f"T_{label(c.index)}"
+        note = "" if c.simplified else "   (not simplified within the time limit)"
+        out.print(f"{name} = {body}{note}", markup=False, highlight=False, soft_wrap=True)
+    return EXIT_OK
+
+
+def cmd_sweep(args, out: Console, err: Console) -> int:
+    from ..spec.loader import load_cost
+    from ..sweep import report
+    from ..sweep.engine import run_sweep
+    from ..sweep.grid import SweepSpecError, parse_axes
+
+    try:
+        cost = load_cost(args.file)
+        axes = parse_axes(args.vary, dict(cost.params))
+        if not args.tolerance > 0:
+            raise SweepSpecError(f"--tolerance must be positive, got {args.tolerance}")
+    except CostcheckError as exc:
+        error_line(exc)
+        return EXIT_BAD_INPUT
+    total = 1
+    for a in axes:
+        total *= len(a.values)
+    with Progress(err, total, quiet=args.quiet, what="sweeping") as progress:
+        progress.running(f"{total} parameter values")
+        def on_progress(done, _total):
+            progress.advance_to(done)
+            if done >= _total and not args.no_bisect:
+                progress.running("bisecting verdict boundaries")
+        result = run_sweep(args.file, axes, budget=args.budget, seed=args.seed, conditions=args.only,
+                           workers=args.workers, scheduler=args.scheduler, tolerance=args.tolerance,
+                           bisect=not args.no_bisect, cache=not args.no_cache, on_progress=on_progress,
+                           prove=not args.quick)
+    if args.plots:
+        from ..sweep.plots import write_plots
+        files = write_plots(result, args.plots)
+        if not args.json:
+            err.print(f"wrote {len(files)} pictures into {args.plots}", markup=False)
+    if args.json:
+        print(report.to_json(result, EXIT_OK))
+    else:
+        report.render(out, result)
+    return EXIT_OK
