@@ -41,6 +41,7 @@ from . import balls, quantities, radial
 from .branch_bound import Budget, Outcome, branch_and_bound
 from .dual import Dual, tighten
 from .enclosures import TENSOR_FIELDS
+from .charts import chart_space
 from .space import radial_frame, radial_space, space_for
 
 
@@ -101,7 +102,12 @@ def nondegenerate(cost, budget: Budget):
     def coefficients(f):
         return [quantities.rank_determinant(f["dxy"])]
 
-    return _run(cost, ("dxy",), coefficients, _nonzero, budget), ""
+    return _run(cost, ("dxy",), coefficients, _nonzero, budget, space=_chart_first(cost, ("dxy",))), ""
+
+
+def _chart_first(cost, fields):
+    """The normal forms of a recognised chart (:mod:`.charts`) when there is one, else the usual space."""
+    return chart_space(cost, fields) or space_for(cost, fields)
 
 
 def _slices_convex(cost) -> bool:
@@ -182,7 +188,8 @@ def mtw_strong(cost, budget: Budget):
         T, inv = _tensor_on(f)
         return None if T is None else quantities.orthogonal_quartic(T, inv)
 
-    return _run(cost, TENSOR_FIELDS, coefficients, quantities.circle_lower_bound, budget), ""
+    return _run(cost, TENSOR_FIELDS, coefficients, quantities.circle_lower_bound, budget,
+                space=_chart_first(cost, TENSOR_FIELDS)), ""
 
 
 def nncc_positive(cost, budget: Budget):
@@ -203,4 +210,4 @@ def nncc_positive(cost, budget: Budget):
         second = quantities.circle_lower_bound(values[3:])
         return None if second is None else min(first, second)
 
-    return _run(cost, TENSOR_FIELDS, coefficients, decide, budget), ""
+    return _run(cost, TENSOR_FIELDS, coefficients, decide, budget, space=_chart_first(cost, TENSOR_FIELDS)), ""
