@@ -149,15 +149,23 @@ class _NormalLocator:
 
 
 def _far_end(sigma_at, chart: Chart, L: float, U: float) -> float | None:
-    """An ``S`` with ``σ(normal form at S)`` surely beyond the far end of ``[L, U]`` (None if not found)."""
-    s = chart.start + 1.0
-    for _ in range(60):
+    """An ``S`` with ``σ(normal form at S)`` surely beyond the far end of ``[L, U]`` (None if not found):
+    doubling finds one, bisection then brings it close to the first such ``s`` (a shorter cover)."""
+    def beyond(s):
         value = sigma_at([balls.arb(s)])[0]
-        if value.is_finite() and ((chart.decreasing and value.upper() < L) or
-                                  (not chart.decreasing and value.lower() > U)):
-            return s
-        s = chart.start + 2 * (s - chart.start)
-    return None
+        return value.is_finite() and ((chart.decreasing and value.upper() < L) or
+                                      (not chart.decreasing and value.lower() > U))
+    near, far = chart.start, chart.start + 1.0
+    for _ in range(60):
+        if beyond(far):
+            break
+        near, far = far, chart.start + 2 * (far - chart.start)
+    else:
+        return None
+    for _ in range(30):
+        middle = 0.5 * (near + far)
+        near, far = (near, middle) if beyond(middle) else (middle, far)
+    return far
 
 
 def chart_space(cost, fields: Sequence[str]) -> ProofSpace | None:
@@ -199,6 +207,8 @@ def chart_space(cost, fields: Sequence[str]) -> ProofSpace | None:
                        f"{chart.statement}; σ ∈ [{L:.6g}, {U:.6g}] on the domain, enclosed over {grid_cells} "
                        "cells; the determinant's non-vanishing and the cross-curvature's sign are kept by "
                        "that change of chart, its size is not: the lower bound is the normal forms')")
-        return ProofSpace(description, ["s"], np.array([chart.start]), np.array([far]), enclosures,
-                          _NormalLocator(tests).classify)
+        space = ProofSpace(description, ["s"], np.array([chart.start]), np.array([far]), enclosures,
+                           _NormalLocator(tests).classify)
+        space.normal_form = (s, to_normal)  # for .chart_mtw: the rewrite of x, y into the normal forms
+        return space
     return None
