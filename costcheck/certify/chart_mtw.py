@@ -23,8 +23,12 @@ from .arb_eval import compile_exprs
 from .branch_bound import Budget, Outcome, branch_and_bound
 from .space import ProofSpace, RadialFrame
 
-#: wall seconds sympy may spend building and simplifying the quartic's coefficients
-SYMBOLIC_SECONDS = 12.0
+#: the route is taken only when the derivative fields at the normal forms are a program of at most this
+#: many operations (the sphere's reflector cost: 146; its squared distance, 271, whose quartic sympy does
+#: not simplify enough): a size test, not a clock, so the verdict does not depend on the machine's load
+MAX_OPERATIONS = 200
+#: a safety bound on sympy's wall seconds for building and simplifying the quartic (about 9 s here)
+SYMBOLIC_SECONDS = 120.0
 
 
 def _simplified(cost, frame: RadialFrame):
@@ -33,8 +37,10 @@ def _simplified(cost, frame: RadialFrame):
 
 
 def chart_strong(cost, space: ProofSpace, budget: Budget) -> Outcome | None:
-    """Branch and bound over ``s``; None when the symbolic quartic is not ready within its time bound."""
+    """Branch and bound over ``s``; None when the fields are too large for the route or sympy fails."""
     s, to_normal = space.normal_form
+    if space.enclosures.function.operations > MAX_OPERATIONS:
+        return None
     frame = RadialFrame(s, to_normal, space.lo, space.hi, space.classify, space.description)
     status, coefficients = within(SYMBOLIC_SECONDS, "the chart's quartic", _simplified, cost, frame)
     if status != "ok" or coefficients is None or any(e.free_symbols - {s} for e in coefficients):
