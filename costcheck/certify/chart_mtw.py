@@ -1,0 +1,66 @@
+"""Strong MTW over a chart's normal forms (:mod:`.charts`), with the quartic built once in sympy.
+
+At the normal-form pair of parameter ``s`` the quartic ``S(cos θ, sin θ)`` of
+:func:`.quantities.orthogonal_quartic` is built symbolically (:func:`.radial.circle_coefficients`:
+the derivatives rewritten into ``s``, the mixed Hessian inverted by its adjugate) and simplified
+by sympy within a time bound; on the sphere's charts the five coefficients become a few
+operations each, which removes the dependency problem of enclosing the tensor entry by entry.
+
+A simplified expression equals the original wherever the original is defined; so a cell is
+proved only when, besides the coefficients' enclosures giving a positive minimum on the circle
+(:func:`.quantities.circle_lower_bound`), every derivative field of the cost at the normal forms
+of the cell has a finite enclosure and ``det D²_xy c`` excludes 0 there: the original quartic is
+then defined on the cell and equal to the simplified one.
+"""
+
+from __future__ import annotations
+
+import sympy as sp
+
+from ..numerics.bounded import within
+from . import balls, quantities, radial
+from .arb_eval import compile_exprs
+from .branch_bound import Budget, Outcome, branch_and_bound
+from .space import ProofSpace, RadialFrame
+
+#: the route is taken only when the derivative fields at the normal forms are a program of at most this
+#: many operations (the sphere's reflector cost: 146; its squared distance, 271, whose quartic sympy does
+#: not simplify enough): a size test, not a clock, so the verdict does not depend on the machine's load
+MAX_OPERATIONS = 200
+#: a safety bound on sympy's wall seconds for building and simplifying the quartic (about 9 s here)
+SYMBOLIC_SECONDS = 120.0
+
+
+def _simplified(cost, frame: RadialFrame):
+    coefficients = radial.circle_coefficients(cost, frame)
+    return None if coefficients is None else [sp.simplify(c) for c in coefficients]
+
+
+def chart_strong(cost, space: ProofSpace, budget: Budget) -> Outcome | None:
+    """Branch and bound over ``s``; None when the fields are too large for the route or sympy fails."""
+    s, to_normal = space.normal_form
+    if space.enclosures.function.operations > MAX_OPERATIONS:
+        return None
+    frame = RadialFrame(s, to_normal, space.lo, space.hi, space.classify, space.description)
+    status, coefficients = within(SYMBOLIC_SECONDS, "the chart's quartic", _simplified, cost, frame)
+    if status != "ok" or coefficients is None or any(e.free_symbols - {s} for e in coefficients):
+        return None
+    function = compile_exprs(tuple(coefficients), (s,))
+    fields = space.enclosures
+
+    def decide(a, b):
+        at_cell = fields.at_balls([balls.from_bounds(a[0], b[0])])  # None unless every field is enclosed
+        if at_cell is None or not balls.excludes_zero(quantities.det(at_cell["dxy"])):
+            return None
+        duals, _, _ = function.duals_over_box(a, b)
+        values = [d.value for d in duals]
+        if not all(v.is_finite() for v in values):
+            return None
+        return quantities.circle_lower_bound(values)
+
+    outcome = branch_and_bound(space.lo, space.hi, space.classify, decide, budget)
+    outcome.space, outcome.names = space.description, space.names
+    outcome.what = ("S(ξ, η) on orthogonal unit pairs (at the normal forms, its quartic built and simplified once in "
+                    "sympy, with every derivative field enclosed and det D²_xy c away from 0 on each cell) is "
+                    "enclosed above a positive κ on every cell of a cover of the normal forms")
+    return outcome
