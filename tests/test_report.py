@@ -100,3 +100,12 @@ def test_page_renders_in_headless_chromium(report_dir, tmp_path):
     assert math_height > 10, "the formula did not render as MathML"
     assert title == "costcheck report"
     assert all(u.startswith(("file:", "data:")) for u in requests), requests
+
+
+def test_header_says_when_proofs_were_not_asked_for():
+    # issue 21: the header said "prove = all" for a samples-only run
+    from costcheck.render.report.model import ReportModel
+    quick = ReportModel([], [], [], {"prove": None, "conditions": None}, "0", "now")
+    assert quick.options_line == "proofs not asked for (samples only), conditions = all"
+    asked = ReportModel([], [], [], {"prove": {"seconds": 5, "cells": None}}, "0", "now")
+    assert "not asked" not in asked.options_line and "proofs:" in asked.options_line

@@ -120,7 +120,7 @@ def _section(s: CostSection, root: Path) -> str:
 
 def render_html(model: ReportModel, root: Path) -> str:
     """The page; ``root`` is the report folder the figure paths are relative to."""
-    options = ", ".join(f"{k} = {'all' if v is None else v}" for k, v in model.options.items())
+    options = model.options_line
     caution = f'<div class="caution"><b>Caution.</b> {escape(CAUTION)}</div>' if model.any_sampled else ""
     problems = ""
     if model.mismatches or model.errors:

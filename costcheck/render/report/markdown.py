@@ -112,7 +112,7 @@ def _section(s: CostSection) -> list[str]:
 
 
 def render_markdown(model: ReportModel) -> str:
-    options = ", ".join(f"{k} = {'all' if v is None else v}" for k, v in model.options.items())
+    options = model.options_line
     out = ["# Transport-cost design review", "", f"costcheck {model.version} · {model.created} · {options}", "",
            f"{len(model.sections)} cost(s). Each cell gives the verdict, then how it was established "
            "(proved, refuted by a witness, sampled) and its stable code.", ""]

@@ -165,6 +165,12 @@ def cost_section(report, figures: list[FigureRef]) -> CostSection:
     )
 
 
+def _option_words(key: str, value) -> str:
+    if key == "prove":
+        return "proofs not asked for (samples only)" if value is None else f"proofs: {value}"
+    return f"{key} = {'all' if value is None else value}"
+
+
 @dataclass
 class ReportModel:
     sections: list[CostSection]
@@ -173,6 +179,11 @@ class ReportModel:
     options: dict
     version: str
     created: str
+
+    @property
+    def options_line(self) -> str:
+        """The run's options in words: ``prove = None`` means proofs were not asked for."""
+        return ", ".join(_option_words(k, v) for k, v in self.options.items())
 
     @property
     def any_sampled(self) -> bool:
