@@ -230,3 +230,17 @@ def test_a_family_shares_its_derivatives_and_gives_the_same_numbers():
         hp_shared = high_precision(cost, 4)([0.1, 0.2], [0.7, -0.3], 40)["dxxyy"][0][1][0][1]
         hp_direct = _cached(cost.expr, cost.x_symbols, cost.y_symbols, 4)([0.1, 0.2], [0.7, -0.3], 40)["dxxyy"][0][1][0][1]
         assert abs(hp_shared - hp_direct) <= 1e-30 * max(1, abs(hp_direct))
+
+
+def test_a_sweep_where_no_value_can_be_checked_is_bad_input(tmp_path, capsys):
+    # the file loads at its own p = 2, but at p = 1 and p = 3 the cost divides by zero: nothing was
+    # checked, so the run is broken input (exit 2 and one line), never a result with exit 0
+    path = tmp_path / "poles.yaml"
+    path.write_text("id: poles\ntitle: poles at p = 1 and p = 3\nx: [x1]\ny: [y1]\nparams: {p: 2}\n"
+                    "expr: (x1 - y1)**2 / ((p - 1)*(p - 3))\n"
+                    "domain:\n  x: {box: [[0, 1]]}\n  y: {box: [[0, 1]]}\n", encoding="utf-8")
+    code = main(["sweep", str(path), "--vary", "p=1,3", "--quick", "--workers", "1", "--no-cache", "--json"])
+    captured = capsys.readouterr()
+    assert code == 2 and json.loads(captured.out)["summary"]["exit_code"] == 2
+    lines = captured.err.strip().splitlines()
+    assert len(lines) == 1 and "no parameter value could be checked" in lines[0] and "p = 1" in lines[0]

@@ -150,8 +150,22 @@ def cmd_sweep(args, out: Console, err: Console) -> int:
         files = write_plots(result, args.plots)
         if not args.json:
             err.print(f"wrote {len(files)} pictures into {args.plots}", markup=False)
+    # a sweep where no value could be checked at all is broken input (exit 2), not a result
+    status = EXIT_BAD_INPUT if every_value_failed(result) else EXIT_OK
     if args.json:
-        print(report.to_json(result, EXIT_OK))
+        print(report.to_json(result, status))
     else:
         report.render(out, result)
-    return EXIT_OK
+    if status == EXIT_BAD_INPUT:
+        first = next(iter(result.results[0].values()))["summary"]
+        error_line(f"{args.file}: no parameter value could be checked ({len(result.points)} tried); "
+                   f"at {', '.join(f'{k} = {v:g}' for k, v in result.points[0].items())}: {first}")
+    return status
+
+
+def every_value_failed(result) -> bool:
+    """True when every condition at every sweep point is an ``error`` (the cost could not be built)."""
+    from ..sweep.point import ERROR
+
+    return bool(result.results) and all(entry["verdict"] == ERROR for point in result.results
+                                        for entry in point.values())
