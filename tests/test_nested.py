@@ -313,3 +313,21 @@ def test_points_outside_the_domain_are_refused_with_their_row(tmp_path):
     source = points(tmp_path, "source", ["x1", "x2"], [[0.1, 0.2], [0.3, 1.5]])
     with pytest.raises(CostFileError, match=r"row 3: the point \(x1=0.3, x2=1.5\) lies outside"):
         analyse(cost, source, density("target", "1", [y]))
+
+
+@pytest.mark.parametrize("text, field", [
+    # m = 1 but no data: nestedness depends on the two distributions (Chiappori–McCann–Pass 2017)
+    ("id: nodata\ntitle: no data\nx: [a, b]\ny: [r]\nexpr: r*a + r**2*b\n"
+     "domain:\n  x: {box: [[0, 1], [0, 1]]}\n  y: {box: [[0, 1]]}\n", "data"),
+    # m = 2: nestedness is defined for a one-dimensional target only
+    ("id: two\ntitle: m = 2\nx: [a, b]\ny: [r, s]\nexpr: r*a + s*b\n"
+     "domain:\n  x: {box: [[0, 1], [0, 1]]}\n  y: {box: [[0, 1], [0, 1]]}\n", "y"),
+])
+def test_nested_command_on_a_file_it_cannot_run_on_is_bad_input(tmp_path, capsys, text, field):
+    from costcheck.cli import main
+
+    path = tmp_path / "c.yaml"
+    path.write_text(text, encoding="utf-8")
+    assert main(["nested", str(path)]) == 2
+    err = capsys.readouterr().err.strip().splitlines()
+    assert len(err) == 1 and f"field '{field}'" in err[0] and "nested command cannot run" in err[0]

@@ -5,9 +5,9 @@ from __future__ import annotations
 from pathlib import Path
 
 from .. import __version__
-from ..conditions.nested.analysis import analyse, map_at
+from ..conditions.nested.analysis import analyse, applicable, map_at, sides_of
 from ..conditions.nested.map import write_json, write_levels_csv, write_map_csv
-from ..errors import EXIT_EXPECTATION_FAILED, EXIT_OK
+from ..errors import EXIT_EXPECTATION_FAILED, EXIT_OK, CostFileError
 from ..render.json_out import clean_json
 from ..spec.data import points_side, read_points
 
@@ -25,6 +25,12 @@ def run(args) -> tuple[dict, object, list[str]]:
     cost = load_cost(args.file)
     source = _side_from_option("source", args.source, "--source", cost.x_names)
     target = _side_from_option("target", args.target, "--target", cost.y_names)
+    # the command asks for this one analysis: a file it cannot be run on is a usage mistake (exit 2,
+    # saying what is missing), not a "not applicable" result with exit 0
+    reason = applicable(cost, *sides_of(cost, source, target))
+    if reason:
+        raise CostFileError(f"the nested command cannot run: {reason}", file=cost.file,
+                            field="y" if cost.m != 1 else "data")
     result = analyse(cost, source, target, levels=args.levels)
     verdict = result.verdict
     check = verdict.to_json(cost.x_names, cost.y_names)
