@@ -104,7 +104,7 @@ def test_a_condition_past_its_bound_is_undecided_and_says_so(tmp_path, monkeypat
 
 
 def test_an_internal_error_is_one_line_with_exit_status_3_and_a_traceback_file(tmp_path, monkeypatch, capsys):
-    import costcheck.cli as cli
+    import costcheck.cli.commands as commands
 
     monkeypatch.setenv("TMPDIR", str(tmp_path))
     monkeypatch.setattr("tempfile.tempdir", None)
@@ -112,7 +112,7 @@ def test_an_internal_error_is_one_line_with_exit_status_3_and_a_traceback_file(t
     def broken(*args, **kwargs):
         raise ZeroDivisionError("a planted bug")
 
-    monkeypatch.setattr(cli, "_cmd_schema", broken)
+    monkeypatch.setattr(commands, "cmd_schema", broken)
     code = main(["schema"])
     err = capsys.readouterr().err
     assert code == EXIT_INTERNAL_ERROR == 3
@@ -121,7 +121,7 @@ def test_an_internal_error_is_one_line_with_exit_status_3_and_a_traceback_file(t
     path = Path(re.search(r"traceback in (\S+?)\)", lines[0]).group(1))
     assert path.parent == tmp_path
     text = path.read_text(encoding="utf-8")
-    assert "Traceback" in text and "a planted bug" in text and "_cmd_schema" not in lines[0]
+    assert "Traceback" in text and "a planted bug" in text and "cmd_schema" not in lines[0]
 
 
 HOSTILE_TITLE = '"<script>alert(1)</script> [click](javascript:alert(2)) <img src=x onerror=alert(3)> | `x` *b*"'
