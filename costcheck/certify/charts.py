@@ -39,8 +39,8 @@ from .arb_eval import compile_exprs
 from .cell_region import CellLocator
 from .enclosures import FieldEnclosures
 from .interval_eval import compile_interval_exprs
-from .region import bounding_box, judge
-from .space import ProofSpace
+from .region import bounding_box
+from .space import ConstraintLocator, ProofSpace
 
 #: cells per side of the grid the pairing is enclosed on first, and the most cells enclosed in all
 GRID, MAX_CELLS = 8, 400_000
@@ -139,15 +139,6 @@ def pairing_range(cost, sigma: sp.Expr) -> tuple[float, float, int]:
     return L, U, total
 
 
-class _NormalLocator:
-    def __init__(self, tests):
-        self.tests = tests
-
-    def classify(self, lo, hi) -> str:
-        cell = [balls.from_bounds(a, b) for a, b in zip(lo, hi)]
-        return judge((fn(cell)[0], strict) for fn, strict in self.tests)
-
-
 def _far_end(sigma_at, chart: Chart, L: float, U: float) -> float | None:
     """An ``S`` with ``σ(normal form at S)`` surely beyond the far end of ``[L, U]`` (None if not found):
     doubling finds one, bisection then brings it close to the first such ``s`` (a shorter cover)."""
@@ -208,7 +199,7 @@ def chart_space(cost, fields: Sequence[str]) -> ProofSpace | None:
                        "cells; the determinant's non-vanishing and the cross-curvature's sign are kept by "
                        "that change of chart, its size is not: the lower bound is the normal forms')")
         space = ProofSpace(description, ["s"], np.array([chart.start]), np.array([far]), enclosures,
-                           _NormalLocator(tests).classify)
+                           ConstraintLocator(tests).classify)
         space.normal_form = (s, to_normal)  # for .chart_mtw: the rewrite of x, y into the normal forms
         return space
     return None

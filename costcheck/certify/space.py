@@ -63,7 +63,10 @@ def translation_invariant(cost) -> bool:
     return not (cost.expr.xreplace(substitution).free_symbols & set(cost.x_symbols))
 
 
-class _DifferenceLocator:
+class ConstraintLocator:
+    """Classifies a cell of a reduced space by ball enclosures of the constraint functions ``tests``
+    (each ``(fn, strict)``): inside, outside, or straddling (``region.judge``)."""
+
     def __init__(self, tests):
         self.tests = tests
 
@@ -89,7 +92,7 @@ def difference_space(cost, fields: Sequence[str]) -> ProofSpace | None:
     enclosures = FieldEnclosures(cost, fields, substitution=substitution, symbols=zs)
     names = [f"{a}-{b}" for a, b in zip(cost.x_names, cost.y_names)]
     return ProofSpace("differences z = x − y (the cost is a function of x − y)", names, z_lo, z_hi, enclosures,
-                      _DifferenceLocator(tests).classify)
+                      ConstraintLocator(tests).classify)
 
 
 def _radial(expr, zs, rho) -> bool:
@@ -141,7 +144,7 @@ def radial_frame(cost) -> RadialFrame | None:
         g = c.inequality.g.xreplace(substitution)
         if not (g.free_symbols & set(cost.x_symbols)) and _radial(g, zs, rho):
             tests.append((compile_exprs((g.xreplace(on_axis),), (r,)), c.inequality.strict))
-    return RadialFrame(r, to_axis, np.array([r_lo]), np.array([r_hi]), _DifferenceLocator(tests).classify)
+    return RadialFrame(r, to_axis, np.array([r_lo]), np.array([r_hi]), ConstraintLocator(tests).classify)
 
 
 def radial_space(cost, fields: Sequence[str]) -> ProofSpace | None:
