@@ -48,6 +48,8 @@ def test_page_is_self_contained(report_dir):
 def test_page_says_what_each_verdict_rests_on(report_dir):
     html = (report_dir / "index.html").read_text(encoding="utf-8")
     assert "<math" in html and "<mfrac>" in html  # the quadratic cost's formula, as MathML
+    # parentheses keep their text height (MathML fences stretch by default: W3C MathML Core, <mo>)
+    assert "<mo>(</mo>" not in html and "<mo>)</mo>" not in html and '<mo stretchy="false">(</mo>' in html
     assert "no counterexample in" in html       # sampled verdicts, in plain words
     assert "refuted at x = (x = " in html        # the 1-D cost's witness, with its coordinate name
     assert "evidence, not proof" in html         # the caution

@@ -39,10 +39,14 @@ def _math(section: CostSection) -> str:
         return "<p>The cost is given as a Python function; there is no formula to show.</p>"
     from sympy.printing.mathml import mathml
 
-    body = mathml(section.written_expr, printer="presentation")
+    # sympy writes parentheses as plain <mo> fences, which MathML stretches to the height of what
+    # they hold: around a fraction or a power browsers draw them several lines tall
+    body = (mathml(section.written_expr, printer="presentation")
+            .replace("<mo>(</mo>", '<mo stretchy="false">(</mo>').replace("<mo>)</mo>", '<mo stretchy="false">)</mo>'))
     lhs = "s" if section.sense == "surplus" else "c"
     formula = (f'<math display="block" xmlns="http://www.w3.org/1998/Math/MathML"><mrow><mi>{lhs}</mi>'
-               f"<mo>(</mo><mi>x</mi><mo>,</mo><mi>y</mi><mo>)</mo><mo>=</mo>{body}</mrow></math>")
+               f'<mo stretchy="false">(</mo><mi>x</mi><mo>,</mo><mi>y</mi><mo stretchy="false">)</mo><mo>=</mo>{body}'
+               "</mrow></math>")
     if section.sense == "surplus":
         formula += "<p class=dim>A surplus, maximised; every condition is checked on the cost c = −s.</p>"
     return formula
