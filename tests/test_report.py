@@ -53,7 +53,12 @@ def test_page_says_what_each_verdict_rests_on(report_dir):
     assert "no counterexample in" in html       # sampled verdicts, in plain words
     assert "refuted at x = (x = " in html        # the 1-D cost's witness, with its coordinate name
     assert "evidence, not proof" in html         # the caution
-    assert "Witness for nondegenerate" in html
+    assert "Witness for non-degeneracy" in html
+    # every condition by a plain name: no identifier (with its underscores) as a heading or a title
+    import re
+    headings = re.findall(r"<th[^>]*>([^<]*)</th>", html) + re.findall(r"<h3>([^<]*)</h3>", html)
+    assert headings and not any("_" in h for h in headings), headings
+    assert "<b>target_c_convex</b>" not in html and "<b>index_form</b>" not in html
     assert html.count("<section") == 2
     for cost in COSTS:
         assert Path(cost).stem in html

@@ -7,7 +7,7 @@ import base64
 from html import escape
 from pathlib import Path
 
-from .model import CAUTION, CostSection, ReportModel, VerdictRow
+from .model import CAUTION, CostSection, ReportModel, VerdictRow, condition_name
 
 CSS = """
 body { font: 15px/1.5 system-ui, -apple-system, "Segoe UI", sans-serif; color: #1a1a1a; margin: 0 auto;
@@ -62,7 +62,7 @@ def _verdict_cell(row: VerdictRow | None) -> str:
 
 
 def _summary_table(model: ReportModel) -> str:
-    head = "".join(f"<th>{escape(c)}</th>" for c in model.conditions)
+    head = "".join(f'<th title="{escape(c)}">{escape(condition_name(c))}</th>' for c in model.conditions)
     rows = []
     for s in model.sections:
         cells = "".join(_verdict_cell(model.cell(s, c)) for c in model.conditions)
@@ -93,7 +93,7 @@ def _witnesses(section: CostSection) -> str:
         rows += f"<tr><th>value</th><td>{escape(w.value)}</td></tr>"
         if w.confirmation:
             rows += f"<tr><th>confirmed by</th><td>{escape(w.confirmation)}</td></tr>"
-        out.append(f"<h3>Witness for {escape(w.condition)}</h3><table>{rows}</table>")
+        out.append(f"<h3>Witness for {escape(condition_name(w.condition))}</h3><table>{rows}</table>")
     return "".join(out)
 
 

@@ -3,7 +3,7 @@ which common Markdown viewers typeset) and pictures as files beside it."""
 
 from __future__ import annotations
 
-from .model import CAUTION, CostSection, ReportModel
+from .model import CAUTION, CostSection, ReportModel, condition_name
 
 
 # Every character that can start Markdown or HTML structure.  A title such as
@@ -95,7 +95,7 @@ def _section(s: CostSection) -> list[str]:
         out += [f"  Note: {_text(n)}" for n in r.notes]
     out.append("")
     for w in s.witnesses:
-        out += [f"### Witness for {_text(w.condition)}", "", "| point | coordinates |", "|---|---|"]
+        out += [f"### Witness for {_text(condition_name(w.condition))}", "", "| point | coordinates |", "|---|---|"]
         out += [f"| {_esc(r.label)} | {_esc(r.coordinates)} |" for r in w.rows]
         out.append(f"| value | {_esc(w.value)} |")
         if w.confirmation:
@@ -121,7 +121,7 @@ def render_markdown(model: ReportModel) -> str:
         out += [f"- {_text(e)}" for e in model.errors] + [""]
     if model.any_sampled:
         out += [f"> **Caution.** {CAUTION}", ""]
-    out += ["| cost | " + " | ".join(model.conditions) + " |", "|---" * (len(model.conditions) + 1) + "|"]
+    out += ["| cost | " + " | ".join(_text(condition_name(c)) for c in model.conditions) + " |", "|---" * (len(model.conditions) + 1) + "|"]
     for s in model.sections:
         out.append(f"| [{_text(s.id)}](#{_anchor(s.id)}) | " + " | ".join(_cell(model, s, c) for c in model.conditions)
                    + " |")

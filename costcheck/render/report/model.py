@@ -21,7 +21,24 @@ CONDITION_TITLES = {
     "nondegenerate": "Non-degeneracy — det D²ₓᵧc ≠ 0",
     "mtw": "Ma–Trudinger–Wang sign — the optimal map is continuous",
     "nncc": "Non-negative cross-curvature — the screening problem is convex",
+    "target_c_convex": "c-convexity of the target — its c-segments stay inside it",
+    "source_c_convex": "c-convexity of the source — its c-segments stay inside it",
+    "loeper": "Loeper's maximum principle — along a c-segment the difference of costs peaks at an end",
+    "index_form": "Index form — the cost depends on x only through one index (n > m)",
+    "nested": "Nestedness — the level sets of a many-to-one model are nested",
 }
+
+#: the same conditions in a word or two, for table headings
+CONDITION_NAMES = {
+    "twist": "twist", "nondegenerate": "non-degeneracy", "mtw": "MTW", "nncc": "NNCC",
+    "target_c_convex": "target c-convex", "source_c_convex": "source c-convex", "loeper": "Loeper",
+    "index_form": "index form", "nested": "nestedness",
+}
+
+
+def condition_name(condition: str) -> str:
+    """A condition's short plain name (its identifier for one added later without a name here)."""
+    return CONDITION_NAMES.get(condition, condition)
 
 #: extra vectors of a witness, as a reader names them
 VECTOR_LABELS = {"y_prime": "y′", "xi": "ξ", "eta": "η"}
