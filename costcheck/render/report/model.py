@@ -13,6 +13,7 @@ from __future__ import annotations
 from dataclasses import dataclass, field
 from typing import Sequence
 
+from ...model.display import number, with_error
 from ...model.verdict import Verdict, Witness
 
 #: what each condition means, in a reader's words; a condition added later shows its name
@@ -50,12 +51,8 @@ CAUTION = ("A verdict whose evidence is “sampled” means that no counterexamp
            "reader can re-check.")
 
 
-def _number(value: float) -> str:
-    return f"{value:.6g}"
-
-
 def named_point(names: Sequence[str], values: Sequence[float]) -> str:
-    return ", ".join(f"{n} = {_number(v)}" for n, v in zip(names, values))
+    return ", ".join(f"{n} = {number(v, 6)}" for n, v in zip(names, values))
 
 
 def evidence_words(v: Verdict, x_names: Sequence[str], y_names: Sequence[str]) -> str:
@@ -67,9 +64,8 @@ def evidence_words(v: Verdict, x_names: Sequence[str], y_names: Sequence[str]) -
         if v.witness is None:
             return "refuted"
         w = v.witness
-        bound = "" if w.error_bound is None else f" ± {w.error_bound:.2g}"
         return (f"refuted at x = ({named_point(x_names, w.x)}), y = ({named_point(y_names, w.y)}), "
-                f"where the value is {_number(w.value)}{bound}")
+                f"where the value is {with_error(w.value, w.error_bound)}")
     if e.kind == "sampled":
         count = f"{e.samples}" if e.samples is not None else "the"
         spacing = f" (spacing about {e.resolution:.3g})" if e.resolution is not None else ""
@@ -98,7 +94,7 @@ def witness_table(condition: str, w: Witness, x_names: Sequence[str], y_names: S
     for name, vec in w.vectors.items():
         names = x_names if w.vector_sides.get(name, "x") == "x" else y_names
         rows.append(WitnessRow(VECTOR_LABELS.get(name, name.replace("_", " ")), named_point(names, vec)))
-    value = _number(w.value) + ("" if w.error_bound is None else f" ± {w.error_bound:.2g}")
+    value = with_error(w.value, w.error_bound)
     return WitnessTable(condition, tuple(rows), value, w.confirmation)
 
 
