@@ -40,7 +40,7 @@ MAX_PROVE_CELLS = 10_000_000
 #: --levels of ``costcheck nested``
 MAX_LEVELS = 100_000
 
-#: --workers of ``costcheck sweep``
+#: --workers of ``costcheck sweep``, ``check`` and ``report``
 MAX_WORKERS = 256
 
 # Wall-time bounds on the stages a cost file controls (its expression decides how long they

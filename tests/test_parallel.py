@@ -22,7 +22,7 @@ def test_workers_are_asked_for_only_when_there_is_enough_to_share():
 
 def run_json(folder, cores: int, capsys) -> tuple[int, dict]:
     code = main(["check", str(folder), "--json", "--no-cache", "--quick", "--budget", "48",
-                 "--only", "twist", "--cores", str(cores)])
+                 "--only", "twist", "--workers", str(cores)])
     captured = capsys.readouterr()
     assert captured.err.count("nosuchfunction") == 1, captured.err
     return code, json.loads(captured.out)

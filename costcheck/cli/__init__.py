@@ -77,7 +77,7 @@ def _budget_type():
 def _add_check_options(command, conditions, default_seed: int, default_budget: int) -> None:
     """The options ``check`` and ``report`` share: which files, and how they are checked."""
     from ..defaults import (DEFAULT_PROOF_CELLS, DEFAULT_PROOF_SECONDS, LONG_PROOF_SECONDS, MAX_PROVE_CELLS,
-                            MAX_STAGE_SECONDS)
+                            MAX_STAGE_SECONDS, MAX_WORKERS)
 
     command.add_argument("paths", nargs="+", metavar="PATH")
     _seed_option(command, default_seed)
@@ -90,9 +90,9 @@ def _add_check_options(command, conditions, default_seed: int, default_budget: i
                          help=f"run only this condition (repeatable): {', '.join(conditions)}")
     command.add_argument("--no-cache", action="store_true",
                          help="recompute every result; neither read nor write the result cache")
-    command.add_argument("--cores", type=_whole(0, 1024, " cores"), default=0, metavar="N",
-                         help="worker processes for the files not in the cache (default 0: one per core; "
-                              "1: check in this process); the output is the same for any N")
+    command.add_argument("--workers", type=_whole(1, MAX_WORKERS, " workers"), default=None,
+                         help="local worker processes for the files not in the cache (default: the number "
+                              "of CPUs; 1 runs in this process); the output is the same for any number")
     proofs = command.add_mutually_exclusive_group()
     proofs.add_argument("--prove", action="store_true",
                         help=f"spend up to {LONG_PROOF_SECONDS:g} s per condition proving sampled verdicts on the "

@@ -13,7 +13,7 @@ from .progress import Progress
 #: ``check`` options that only choose where results go; every other option reaches the checks
 #: and therefore the cache key (so a new option is part of the key unless listed here)
 OUTPUT_ONLY_OPTIONS = {"command", "paths", "json", "junit", "quiet", "no_cache", "out", "plots", "verbose",
-                       "failures", "cores"}
+                       "failures", "workers"}
 
 
 def error_line(problem) -> None:
@@ -69,7 +69,7 @@ def checked(args, err: Console, *, full_costs: bool = False, on_report=None):
 
         return check_files(files, run_options(args), cache=None if args.no_cache else ResultCache(),
                            full_costs=full_costs, progress=progress.item, on_report=reported, on_error=refused,
-                           cores=args.cores)
+                           workers=args.workers)
 
 
 def exit_code(result) -> int:

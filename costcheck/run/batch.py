@@ -45,7 +45,7 @@ def check_files(
     progress: Callable[[str], ContextManager] | None = None,
     on_report: Callable[[CostReport], None] | None = None,
     on_error: Callable[[CostFileError], None] | None = None,
-    cores: int | None = 1,
+    workers: int | None = 1,
 ) -> BatchResult:
     """Check ``files``; reports and errors are handed out in file order.  Ids must be unique.
 
@@ -53,7 +53,7 @@ def check_files(
     cache hit (a design-review report needs the formula and draws from it); otherwise a hit
     carries a :class:`~costcheck.model.header.CostHeader`.  ``progress(cost_id)`` is entered around
     each computed (not cached) cost and yields a callback for the condition names, or ``None``.
-    ``cores`` (0 or ``None``: all) is how many worker processes may check uncached files at once
+    ``workers`` (``None``: one per CPU) is how many worker processes may check uncached files at once
     (see :mod:`costcheck.run.parallel`); the output does not depend on it.
     """
     from .parallel import worker_count
@@ -61,7 +61,7 @@ def check_files(
     result = BatchResult()
     slots = read_all(files, run_options, cache=cache, full_costs=full_costs)
     waiting = [(slot[1], slot[0]) for slot in slots if isinstance(slot[1], Mapping)]
-    workers = worker_count(cores, len(waiting))
+    workers = worker_count(workers, len(waiting))
     answers = None
     if workers > 1:
         from .parallel import check_concurrently

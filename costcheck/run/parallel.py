@@ -37,7 +37,7 @@ def available_cores() -> int:
 
 
 def worker_count(asked: int | None, files: int) -> int:
-    """How many workers to start for ``files`` uncached files: ``asked`` (0 or None: every core)."""
+    """How many workers to start for ``files`` uncached files: at most ``asked`` (None: one per core)."""
     cores = asked or available_cores()
     return max(1, min(cores, files // MIN_FILES_PER_WORKER))
 
