@@ -88,7 +88,8 @@ def check_symmetries(d):
 CROSS_RTOL, CROSS_ATOL = 1e-8, 1e-12
 
 
-@settings(max_examples=20, **SLOW)
+# 12 examples: each costs a JAX compilation (~1.4 s); the catalog cross-check adds 27 fixed costs
+@settings(max_examples=12, **SLOW)
 @given(data=st.data())
 def test_sympy_and_jax_agree_on_random_costs(data):
     cost = data.draw(costs(sense=st.sampled_from(["cost", "surplus"])), label="cost")
