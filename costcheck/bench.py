@@ -12,10 +12,10 @@ Every figure is measured in the same run (nothing is copied from earlier runs):
   path over it;
 * ``cli``: wall time of ``costcheck check`` on one 2-D cost and on ``catalog/`` (subprocesses,
   interpreter start included) with an empty result cache, the catalog again with that cache
-  warm (``catalog_warm``), and the peak resident memory of the cold catalog check; the cold
-  catalog again in one process (``catalog_one_worker``, ``--workers 1``) and the ratio
-  ``catalog_workers_speedup`` the worker processes give
-  (``getrusage(RUSAGE_CHILDREN).ru_maxrss``, MB).  Compiled code (JAX's and numba's caches) is
+  warm (``catalog_warm``), and the peak resident memory of the cold catalog check
+  (``getrusage(RUSAGE_CHILDREN).ru_maxrss``, MB); the cold catalog again in one process
+  (``catalog_one_worker``, ``--workers 1``) and the ratio ``catalog_workers_speedup`` the
+  worker processes give.  Compiled code (JAX's and numba's caches) is
   as the margin measurements above left it: compiled once on this machine;
 * ``certify``: rigorous enclosures of the MTW tensor's derivative fields (values and gradients,
   natural ∩ mean-value form) over one seeded set of cells of the pair box of
