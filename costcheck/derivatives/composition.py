@@ -42,6 +42,10 @@ def inner_expression(expr: sp.Expr, variables: Sequence[sp.Symbol]):
     return best
 
 
+#: functions whose derivatives are distributions or case rules: a cost with one in F is not composed
+KINKS = (sp.Abs, sp.sign, sp.Heaviside, sp.DiracDelta, sp.Piecewise, sp.Max, sp.Min)
+
+
 def _partitions(items: list):
     """Every set partition of ``items`` (lists of blocks)."""
     if not items:
@@ -64,7 +68,9 @@ def composed_derivatives(expr: sp.Expr, xs: Sequence[sp.Symbol], ys: Sequence[sp
 @lru_cache(maxsize=16)
 def _composed(expr, xs, ys, order):
     found = inner_expression(expr, xs + ys)
-    if found is None:
+    # a kink in F (|t|, sign, a step, a piecewise rule) is differentiated with the variables
+    # themselves: the delta terms of its derivatives are written in them (see sympy_backend.diff)
+    if found is None or found[0].has(*KINKS):
         return symbolic_derivatives(expr, xs, ys, order)
     outer, T, t = found
     F = [outer]
@@ -100,4 +106,17 @@ def _composed(expr, xs, ys, order):
     if order >= 4:
         out["dxxyy"] = [[[[derivative(xs[i], xs[j], ys[k], ys[l]) for l in range(m)] for k in range(m)]
                          for j in range(n)] for i in range(n)]
+    if any(sp.sympify(e).has(sp.Derivative) for e in _flat(out)):
+        return symbolic_derivatives(expr, xs, ys, order)  # something F's chain rule left unevaluated
     return out
+
+
+def _flat(fields: dict):
+    for value in fields.values():
+        stack = [value]
+        while stack:
+            item = stack.pop()
+            if isinstance(item, list):
+                stack.extend(item)
+            else:
+                yield item

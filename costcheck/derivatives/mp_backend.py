@@ -15,7 +15,8 @@ import numpy as np
 import sympy as sp
 
 from .fields import fields_up_to
-from .sympy_backend import shared_cse, symbolic_derivatives
+from .composition import composed_derivatives
+from .sympy_backend import shared_cse
 
 
 def _mp_delta(u, *_):
@@ -38,7 +39,9 @@ class HighPrecision:
         """``extra``: parameter symbols of a family, given values at each call (see ``Cost.family``)."""
         self.order = order
         self.names = fields_up_to(order)
-        sym = symbolic_derivatives(expr, xs, ys, order)
+        # the float64 evaluator's expressions (Faà di Bruno's where the cost is F(t)): exact
+        # derivatives all the same, and their elimination of common subexpressions is shared
+        sym = composed_derivatives(expr, xs, ys, order)
         self._shapes = {k: np.shape(np.array(sym[k], dtype=object)) for k in self.names}
         flat = [e for k in self.names for e in np.array(sym[k], dtype=object).reshape(-1)]
         self._sizes = [int(np.prod(self._shapes[k], dtype=int)) for k in self.names]

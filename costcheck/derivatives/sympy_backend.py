@@ -151,25 +151,29 @@ CHUNK = 8192
 THREADS = 2
 
 
-def build(expr: sp.Expr, xs: Sequence[sp.Symbol], ys: Sequence[sp.Symbol], order: int, family=None):
+def build(expr: sp.Expr, xs: Sequence[sp.Symbol], ys: Sequence[sp.Symbol], order: int, family=None,
+          derive=None):
     """A function ``(xs (N,n), ys (N,m)) -> Derivatives`` evaluating the symbolic derivatives.
 
     ``family = (template, ((symbol, value), ...))`` evaluates the template's derivatives with the
     symbols set to the values: one differentiation and one compilation for a whole sweep.
+    ``derive(expr, xs, ys, order)`` forms the derivative expressions (default
+    :func:`symbolic_derivatives`; any function returning the same fields with the same values).
     """
+    derive = derive or symbolic_derivatives
     if family is None:
-        return _build(expr, tuple(xs), tuple(ys), order)
+        return _build(expr, tuple(xs), tuple(ys), order, (), derive)
     template, values = family
     symbols = tuple(s for s, _ in values)
     numbers = tuple(float(v) for _, v in values)
-    fn = _build(template, tuple(xs), tuple(ys), order, symbols)
+    fn = _build(template, tuple(xs), tuple(ys), order, symbols, derive)
     return lambda x, y: fn(x, y, numbers)
 
 
 @lru_cache(maxsize=64)
-def _build(expr, xs, ys, order, extra=()):
+def _build(expr, xs, ys, order, extra=(), derive=symbolic_derivatives):
     names = fields_up_to(order)
-    sym = symbolic_derivatives(expr, xs, ys, order)
+    sym = derive(expr, xs, ys, order)
     shapes = {name: np.shape(np.array(sym[name], dtype=object)) for name in names}
     flat, layout = distinct_entries(sym, names)
 
