@@ -11,6 +11,7 @@ from typing import Sequence
 import numpy as np
 
 from ..derivatives.fields import ORDER_FIELDS
+from ..derivatives.composition import composed_derivatives
 from ..derivatives.sympy_backend import symbolic_derivatives
 from .arb_eval import compile_exprs
 
@@ -18,11 +19,17 @@ from .arb_eval import compile_exprs
 TENSOR_FIELDS = ("dxy", "dxxy", "dxyy", "dxxyy")
 
 
-def flat_fields(cost, fields: Sequence[str], substitution: dict | None = None):
+def flat_fields(cost, fields: Sequence[str], substitution: dict | None = None, composed: bool = False):
     """``(distinct entries, layout, shapes)`` of the named derivative fields: ``layout[name]`` lists the
-    position in the entries of each element of the field (row-major), ``shapes[name]`` its shape."""
+    position in the entries of each element of the field (row-major), ``shapes[name]`` its shape.
+
+    ``composed``: the derivatives by Faà di Bruno's formula where the cost is ``F(t)``
+    (:mod:`costcheck.derivatives.composition`), the same functions formed far faster on the charts;
+    for enclosures at points (a witness), where the form does not change how tight they are.
+    """
     order = max(k for k, names in ORDER_FIELDS.items() if set(names) & set(fields))
-    sym = symbolic_derivatives(cost.expr, cost.x_symbols, cost.y_symbols, order)
+    derive = composed_derivatives if composed else symbolic_derivatives
+    sym = derive(cost.expr, cost.x_symbols, cost.y_symbols, order)
     shapes, layout = {}, {}
     flat, position = [], {}
     for name in fields:
@@ -44,10 +51,11 @@ class FieldEnclosures:
     """``enclose(cell) -> {field: nested lists of balls}`` for the named derivative fields."""
 
     def __init__(self, cost, fields: Sequence[str], substitution: dict | None = None,
-                 symbols: Sequence | None = None):
-        """``substitution`` rewrites the derivatives into other variables ``symbols`` (default: x, then y)."""
+                 symbols: Sequence | None = None, composed: bool = False):
+        """``substitution`` rewrites the derivatives into other variables ``symbols`` (default: x, then y);
+        ``composed`` as for :func:`flat_fields`."""
         self.fields = tuple(fields)
-        flat, self._layout, self._shapes = flat_fields(cost, self.fields, substitution)
+        flat, self._layout, self._shapes = flat_fields(cost, self.fields, substitution, composed)
         variables = tuple(symbols) if symbols is not None else tuple(cost.x_symbols) + tuple(cost.y_symbols)
         #: every rewritten derivative is a function of ``symbols`` alone (else nothing is compiled)
         self.free_of_others = all(e.free_symbols <= set(variables) for e in flat)
