@@ -74,20 +74,22 @@ def stream_bounded(producer, args: tuple, expected: int, seconds: float) -> dict
     proc = ctx.Process(target=_stream_worker, args=(producer, args, queue), daemon=True)
     proc.start()
     deadline = time.monotonic() + seconds
-    while len(results) < expected:
-        remaining = deadline - time.monotonic()
-        if remaining <= 0:
-            break
-        try:
-            key, value = queue.get(timeout=min(remaining, 0.5))
-        except queue_module.Empty:
-            if not proc.is_alive() and queue.empty():
+    try:
+        while len(results) < expected:
+            remaining = deadline - time.monotonic()
+            if remaining <= 0:
                 break
-            continue
-        results[key] = value
-    if proc.is_alive():
-        proc.terminate()
-    proc.join()
+            try:
+                key, value = queue.get(timeout=min(remaining, 0.5))
+            except queue_module.Empty:
+                if not proc.is_alive() and queue.empty():
+                    break
+                continue
+            results[key] = value
+    finally:  # also when an enclosing time bound interrupts the wait: the child never outlives it
+        if proc.is_alive():
+            proc.terminate()
+        proc.join()
     return results
 
 
