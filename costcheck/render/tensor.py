@@ -17,8 +17,9 @@ import sympy as sp
 from ..numerics.curvature.closed_form import THETA, ClosedForm, coefficient_labels
 
 WIDTH = 80
-#: an expression not tidied in time is printed only up to this many characters (``--json`` has all)
-FORMED_SHOWN = 600
+#: an expression not tidied in time is printed only up to this many nodes (``--json`` has all):
+#: sympy's printers take seconds on each of the formed components of a 3-D power cost
+FORMED_SHOWN = 150
 CONVENTION = "T_ijkl = sum_rs c_ij,r c^r,s c_s,kl - c_ij,kl (cost minimised; symmetric in ij and in kl)"
 #: the monomial of ``a_p`` in ``S(θ)`` (n = 2)
 ANGLE_MONOMIALS = ["cos⁴θ", "cos³θ sin θ", "cos²θ sin²θ", "cos θ sin³θ", "sin⁴θ"]
@@ -85,11 +86,16 @@ def _heading(cf: ClosedForm, latex: bool) -> list[str]:
     return lines
 
 
+def nodes(expr: sp.Expr) -> int:
+    """The size of an expression (its nodes), measured without printing it."""
+    return sum(1 for _ in sp.preorder_traversal(expr))
+
+
 def _expression(head: str, expr: sp.Expr, tidied: bool, latex: bool) -> list[str]:
-    body = sp.latex(expr) if latex else str(expr)
-    if not tidied and len(body) > FORMED_SHOWN:
-        note = f"(not tidied in time: {len(body):,} characters as formed, in --json)"
+    if not tidied and nodes(expr) > FORMED_SHOWN:
+        note = f"(not tidied in time; {nodes(expr):,} nodes as formed, in --json)"
         return [("% " if latex else "") + head + note]
+    body = sp.latex(expr) if latex else str(expr)
     lines = wrap(head, body)
     if not tidied:
         mark = "   (not tidied in time)"
@@ -140,8 +146,12 @@ def tensor_lines(cf: ClosedForm, seconds: float, latex: bool = False) -> list[st
     return lines
 
 
-def _both(expr) -> dict:
-    return {"expr": str(expr), "latex": sp.latex(expr)}
+def _both(expr, tidied: bool = True) -> dict:
+    """Plain text and LaTeX; a large expression not tidied in time in plain text only, in the
+    order of its terms as formed (sympy's ordering of the terms alone takes seconds there)."""
+    if tidied or nodes(expr) <= FORMED_SHOWN:
+        return {"expr": str(expr), "latex": sp.latex(expr)}
+    return {"expr": sp.sstr(expr, order="none"), "latex": None}
 
 
 def tensor_json(cf: ClosedForm, file: str, seconds: float) -> dict:
@@ -161,9 +171,10 @@ def tensor_json(cf: ClosedForm, file: str, seconds: float) -> dict:
     return {
         "id": cf.cost_id, "file": file, "convention": CONVENTION,
         "variables": {str(d): str(x - y) for d, x, y in zip(cf.differences, cf.xs, cf.ys)},
-        "components": [{"index": _label(c.index), **_both(c.expr), "simplified": c.simplified}
+        "components": [{"index": _label(c.index), **_both(c.expr, c.simplified), "simplified": c.simplified}
                        for c in cf.components],
-        "inverse_mixed_hessian": {"entries": [[str(cf.inverse[i, j]) for j in range(cf.n)] for i in range(cf.n)],
+        "inverse_mixed_hessian": {"entries": [[_both(cf.inverse[i, j], cf.inverse_tidied)["expr"] for j in range(cf.n)]
+                                              for i in range(cf.n)],
                                   "simplified": cf.inverse_tidied},
         "S": form,
         "complete": cf.complete,

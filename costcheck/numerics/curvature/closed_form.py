@@ -24,8 +24,8 @@ from dataclasses import dataclass
 import sympy as sp
 
 from ...model.cost import Cost
-from .symbolic import (SIMPLIFY_SECONDS, FormedTensor, TensorComponent, form_tensor, singular, stream_bounded,
-                       tidy)
+from .symbolic import (SIMPLIFY_SECONDS, FormedTensor, TensorComponent, compose, determinant_and_inverse, form_tensor,
+                       singular, stream_bounded, tidy)
 
 THETA = sp.Symbol("theta", real=True)
 
@@ -113,22 +113,50 @@ def _coefficients(T: FormedTensor, inverse: sp.Matrix) -> dict:
     return {"B_" + "".join(str(i + 1) for i in idx): b for idx, b in covector_coefficients(T, inverse).items()}
 
 
+def _tidied_fields(d: dict, n: int, rewrite) -> dict:
+    """The derivative fields ``T`` is made of, each entry rewritten and tidied once (the copies
+    that symmetry makes equal are shared): ``M``, ``c_{ij,r}``, ``c_{s,kl}``, ``c_{ij,kl}``."""
+    R = range(n)
+    pairs = list(itertools.combinations_with_replacement(R, 2))
+    t = lambda e: tidy(rewrite(e))  # noqa: E731
+    xxy = {(i, j, r): t(d["dxxy"][i][j][r]) for i, j in pairs for r in R}
+    xyy = {(s, k, l): t(d["dxyy"][s][k][l]) for s in R for k, l in pairs}
+    xxyy = {(i, j, k, l): t(d["dxxyy"][i][j][k][l]) for i, j in pairs for k, l in pairs}
+    o = lambda a, b: (min(a, b), max(a, b))  # noqa: E731
+    return {"dxy": [[t(d["dxy"][r][s]) for s in R] for r in R],
+            "dxxy": [[[xxy[(*o(i, j), r)] for r in R] for j in R] for i in R],
+            "dxyy": [[[xyy[(s, *o(k, l))] for l in R] for k in R] for s in R],
+            "dxxyy": [[[[xxyy[(*o(i, j), *o(k, l))] for l in R] for k in R] for j in R] for i in R]}
+
+
+def _free_of(fields: dict, ys: frozenset) -> bool:
+    return not any(e.free_symbols & ys for e in sp.flatten(list(fields.values())))
+
+
 def _tidy_everything(formed: FormedTensor, sub: dict, ys: frozenset):
-    """The child's work, streamed: whether ``det M ≡ 0``, the writing chosen, then ``T``,
-    ``M⁻¹`` and the form's coefficients (formed from the tidied ``T`` and ``M⁻¹``)."""
-    yield ("det",), tidy(formed.det) == 0
-    first = next((e for e in formed.components.values() if e != 0), None)
-    shifted = tidy(first.xreplace(sub)) if first is not None else None
-    differences = first is not None and not (shifted.free_symbols & ys)
+    """The child's work, streamed: whether ``det M ≡ 0``, the writing chosen, ``M⁻¹``, ``T`` and
+    the form's coefficients.  ``T`` is composed from the tidied derivatives and the tidied ``M⁻¹``
+    and then tidied, which is several times faster than tidying the composed expression (a
+    product of a dozen radicals per term on a power cost).  The difference writing is chosen when
+    every derivative involved depends on ``x − y`` only."""
+    n = formed.n
+    fields = _tidied_fields(formed.derivatives, n, lambda e: e.xreplace(sub))
+    differences = _free_of(fields, ys)
+    if not differences:
+        fields = _tidied_fields(formed.derivatives, n, lambda e: e)
+    det, inverse = determinant_and_inverse(sp.Matrix(fields["dxy"]))
+    det = tidy(det)
+    yield ("det",), det == 0
+    if det == 0:
+        return
     yield ("mode",), differences
-    rewrite = (lambda e: e.xreplace(sub)) if differences else (lambda e: e)
-    tidied = {}
-    for index, expr in formed.components.items():
-        tidied[index] = shifted if (differences and expr is first) else tidy(rewrite(expr))
-        yield ("T", index), tidied[index]
-    inverse = formed.inverse.applyfunc(lambda e: tidy(rewrite(e)))
+    inverse = inverse.applyfunc(tidy)
     yield ("inverse",), inverse
-    for label, expr in _coefficients(FormedTensor(formed.n, tidied, inverse, formed.det), inverse).items():
+    tidied = {}
+    for index, expr in compose(n, fields, inverse).items():
+        tidied[index] = tidy(expr)
+        yield ("T", index), tidied[index]
+    for label, expr in _coefficients(FormedTensor(n, tidied, inverse, det), inverse).items():
         yield ("S", label), tidy(expr)
 
 
@@ -167,7 +195,7 @@ def mtw_closed_form(cost: Cost, seconds: float = SIMPLIFY_SECONDS) -> ClosedForm
     deltas = _difference_symbols(cost)
     sub = {x: y + d for x, y, d in zip(cost.x_symbols, cost.y_symbols, deltas)}
     labels = coefficient_labels(cost.n)
-    expected = 4 + len(formed.components) + len(labels)
+    expected = 3 + len(formed.components) + len(labels)  # det, mode, inverse, T, S
     done = stream_bounded(_tidy_everything, (formed, sub, frozenset(cost.y_symbols)), expected, seconds)
     if done.get(("det",)) is True:
         raise singular(cost)

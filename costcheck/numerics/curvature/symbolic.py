@@ -19,7 +19,7 @@ import itertools
 import multiprocessing
 import queue as queue_module
 import time
-from dataclasses import dataclass
+from dataclasses import dataclass, field
 
 import sympy as sp
 from sympy.matrices.utilities import dotprodsimp
@@ -108,6 +108,8 @@ class FormedTensor:
     components: dict  # (i, j, k, l) with i <= j, k <= l -> expression
     inverse: sp.Matrix  # M⁻¹ = adj(M) / det(M)
     det: sp.Expr  # det(M) as formed (it may still be identically zero)
+    #: the derivatives T is made of (``symbolic_derivatives`` fields), to tidy piece by piece
+    derivatives: dict | None = field(default=None, compare=False)
 
     def entry(self, i: int, j: int, k: int, l: int) -> sp.Expr:
         """``T_{ijkl}`` for any indices (by the symmetries in ``ij`` and in ``kl``)."""
@@ -124,23 +126,32 @@ def form_tensor(cost: Cost) -> FormedTensor:
         raise UsageError(f"cost '{cost.id}' has no symbolic form (it is a Python function)")
     if cost.n != cost.m:
         raise UsageError(f"the MTW tensor needs n == m; cost '{cost.id}' has n={cost.n}, m={cost.m}")
-    n = cost.n
     d = symbolic_derivatives(cost.expr, cost.x_symbols, cost.y_symbols, 4)
-    M = sp.Matrix(d["dxy"])
-    # no intermediate simplification (sympy's default "dotprodsimp" took minutes on the 3 × 3
-    # matrix of a power cost); Berkowitz is division-free
+    det, Minv = determinant_and_inverse(sp.Matrix(d["dxy"]))
+    if det == 0:
+        raise singular(cost)
+    return FormedTensor(cost.n, compose(cost.n, d, Minv), Minv, det, d)
+
+
+def determinant_and_inverse(M: sp.Matrix) -> tuple[sp.Expr, sp.Matrix]:
+    """``(det M, adj(M) / det M)``, with no intermediate simplification (sympy's default
+    "dotprodsimp" took minutes on the 3 × 3 matrix of a power cost); Berkowitz is division-free,
+    and adjugate over determinant keeps the expression smaller than ``.inv()``."""
     with dotprodsimp(False):
         det = sp.factor_terms(M.det(method="berkowitz"))
         adjugate = M.adjugate(method="berkowitz")
-    if det == 0:
-        raise singular(cost)
-    Minv = adjugate / det  # adjugate over determinant keeps the expression smaller than .inv()
+    return det, (adjugate / det if det != 0 else adjugate)
+
+
+def compose(n: int, d: dict, Minv: sp.Matrix) -> dict:
+    """``T_{ijkl} = Σ c_{ij,r} c^{r,s} c_{s,kl} − c_{ij,kl}`` for ``i <= j``, ``k <= l``, from the
+    derivative fields ``d`` and ``M⁻¹`` as given (tidied or not)."""
     components = {}
     for i, j in itertools.combinations_with_replacement(range(n), 2):
         for k, l in itertools.combinations_with_replacement(range(n), 2):
             first = sum(d["dxxy"][i][j][r] * Minv[r, s] * d["dxyy"][s][k][l] for r in range(n) for s in range(n))
             components[(i, j, k, l)] = first - d["dxxyy"][i][j][k][l]
-    return FormedTensor(n, components, Minv, det)
+    return components
 
 
 def mtw_tensor_symbolic(cost: Cost, simplify_seconds: float = SIMPLIFY_SECONDS,
