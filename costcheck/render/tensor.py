@@ -82,7 +82,7 @@ def _heading(cf: ClosedForm, latex: bool) -> list[str]:
     lines = [f"MTW tensor of {cf.cost_id}: T_ijkl = Σ c_ij,r c^r,s c_s,kl − c_ij,kl",
              f"(symmetric in ij and in kl; indices 1..{cf.n}; factored over one denominator)"]
     if cf.differences:
-        lines.append("written in " + ", ".join(f"{d} = {x} − {y}" for d, x, y in zip(cf.differences, cf.xs, cf.ys)))
+        lines.extend(wrap("written in ", ", ".join(f"{d} = {x} − {y}" for d, x, y in zip(cf.differences, cf.xs, cf.ys))))
     return lines
 
 
@@ -120,8 +120,8 @@ def _form_lines(cf: ClosedForm, latex: bool) -> list[str]:
             lines.extend(wrap("S(θ) = ", " + ".join(f"a_{p} {m}" for p, m in enumerate(ANGLE_MONOMIALS))))
     else:
         if latex:
-            lines.append(r"% S(\xi, \eta) = \sum B_{ijkl} \xi_i \xi_j \eta_k \eta_l on \xi \cdot \eta = 0, "
-                         r"B_{ijkl} = \sum_{r,s} T_{ijrs} c^{r,k} c^{s,l}")
+            lines.append(r"% S(\xi, \eta) = \sum B_{ijkl} \xi_i \xi_j \eta_k \eta_l on \xi \cdot \eta = 0,")
+            lines.append(r"% B_{ijkl} = \sum_{r,s} T_{ijrs} c^{r,k} c^{s,l}")
         else:
             lines.append("S(ξ, η) = Σ B_ijkl ξ_i ξ_j η_k η_l for covectors η with ξ · η = 0,")
             lines.append("B_ijkl = Σ_rs T_ijrs c^r,k c^s,l (M⁻¹ taken into T; B symmetric in ij, in kl)")
@@ -142,7 +142,7 @@ def tensor_lines(cf: ClosedForm, seconds: float, latex: bool = False) -> list[st
         lines.extend(wrap(r"S(\theta) = ", sp.latex(cf.form)))
     note = limit_note(cf, seconds)
     if note:
-        lines.extend(wrap("% " if latex else "", note))
+        lines.extend(("% " + line.strip()) if latex else line for line in wrap("", note, WIDTH - 2 * latex))
     return lines
 
 

@@ -201,8 +201,9 @@ def mtw_closed_form(cost: Cost, seconds: float = SIMPLIFY_SECONDS) -> ClosedForm
         raise singular(cost)
     differences = done.get(("mode",), False)
     rewrite = (lambda e: e.xreplace(sub)) if differences else (lambda e: e)
+    # a component formed as a plain number (0 for a bilinear term) is as tidy as it gets
     components = [TensorComponent(index, done[("T", index)], True) if ("T", index) in done
-                  else TensorComponent(index, rewrite(expr), False) for index, expr in formed.components.items()]
+                  else TensorComponent(index, rewrite(expr), expr.is_Number) for index, expr in formed.components.items()]
     coefficients = [Coefficient(label, done[("S", label)]) for label in labels if ("S", label) in done]
     form = None
     if len(coefficients) == len(labels):
