@@ -142,14 +142,14 @@ def _build_parser() -> argparse.ArgumentParser:
     show.add_argument("file", metavar="FILE")
     show.add_argument("--json", action="store_true")
 
-    tensor = sub.add_parser("tensor", help="print the MTW tensor T_ijkl of a cost in closed form")
+    tensor = sub.add_parser("tensor", help="print the MTW tensor T_ijkl and S(ξ, η) on ξ ⊥ η in closed form")
     tensor.add_argument("file", metavar="FILE")
     tensor.add_argument("--latex", action="store_true", help="print LaTeX instead of plain text")
     tensor.add_argument("--json", action="store_true")
     from ..defaults import MAX_LEVELS, MAX_STAGE_SECONDS, MAX_WORKERS
     tensor.add_argument("--simplify-seconds", type=_real(0.0, MAX_STAGE_SECONDS, allow_low=True, what=" seconds"),
                         default=10.0,
-                        help="time allowed for simplification, in total (default 10; 0 skips it)")
+                        help="time allowed for factoring the expressions, in total (default 10; 0 skips it)")
 
     sweep = sub.add_parser("sweep", help="check a cost over a range (or grid) of parameter values and "
                            "locate where verdicts change")

@@ -92,29 +92,19 @@ def bounded(file, stage: str, fn, *args, extra: float = 0.0, **kwargs):
 
 def cmd_tensor(args, out: Console) -> int:
     from ..spec.loader import load_cost
-    from ..numerics.curvature.symbolic import mtw_tensor_symbolic
-    import sympy as sp
+    from ..numerics.curvature.closed_form import mtw_closed_form
+    from ..render.tensor import tensor_json, tensor_lines
 
     cost = load_cost(args.file)
-    # the simplification has its own limit (--simplify-seconds); forming the tensor is bounded here
-    components = bounded(cost.file, "forming the MTW tensor", mtw_tensor_symbolic, cost, simplify_seconds=args.simplify_seconds,
-                          extra=args.simplify_seconds)
-    label = lambda idx: "".join(str(i + 1) for i in idx)  # noqa: E731
+    # forming the tensor is bounded here; the tidying has its own limit (--simplify-seconds) in a
+    # child process that is terminated when the limit is reached, and what was not tidied is said so
+    closed = bounded(cost.file, "forming the MTW tensor", mtw_closed_form, cost, args.simplify_seconds,
+                     extra=args.simplify_seconds)
     if args.json:
-        print(json.dumps({
-            "id": cost.id, "file": cost.file,
-            "convention": "T_ijkl = sum_rs c_ij,r c^r,s c_s,kl - c_ij,kl (cost minimised; symmetric in ij and in kl)",
-            "components": [{"index": label(c.index), "expr": str(c.expr), "latex": sp.latex(c.expr),
-                            "simplified": c.simplified} for c in components],
-        }, indent=2, ensure_ascii=False))
+        print(json.dumps(tensor_json(closed, cost.file, args.simplify_seconds), indent=2, ensure_ascii=False))
         return EXIT_OK
-    out.print(f"MTW tensor of {cost.id}: T_ijkl = Σ c_ij,r c^r,s c_s,kl − c_ij,kl "
-              f"(symmetric in ij and in kl; indices 1..{cost.n})", markup=False)
-    for c in components:
-        body = sp.latex(c.expr) if args.latex else str(c.expr)
-        name = f"T_{{{label(c.index)}}}" if args.latex else f"T_{label(c.index)}"
-        note = "" if c.simplified else "   (not simplified within the time limit)"
-        out.print(f"{name} = {body}{note}", markup=False, highlight=False, soft_wrap=True)
+    for line in tensor_lines(closed, args.simplify_seconds, latex=args.latex):
+        out.print(line, markup=False, highlight=False, soft_wrap=True)
     return EXIT_OK
 
 
