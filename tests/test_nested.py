@@ -331,3 +331,17 @@ def test_nested_command_on_a_file_it_cannot_run_on_is_bad_input(tmp_path, capsys
     assert main(["nested", str(path)]) == 2
     err = capsys.readouterr().err.strip().splitlines()
     assert len(err) == 1 and f"field '{field}'" in err[0] and "nested command cannot run" in err[0]
+
+
+def test_a_density_may_use_the_sides_coordinates_and_the_params(tmp_path):
+    # what the schema's description of data.*.density promises (it once said "a constant expression")
+    from costcheck.spec.loader import build_cost
+    from costcheck.spec.schema import DATA_SIDE_SCHEMA
+
+    assert "constant" not in DATA_SIDE_SCHEMA["properties"]["density"]["description"]
+    spec = {"id": "t", "x": ["x1", "x2"], "y": ["y"], "params": {"a": 2}, "expr": "x1*y",
+            "domain": {"x": UNIT_SQUARE, "y": {"box": [[0, 1]]}},
+            "data": {"source": {"density": "a*x1 + x2**2"}, "target": {"density": 3}}}
+    data = build_cost(spec, file=str(tmp_path / "t.yaml")).data
+    x1, x2 = sorted(data.source.density.free_symbols, key=str)
+    assert float(data.source.density.subs({x1: 0.5, x2: 1.0})) == 2 and float(data.target.density) == 3

@@ -71,7 +71,13 @@ DATA_SIDE_SCHEMA = _data_side = {
     "description": "exactly one of: density (an expression in this side's coordinate names, on its domain) or "
                    "points (a CSV file, path relative to the cost file: a column per coordinate, optional 'weight')",
     "properties": {
-        "density": _number_or_expression,
+        "density": {
+            "description": "an expression in this side's coordinate names (and the file's params), or a "
+                           "number for a uniform density, e.g. '1.5 - rung' or 'exp(-x1**2 - x2**2)': finite and "
+                           ">= 0 on the side's domain; it need not integrate to one (it is normalised to total "
+                           "mass 1 on the domain)",
+            "anyOf": [{"type": "number"}, {"type": "string", "minLength": 1}],
+        },
         "points": {"type": "string", "minLength": 1, "pattern": r"\.csv" + END},
     },
     "minProperties": 1,
