@@ -345,3 +345,22 @@ def test_a_density_may_use_the_sides_coordinates_and_the_params(tmp_path):
     data = build_cost(spec, file=str(tmp_path / "t.yaml")).data
     x1, x2 = sorted(data.source.density.free_symbols, key=str)
     assert float(data.source.density.subs({x1: 0.5, x2: 1.0})) == 2 and float(data.target.density) == 3
+
+
+def test_weights_and_densities_are_normalised_so_only_their_shape_matters(tmp_path):
+    # what docs/cost-files.md#data-and-normalisation says the code computes: weights / Σw, and a
+    # density divided by its midpoint-rule integral on the domain
+    rng = np.random.default_rng(4)
+    X, w = rng.uniform(0, 1, size=(300, 2)), rng.uniform(0.5, 2, size=300)
+    cost = surplus("y*x2 + y**2/2*x1", ["x1", "x2"], ["y"], [[0, 1], [0, 1]], [[0, 1]])
+    (y,) = cost.y_symbols
+    (tmp_path / "a").mkdir()
+    one = analyse(cost, points(tmp_path / "a", "source", ["x1", "x2"], X, w), density("target", "1 + y", [y]),
+                  with_map=False)
+    seven = analyse(cost, points(tmp_path, "source", ["x1", "x2"], X, 7 * w), density("target", "7 + 7*y", [y]),
+                    with_map=False)
+    assert one.source.weights.sum() == pytest.approx(1.0, abs=1e-12)
+    np.testing.assert_allclose(seven.source.weights, one.source.weights, rtol=1e-12)
+    np.testing.assert_allclose(seven.levels.k, one.levels.k, rtol=1e-12)
+    assert one.target.G(np.array([1.0]))[0] == 1.0
+    assert one.target.G(np.array([0.5]))[0] == pytest.approx((0.5 + 0.125) / 1.5, abs=1e-6)  # ∫₀^½ (1+y) / ∫₀¹
