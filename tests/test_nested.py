@@ -58,7 +58,7 @@ def test_one_dimensional_supermodular_surplus_gives_monotone_rearrangement(f_tex
     # Transport for Applied Mathematicians, 2015, ch. 2 — both from memory).  s = x·y is supermodular.
     cost = surplus("x*y", ["x"], ["y"], xbox, [[0, 1]])
     (x,), (y,) = cost.x_symbols, cost.y_symbols
-    result = analyse(cost, density("source", f_text, [x]), density("target", g_text, [y]))
+    result = analyse(cost, density("source", f_text, [x]), density("target", g_text, [y]), levels=96)
     assert result.verdict.verdict == "holds", result.verdict.evidence.summary
     q = np.linspace(xbox[0][0] + 0.02, xbox[0][1] - 0.02, 41)[:, None]
     T, clamped = map_at(result, q)
@@ -80,7 +80,8 @@ def test_index_form_costs_are_nested_for_any_data_and_map_through_the_index(tmp_
     w = rng.uniform(0.2, 2.0, size=3000)
     Y = rng.beta(2, 1 + seed, size=(2000, 1))
     cost = surplus("exp((x1 + x2**2)*y) + x1*x2", ["x1", "x2"], ["y"], [[0, 1], [0, 1]], [[0, 1]])
-    result = analyse(cost, points(tmp_path, "source", ["x1", "x2"], X, w), points(tmp_path, "target", ["y"], Y))
+    result = analyse(cost, points(tmp_path, "source", ["x1", "x2"], X, w), points(tmp_path, "target", ["y"], Y),
+                     levels=96)
     assert result.verdict.verdict == "holds", result.verdict.evidence.summary
     index = X[:, 0] + X[:, 1] ** 2
     order = np.argsort(index)
@@ -145,7 +146,8 @@ def test_map_total_surplus_matches_a_discrete_optimal_transport_solve(tmp_path):
     X = rng.uniform(0, 1, size=(N, 2))
     Y = rng.beta(2, 3, size=(N, 1))
     cost = surplus("y*x2 + y**2/2*x1", ["x1", "x2"], ["y"], [[0, 1], [0, 1]], [[0, 1]])
-    result = analyse(cost, points(tmp_path, "source", ["x1", "x2"], X), points(tmp_path, "target", ["y"], Y))
+    result = analyse(cost, points(tmp_path, "source", ["x1", "x2"], X), points(tmp_path, "target", ["y"], Y),
+                     levels=96)
     assert result.verdict.verdict == "holds"
     S = Y[:, 0][None, :] * X[:, 1][:, None] + Y[:, 0][None, :] ** 2 / 2 * X[:, 0][:, None]
     uniform = np.full(N, 1.0 / N)

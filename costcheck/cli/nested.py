@@ -31,7 +31,7 @@ def run(args) -> tuple[dict, object, list[str]]:
     if reason:
         raise CostFileError(f"the nested command cannot run: {reason}", file=cost.file,
                             field="y" if cost.m != 1 else "data")
-    result = analyse(cost, source, target, levels=args.levels)
+    result = analyse(cost, source, target, levels=args.levels, grid=args.grid)
     verdict = result.verdict
     check = verdict.to_json(cost.x_names, cost.y_names)
     check["summary"] = result.summary

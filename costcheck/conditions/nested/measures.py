@@ -19,6 +19,7 @@ from typing import Sequence
 import numpy as np
 import sympy as sp
 
+from ...defaults import MAX_DENSITY_NODES
 from ...errors import CostFileError
 from ...spec.data import SideSpec, read_points
 
@@ -87,11 +88,20 @@ def _density_values(side: SideSpec, symbols: Sequence[sp.Symbol], nodes: np.ndar
 
 
 def density_measure(side: SideSpec, symbols: Sequence[sp.Symbol], region, contains, file: str | None,
-                    nodes_total: int = QUADRATURE_NODES) -> Measure:
-    """Midpoint-rule nodes on the region's bounding box, weighted by the density, masked by the domain."""
+                    nodes_total: int = QUADRATURE_NODES, per_axis: int | None = None) -> Measure:
+    """Midpoint-rule nodes on the region's bounding box, weighted by the density, masked by the domain.
+
+    ``per_axis`` cells per axis (``--grid``), or by default about ``nodes_total`` nodes split evenly
+    over the axes; a grid of more than :data:`~costcheck.defaults.MAX_DENSITY_NODES` is refused
+    before it is built."""
     lo, hi = region.bounds()
     dim = lo.shape[0]
-    per_axis = int(np.clip(round(nodes_total ** (1.0 / dim)), 8, MAX_NODES_PER_AXIS))
+    if per_axis is None:
+        per_axis = int(np.clip(round(nodes_total ** (1.0 / dim)), 8, MAX_NODES_PER_AXIS))
+    elif per_axis**dim > MAX_DENSITY_NODES:
+        raise CostFileError(f"--grid {per_axis} gives {per_axis}^{dim} = {per_axis**dim:,} quadrature nodes for the "
+                            f"{side.role} density, at most {MAX_DENSITY_NODES:,} (memory); lower --grid",
+                            file=file, field=side.origin or None)
     cell = (hi - lo) / per_axis
     axes = [lo[k] + (np.arange(per_axis) + 0.5) * cell[k] for k in range(dim)]
     nodes = np.stack([g.ravel() for g in np.meshgrid(*axes, indexing="ij")], axis=1)
