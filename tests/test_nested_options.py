@@ -72,3 +72,42 @@ def test_levels_and_grid_reach_the_verdict_in_both_commands(capsys):
     assert main(["nested", *argv, "--json"]) in (0, 1)
     evidence = json.loads(capsys.readouterr().out)["checks"]["nested"]["evidence"]
     assert evidence["levels"] == 12 and "40^2-node midpoint rule" in evidence["source"]
+
+
+DENSITY_SOURCE = """id: dens
+title: two skills to a ladder with a density source (test fixture, invented)
+sense: surplus
+x: [a, b]
+y: [r]
+expr: r*b + r**2/2*a
+domain:
+  x: {box: [[0, 1], [0, 1]]}
+  y: {box: [[0, 1]]}
+data:
+  source: {density: 1 + a}
+  target: {density: 1}
+"""
+
+
+def test_out_writes_the_map_on_a_density_source_without_at(tmp_path, capsys):
+    # the README's promise: --out DIR writes the map as CSV, with or without --at; for a density
+    # the rows are the midpoint-rule nodes, each with its normalised mass
+    import numpy as np
+
+    path = tmp_path / "dens.yaml"
+    path.write_text(DENSITY_SOURCE, encoding="utf-8")
+    out = tmp_path / "out"
+    assert main(["nested", str(path), "--grid", "20", "--levels", "16", "--out", str(out)]) == 0
+    assert sorted(p.name for p in out.iterdir()) == ["levels.csv", "map-on-source.csv", "nested.json"]
+    lines = (out / "map-on-source.csv").read_text().splitlines()
+    assert lines[0] == "a,b,r,weight" and len(lines) == 1 + 20 * 20
+    table = np.array([[float(v) for v in line.split(",")] for line in lines[1:]])
+    # node masses ∝ 1 + a on cells of equal area, normalised (docs/cost-files.md#data-and-normalisation)
+    assert abs(table[:, 3].sum() - 1.0) < 1e-12
+    np.testing.assert_allclose(table[:, 3] / (1 + table[:, 0]), 1 / np.sum(1 + table[:, 0]), rtol=1e-12)
+    # T pushes the source to the uniform target: its weighted median is close to 1/2 (a check of the
+    # map, independent of how it was built; tolerance: 16 levels and a 20² rule)
+    order = np.argsort(table[:, 2])
+    median = table[order, 2][np.searchsorted(np.cumsum(table[order, 3]), 0.5)]
+    assert abs(median - 0.5) < 0.05
+    assert "wrote" in capsys.readouterr().out

@@ -182,7 +182,8 @@ def _build_parser() -> argparse.ArgumentParser:
     nested.add_argument("--at", metavar="CSV", default=None, help="evaluate the map T at the points of this CSV")
     check_command.add_level_options(nested, _whole)
     nested.add_argument("--out", metavar="DIR", default=None,
-                        help="write nested.json, levels.csv (k(y)) and the map as CSV into DIR")
+                        help="write nested.json, levels.csv (k(y)), map-on-source.csv (T with each point's mass) "
+                             "and, with --at, map-at.csv into DIR")
     nested.add_argument("--json", action="store_true", help="print one JSON document instead of text")
     nested.add_argument("--plots", metavar="DIR", default=None, help="write PNG and SVG pictures into DIR")
     sweep.add_argument("--no-cache", action="store_true",
