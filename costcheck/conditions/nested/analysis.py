@@ -34,7 +34,7 @@ class NestedResult:
 def source_measure(cost, side: SideSpec, grid: int | None = None) -> measures.Measure:
     """The source as weighted points; ``grid`` is the density's cells per axis (None: the default rule)."""
     if side.kind == "points":
-        return measures.points_measure(side, cost.x_names, cost.domain.contains_x)
+        return measures.points_measure(side, cost.x_names, cost.domain.contains_x, cost.file)
     return measures.density_measure(side, cost.x_symbols, cost.domain.x, cost.domain.contains_x, cost.file,
                                     per_axis=grid)
 
@@ -42,10 +42,10 @@ def source_measure(cost, side: SideSpec, grid: int | None = None) -> measures.Me
 def _refuse_oversized(cost, side: SideSpec, source: measures.Measure, levels: int) -> None:
     """The mass balance holds (level, point) arrays: bound their size before they are made."""
     if source.count * levels > MAX_LEVEL_POINTS:
-        what = "quadrature nodes" if source.kind == "quadrature" else "points"
+        what = "quadrature nodes" if side.kind == "density" else "points"
         raise CostFileError(f"{levels} levels × {source.count:,} source {what} = {source.count * levels:,} "
                             f"(level, point) pairs, at most {MAX_LEVEL_POINTS:,} (memory); lower --levels"
-                            + (" or --grid" if source.kind == "quadrature" else ""),
+                            + (" or --grid" if side.kind == "density" else ""),
                             file=cost.file if side.kind == "density" else str(side.path), field=side.origin or None)
 
 
