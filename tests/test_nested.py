@@ -20,6 +20,18 @@ from costcheck.conditions.nested.analysis import analyse, map_at
 from costcheck.spec.data import SideSpec
 
 ROOT = Path(__file__).resolve().parent.parent
+
+
+@pytest.fixture
+def patient_index_search(monkeypatch):
+    """The symbolic index search has a wall-time limit (8 s) that it meets in ~3 s on an idle machine
+    but not always on a loaded one, where the verdict then falls back, honestly, to sampled
+    evidence without an index: the tests that need the index found give it room."""
+    from costcheck.conditions import index_form
+
+    monkeypatch.setattr(index_form, "SYMBOLIC_SECONDS", 120.0)
+
+
 UNIT_SQUARE = {"box": [[0, 1], [0, 1]]}
 
 
@@ -71,7 +83,7 @@ def test_one_dimensional_supermodular_surplus_gives_monotone_rearrangement(f_tex
 
 
 @pytest.mark.parametrize("seed", [0, 1, 2])
-def test_index_form_costs_are_nested_for_any_data_and_map_through_the_index(tmp_path, seed):
+def test_index_form_costs_are_nested_for_any_data_and_map_through_the_index(tmp_path, seed, patient_index_search):
     # Source: a cost b(I(x), y) + f(x) with b_{Iy} > 0 is nested for all data and its map is the
     # one-dimensional monotone rearrangement of the index, T = G⁻¹ ∘ F_I ∘ I (Chiappori–McCann–Pass,
     # Comm. Pure Appl. Math. 70, 2017).  Here I = x1 + x2², b = exp(I·y), f = x1·x2.
@@ -271,14 +283,15 @@ def test_negative_density_is_refused(tmp_path):
         analyse(cost, density("source", "x1 - 0.5", [x1, x2]), density("target", "1", [y]))
 
 
-def test_index_is_found_by_integrating_the_direction_field():
+def test_index_is_found_by_integrating_the_direction_field(patient_index_search):
     # c = -log(1 + y·I(x)), I = x1 + x2², is of index form (Chiappori–McCann–Pass 2017, the form
     # b(I(x), y)); with 0 ∉ Y no D_y c(x, y0) is the plain index, and the direction field
     # c_{x2 y} / c_{x1 y} = 2·x2 integrates to it (method of characteristics, elementary).
     cost = costcheck.from_expression("-log(1 + y*(x1 + x2**2))", x=["x1", "x2"], y=["y"],
                                      domain={"x": {"box": [[0.1, 1], [0.1, 1]]}, "y": {"box": [[0.5, 1]]}})
     v = run_checks(cost, conditions=["index_form"], budget=256).verdicts["index_form"]
-    assert (v.verdict, v.evidence.kind, v.evidence.details["index"]) == ("holds", "proved", "x1 + x2**2")
+    assert (v.verdict, v.evidence.kind) == ("holds", "proved"), v.evidence.summary
+    assert v.evidence.details["index"] == "x1 + x2**2"
     assert v.evidence.details["direction_field"] == ["1", "2*x2"]
 
 
@@ -300,7 +313,7 @@ def test_csv_header_is_checked_when_the_file_is_loaded(tmp_path):
         costcheck.load(tmp_path / "m.yaml")
 
 
-def test_index_with_two_components_for_n_three_m_two():
+def test_index_with_two_components_for_n_three_m_two(patient_index_search):
     # c = -(y1·(x1 + x2) + y2·x3 + y1²·y2) = b(I(x), y) with I = (x1 + x2, x3) (the index form of
     # Chiappori–McCann–Pass 2017 / Pass 2012 with m = 2); D_y c at a frozen y0 recovers I exactly.
     cost = costcheck.from_expression("-(y1*(x1+x2) + y2*x3 + y1**2*y2)", x=["x1", "x2", "x3"], y=["y1", "y2"],
