@@ -211,11 +211,13 @@ def test_the_cost_file_page_lists_exactly_the_schema_fields():
         f"in docs/cost-files.md only: {sorted(set(documented) - set(fields))}")
     for path, field in fields.items():
         said = documented[path]["required"]
-        if said == "—":  # one of two alternatives: the schema's exactly-one-of (min = max = 1 property)
+        if said == "—":  # one of two alternatives: the schema's exactly-one-of (min = max = 1 property, or
+            # "not both" when an optional companion such as data.*.layout may stand beside one of them)
             parent = COST_FILE_SCHEMA
             for part in path.split(".")[:-1]:
                 parent = parent["properties"][part]
-            assert not field["required"] and parent.get("maxProperties") == 1, f"{path} is not an alternative"
+            exclusive = parent.get("maxProperties") == 1 or path.split(".")[-1] in parent.get("not", {}).get("required", ())
+            assert not field["required"] and exclusive, f"{path} is not an alternative"
         else:
             assert said == ("yes" if field["required"] else "no"), f"docs/cost-files.md: {path} required {said!r}"
         for word in field["schema"].get("enum", ()):

@@ -20,6 +20,18 @@ from costcheck.conditions.nested.analysis import analyse, map_at
 from costcheck.spec.data import SideSpec
 
 ROOT = Path(__file__).resolve().parent.parent
+
+
+@pytest.fixture
+def patient_index_search(monkeypatch):
+    """The symbolic index search has a wall-time limit (8 s) that it meets in ~3 s on an idle machine
+    but not always on a loaded one, where the verdict then falls back, honestly, to sampled
+    evidence without an index: the tests that need the index found give it room."""
+    from costcheck.conditions import index_form
+
+    monkeypatch.setattr(index_form, "SYMBOLIC_SECONDS", 120.0)
+
+
 UNIT_SQUARE = {"box": [[0, 1], [0, 1]]}
 
 
@@ -58,7 +70,7 @@ def test_one_dimensional_supermodular_surplus_gives_monotone_rearrangement(f_tex
     # Transport for Applied Mathematicians, 2015, ch. 2 — both from memory).  s = x·y is supermodular.
     cost = surplus("x*y", ["x"], ["y"], xbox, [[0, 1]])
     (x,), (y,) = cost.x_symbols, cost.y_symbols
-    result = analyse(cost, density("source", f_text, [x]), density("target", g_text, [y]))
+    result = analyse(cost, density("source", f_text, [x]), density("target", g_text, [y]), levels=96)
     assert result.verdict.verdict == "holds", result.verdict.evidence.summary
     q = np.linspace(xbox[0][0] + 0.02, xbox[0][1] - 0.02, 41)[:, None]
     T, clamped = map_at(result, q)
@@ -71,7 +83,7 @@ def test_one_dimensional_supermodular_surplus_gives_monotone_rearrangement(f_tex
 
 
 @pytest.mark.parametrize("seed", [0, 1, 2])
-def test_index_form_costs_are_nested_for_any_data_and_map_through_the_index(tmp_path, seed):
+def test_index_form_costs_are_nested_for_any_data_and_map_through_the_index(tmp_path, seed, patient_index_search):
     # Source: a cost b(I(x), y) + f(x) with b_{Iy} > 0 is nested for all data and its map is the
     # one-dimensional monotone rearrangement of the index, T = G⁻¹ ∘ F_I ∘ I (Chiappori–McCann–Pass,
     # Comm. Pure Appl. Math. 70, 2017).  Here I = x1 + x2², b = exp(I·y), f = x1·x2.
@@ -80,7 +92,8 @@ def test_index_form_costs_are_nested_for_any_data_and_map_through_the_index(tmp_
     w = rng.uniform(0.2, 2.0, size=3000)
     Y = rng.beta(2, 1 + seed, size=(2000, 1))
     cost = surplus("exp((x1 + x2**2)*y) + x1*x2", ["x1", "x2"], ["y"], [[0, 1], [0, 1]], [[0, 1]])
-    result = analyse(cost, points(tmp_path, "source", ["x1", "x2"], X, w), points(tmp_path, "target", ["y"], Y))
+    result = analyse(cost, points(tmp_path, "source", ["x1", "x2"], X, w), points(tmp_path, "target", ["y"], Y),
+                     levels=96)
     assert result.verdict.verdict == "holds", result.verdict.evidence.summary
     index = X[:, 0] + X[:, 1] ** 2
     order = np.argsort(index)
@@ -145,7 +158,8 @@ def test_map_total_surplus_matches_a_discrete_optimal_transport_solve(tmp_path):
     X = rng.uniform(0, 1, size=(N, 2))
     Y = rng.beta(2, 3, size=(N, 1))
     cost = surplus("y*x2 + y**2/2*x1", ["x1", "x2"], ["y"], [[0, 1], [0, 1]], [[0, 1]])
-    result = analyse(cost, points(tmp_path, "source", ["x1", "x2"], X), points(tmp_path, "target", ["y"], Y))
+    result = analyse(cost, points(tmp_path, "source", ["x1", "x2"], X), points(tmp_path, "target", ["y"], Y),
+                     levels=96)
     assert result.verdict.verdict == "holds"
     S = Y[:, 0][None, :] * X[:, 1][:, None] + Y[:, 0][None, :] ** 2 / 2 * X[:, 0][:, None]
     uniform = np.full(N, 1.0 / N)
@@ -269,14 +283,15 @@ def test_negative_density_is_refused(tmp_path):
         analyse(cost, density("source", "x1 - 0.5", [x1, x2]), density("target", "1", [y]))
 
 
-def test_index_is_found_by_integrating_the_direction_field():
+def test_index_is_found_by_integrating_the_direction_field(patient_index_search):
     # c = -log(1 + y·I(x)), I = x1 + x2², is of index form (Chiappori–McCann–Pass 2017, the form
     # b(I(x), y)); with 0 ∉ Y no D_y c(x, y0) is the plain index, and the direction field
     # c_{x2 y} / c_{x1 y} = 2·x2 integrates to it (method of characteristics, elementary).
     cost = costcheck.from_expression("-log(1 + y*(x1 + x2**2))", x=["x1", "x2"], y=["y"],
                                      domain={"x": {"box": [[0.1, 1], [0.1, 1]]}, "y": {"box": [[0.5, 1]]}})
     v = run_checks(cost, conditions=["index_form"], budget=256).verdicts["index_form"]
-    assert (v.verdict, v.evidence.kind, v.evidence.details["index"]) == ("holds", "proved", "x1 + x2**2")
+    assert (v.verdict, v.evidence.kind) == ("holds", "proved"), v.evidence.summary
+    assert v.evidence.details["index"] == "x1 + x2**2"
     assert v.evidence.details["direction_field"] == ["1", "2*x2"]
 
 
@@ -298,7 +313,7 @@ def test_csv_header_is_checked_when_the_file_is_loaded(tmp_path):
         costcheck.load(tmp_path / "m.yaml")
 
 
-def test_index_with_two_components_for_n_three_m_two():
+def test_index_with_two_components_for_n_three_m_two(patient_index_search):
     # c = -(y1·(x1 + x2) + y2·x3 + y1²·y2) = b(I(x), y) with I = (x1 + x2, x3) (the index form of
     # Chiappori–McCann–Pass 2017 / Pass 2012 with m = 2); D_y c at a frozen y0 recovers I exactly.
     cost = costcheck.from_expression("-(y1*(x1+x2) + y2*x3 + y1**2*y2)", x=["x1", "x2", "x3"], y=["y1", "y2"],
@@ -331,3 +346,36 @@ def test_nested_command_on_a_file_it_cannot_run_on_is_bad_input(tmp_path, capsys
     assert main(["nested", str(path)]) == 2
     err = capsys.readouterr().err.strip().splitlines()
     assert len(err) == 1 and f"field '{field}'" in err[0] and "nested command cannot run" in err[0]
+
+
+def test_a_density_may_use_the_sides_coordinates_and_the_params(tmp_path):
+    # what the schema's description of data.*.density promises (it once said "a constant expression")
+    from costcheck.spec.loader import build_cost
+    from costcheck.spec.schema import DATA_SIDE_SCHEMA
+
+    assert "constant" not in DATA_SIDE_SCHEMA["properties"]["density"]["description"]
+    spec = {"id": "t", "x": ["x1", "x2"], "y": ["y"], "params": {"a": 2}, "expr": "x1*y",
+            "domain": {"x": UNIT_SQUARE, "y": {"box": [[0, 1]]}},
+            "data": {"source": {"density": "a*x1 + x2**2"}, "target": {"density": 3}}}
+    data = build_cost(spec, file=str(tmp_path / "t.yaml")).data
+    x1, x2 = sorted(data.source.density.free_symbols, key=str)
+    assert float(data.source.density.subs({x1: 0.5, x2: 1.0})) == 2 and float(data.target.density) == 3
+
+
+def test_weights_and_densities_are_normalised_so_only_their_shape_matters(tmp_path):
+    # what docs/cost-files.md#data-and-normalisation says the code computes: weights / Σw, and a
+    # density divided by its midpoint-rule integral on the domain
+    rng = np.random.default_rng(4)
+    X, w = rng.uniform(0, 1, size=(300, 2)), rng.uniform(0.5, 2, size=300)
+    cost = surplus("y*x2 + y**2/2*x1", ["x1", "x2"], ["y"], [[0, 1], [0, 1]], [[0, 1]])
+    (y,) = cost.y_symbols
+    (tmp_path / "a").mkdir()
+    one = analyse(cost, points(tmp_path / "a", "source", ["x1", "x2"], X, w), density("target", "1 + y", [y]),
+                  with_map=False)
+    seven = analyse(cost, points(tmp_path, "source", ["x1", "x2"], X, 7 * w), density("target", "7 + 7*y", [y]),
+                    with_map=False)
+    assert one.source.weights.sum() == pytest.approx(1.0, abs=1e-12)
+    np.testing.assert_allclose(seven.source.weights, one.source.weights, rtol=1e-12)
+    np.testing.assert_allclose(seven.levels.k, one.levels.k, rtol=1e-12)
+    assert one.target.G(np.array([1.0]))[0] == 1.0
+    assert one.target.G(np.array([0.5]))[0] == pytest.approx((0.5 + 0.125) / 1.5, abs=1e-6)  # ∫₀^½ (1+y) / ∫₀¹

@@ -131,6 +131,7 @@ def _build_parser() -> argparse.ArgumentParser:
                        help="also write every picture of each cost (PNG and SVG) into DIR/<cost id>/")
     for command in (check, report):
         _add_check_options(command, REGISTRY, DEFAULT_SEED, DEFAULT_BUDGET)
+        check_command.add_level_options(command, _whole)
 
     explain = sub.add_parser("explain", help="explain a condition, a code or a term (the entry of docs/)")
     explain.add_argument("name", nargs="?", metavar="CONDITION|CODE", help="e.g. mtw, mtw-fails, sampled; none: list all")
@@ -146,7 +147,7 @@ def _build_parser() -> argparse.ArgumentParser:
     tensor.add_argument("file", metavar="FILE")
     tensor.add_argument("--latex", action="store_true", help="print LaTeX instead of plain text")
     tensor.add_argument("--json", action="store_true")
-    from ..defaults import MAX_LEVELS, MAX_STAGE_SECONDS, MAX_WORKERS
+    from ..defaults import MAX_STAGE_SECONDS, MAX_WORKERS
     tensor.add_argument("--simplify-seconds", type=_real(0.0, MAX_STAGE_SECONDS, allow_low=True, what=" seconds"),
                         default=10.0,
                         help="time allowed for factoring the expressions, in total (default 10; 0 skips it)")
@@ -174,7 +175,6 @@ def _build_parser() -> argparse.ArgumentParser:
     sweep.add_argument("--plots", metavar="DIR", default=None, help="write PNG and SVG pictures into DIR")
     sweep.add_argument("--quiet", action="store_true", help="no progress on stderr")
 
-    from ..defaults import DEFAULT_LEVELS
     nested = sub.add_parser("nested", help="decide nestedness of a model with a one-dimensional target (m = 1) "
                             "on its data, and build the matching map")
     nested.add_argument("file", metavar="FILE")
@@ -183,10 +183,10 @@ def _build_parser() -> argparse.ArgumentParser:
     nested.add_argument("--target", metavar="CSV", default=None,
                         help="weighted target points (columns: the y name, optional weight) instead of the file's data")
     nested.add_argument("--at", metavar="CSV", default=None, help="evaluate the map T at the points of this CSV")
-    nested.add_argument("--levels", type=_whole(1, MAX_LEVELS, " levels"), default=DEFAULT_LEVELS,
-                        help=f"levels of y on which k(y) is computed (default {DEFAULT_LEVELS})")
+    check_command.add_level_options(nested, _whole)
     nested.add_argument("--out", metavar="DIR", default=None,
-                        help="write nested.json, levels.csv (k(y)) and the map as CSV into DIR")
+                        help="write nested.json, levels.csv (k(y)), map-on-source.csv (T with each point's mass) "
+                             "and, with --at, map-at.csv into DIR")
     nested.add_argument("--json", action="store_true", help="print one JSON document instead of text")
     nested.add_argument("--plots", metavar="DIR", default=None, help="write PNG and SVG pictures into DIR")
     sweep.add_argument("--no-cache", action="store_true",

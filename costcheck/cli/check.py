@@ -32,6 +32,18 @@ def add_view_options(command) -> None:
                          help="show only conditions that fail, are undecided or miss their expectation")
 
 
+def add_level_options(command, whole) -> None:
+    """Nestedness's ``--levels`` and ``--grid`` (``check``, ``report`` and ``nested`` alike); ``whole``
+    makes the argparse type of a whole number in a range."""
+    from ..defaults import DEFAULT_LEVELS, MAX_GRID, MAX_LEVELS
+
+    command.add_argument("--levels", type=whole(2, MAX_LEVELS, " levels"), default=DEFAULT_LEVELS, metavar="N",
+                         help=f"nestedness: levels of y on which k(y) is computed (default {DEFAULT_LEVELS})")
+    command.add_argument("--grid", type=whole(2, MAX_GRID, " cells per axis"), default=None, metavar="N",
+                         help="nestedness: midpoint-rule cells per axis for a source density (default: about "
+                              "40,000 nodes in all, 200 × 200 in two dimensions)")
+
+
 def run_options(args) -> dict:
     """The options handed to ``run_checks``: all of ``check``'s options but the output-only ones."""
     options = {k: v for k, v in vars(args).items() if k not in OUTPUT_ONLY_OPTIONS}
@@ -109,7 +121,7 @@ def cmd_check(args, out: Console, err: Console) -> int:
     if args.json:
         from ..render import json_out
         options = {"seed": args.seed, "budget": args.budget, "backend": args.backend, "only": args.only,
-                   "prove": run_options(args)["prove"]}
+                   "prove": run_options(args)["prove"], "levels": args.levels, "grid": args.grid}
         print(json_out.run_to_json(result.reports, result.errors, options, code))
     else:
         view.summary(result.reports, result.errors)

@@ -31,7 +31,7 @@ def run(args) -> tuple[dict, object, list[str]]:
     if reason:
         raise CostFileError(f"the nested command cannot run: {reason}", file=cost.file,
                             field="y" if cost.m != 1 else "data")
-    result = analyse(cost, source, target, levels=args.levels)
+    result = analyse(cost, source, target, levels=args.levels, grid=args.grid)
     verdict = result.verdict
     check = verdict.to_json(cost.x_names, cost.y_names)
     check["summary"] = result.summary
@@ -60,9 +60,11 @@ def run(args) -> tuple[dict, object, list[str]]:
         if result.levels is not None:
             write_levels_csv(out / "levels.csv", cost.y_names[0], result.levels)
             written.append(str(out / "levels.csv"))
-        if result.map_on_source is not None and result.source.kind == "points":
+        if result.map_on_source is not None:
+            # T at every source point, or at every node of a source density's midpoint rule, with the
+            # (normalised) mass each carries: the map the README promises, with or without --at
             write_map_csv(out / "map-on-source.csv", cost.x_names, cost.y_names[0], result.source.points,
-                          result.map_on_source)
+                          result.map_on_source, weights=result.source.weights)
             written.append(str(out / "map-on-source.csv"))
         if at_values is not None:
             write_map_csv(out / "map-at.csv", cost.x_names, cost.y_names[0], *at_values)

@@ -11,6 +11,7 @@ from functools import cached_property
 
 import numpy as np
 
+from ..defaults import DEFAULT_LEVELS
 from ..derivatives.fields import Derivatives, Evaluator
 from ..derivatives.mp_backend import HighPrecision, high_precision
 from ..model.cost import Cost
@@ -24,6 +25,9 @@ class CheckContext:
     seed: int
     budget: int
     backend: str = "sympy"
+    #: nestedness: levels of y, and cells per axis of a source density (None: the default rule)
+    levels: int = DEFAULT_LEVELS
+    grid: int | None = None
     #: evaluators by derivative order, built on first use
     _evaluators: dict = field(default_factory=dict, repr=False)
     #: ``(mpmath evaluator or None, reason)`` by derivative order, tried on first use

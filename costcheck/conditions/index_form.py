@@ -89,8 +89,11 @@ def _y0_candidates(cost) -> list[list[sp.Expr]]:
     return points[:4]
 
 
-def symbolic_index(cost, seconds: float = SYMBOLIC_SECONDS) -> tuple[str, dict | None]:
-    """Run :func:`index_symbolic.find_index` under a time limit: ``(status, result)``."""
+def symbolic_index(cost, seconds: float | None = None) -> tuple[str, dict | None]:
+    """Run :func:`index_symbolic.find_index` under a time limit (:data:`SYMBOLIC_SECONDS`, read at
+    call time): ``(status, result)``.  The limit is wall time, so on a loaded machine a search that
+    takes 3 s alone can run out and the verdict honestly falls back to sampled evidence."""
+    seconds = SYMBOLIC_SECONDS if seconds is None else seconds
     if cost.expr is None:
         return "no symbolic form", None
     y0s = _y0_candidates(cost)

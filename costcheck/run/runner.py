@@ -31,13 +31,16 @@ def run_checks(
     conditions: Sequence[str] | None = None,
     on_progress: Callable[[str], None] | None = None,
     prove=None,
+    levels: int = defaults.DEFAULT_LEVELS,
+    grid: int | None = None,
 ) -> CostReport:
     """All (or the named) condition checks of ``cost``, reproducible for a given ``seed``.
 
     Every failure witness goes through :func:`costcheck.certify.certify_refutation`; with
     ``prove`` (a :class:`costcheck.certify.ProofOptions`, a dict of its fields, or True for the
     defaults) sampled "holds" verdicts are also
-    offered to :func:`costcheck.certify.strengthen`.
+    offered to :func:`costcheck.certify.strengthen`.  ``levels`` and ``grid`` are nestedness's
+    (levels of ``y``; cells per axis of a source density, None for the default rule).
     """
     from ..certify import ProofOptions, certify_refutation, strengthen
     from ..conditions.context import CheckContext
@@ -51,7 +54,7 @@ def run_checks(
         prove = None
 
     started = time.perf_counter()
-    ctx = CheckContext(cost=cost, seed=seed, budget=budget, backend=backend)
+    ctx = CheckContext(cost=cost, seed=seed, budget=budget, backend=backend, levels=levels, grid=grid)
     # an empty domain, or a cost undefined on all of it, is a mistake in the file (exit status 2);
     # finding out builds and evaluates the shared derivatives, a stage the file's expression
     # can make arbitrarily slow: bounded, and past the bound nothing is decided
@@ -93,6 +96,8 @@ def run_checks(
         verdicts[name] = verdict
         ctx.verdicts[name] = verdict
     options = {"budget": budget, "seed": seed, "backend": backend}
+    if cost.data is not None:  # only where they reach a check
+        options.update(levels=levels, grid=grid)
     if prove is not None:
         options["prove"] = prove.to_json()
     return CostReport(cost, verdicts, time.perf_counter() - started, options)

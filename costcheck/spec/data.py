@@ -39,6 +39,8 @@ class SideSpec:
     written: str = ""
     #: where it came from, for error messages: the cost file's field or the command-line option
     origin: str = ""
+    #: points: "sample", "grid", or None (a file whose points fill a regular grid is read as a grid)
+    layout: str | None = None
 
     def describe(self) -> str:
         return f"density {self.written}" if self.kind == "density" else f"weighted points from {self.path}"
@@ -65,7 +67,8 @@ def parse_data_spec(raw: Mapping, x_symbols: Sequence[sp.Symbol], y_symbols: Seq
         else:
             base = Path(file).parent if file else Path.cwd()
             names = [str(v) for v in symbols]
-            sides[role] = points_side(role, base / entry["points"], file, f"{field}.points", names)
+            sides[role] = points_side(role, base / entry["points"], file, f"{field}.points", names,
+                                      layout=entry.get("layout"))
     return DataSpec(sides.get("source"), sides.get("target"), str(raw.get("notes", "")))
 
 
@@ -84,7 +87,8 @@ def density_side(role: str, text, symbols: Sequence[sp.Symbol], constants: Mappi
     return SideSpec(role, "density", density=expr, written=str(text), origin=field)
 
 
-def points_side(role: str, path: Path, file: str | None, field: str, names: Sequence[str] | None = None) -> SideSpec:
+def points_side(role: str, path: Path, file: str | None, field: str, names: Sequence[str] | None = None,
+                layout: str | None = None) -> SideSpec:
     """A CSV side; its header is checked now (cheap), its rows when the points are needed."""
     if not os.path.lexists(path):
         raise CostFileError(f"no such CSV file: {path}", file=file, field=field)
@@ -105,7 +109,7 @@ def points_side(role: str, path: Path, file: str | None, field: str, names: Sequ
         except csv.Error as exc:
             raise CostFileError(f"unreadable CSV ({exc})", file=str(path)) from None
         _check_header([h.strip() for h in header], names, str(path))
-    return SideSpec(role, "points", path=path, written=str(path), origin=field)
+    return SideSpec(role, "points", path=path, written=str(path), origin=field, layout=layout)
 
 
 def _check_header(header: list[str], names: Sequence[str], label: str) -> None:

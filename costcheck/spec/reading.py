@@ -143,8 +143,10 @@ def _plain_message(error: jsonschema.ValidationError, path: list) -> str:
         return error.message.replace("is a required property", "is missing (it is required)")
     if kind in ("minProperties", "maxProperties") and path and path[-1] in ("x", "y"):
         return "give exactly one of 'box' or 'ball'"
-    if kind in ("minProperties", "maxProperties") and path[:1] == ["data"] and len(path) == 2:
+    if kind in ("minProperties", "maxProperties", "not") and path[:1] == ["data"] and len(path) == 2:
         return "give exactly one of 'density' or 'points'"
+    if kind == "dependentRequired" and path[:1] == ["data"]:
+        return "'layout' says how CSV points are laid out: it goes with 'points', not alone or with 'density'"
     if kind == "minProperties":
         return "must not be empty"
     if kind == "pattern" and path[:1] == ["data"] and path[-1] == "points":

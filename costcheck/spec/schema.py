@@ -69,13 +69,28 @@ _constraints = {"type": "array", "items": {"type": "string", "minLength": 1}}
 DATA_SIDE_SCHEMA = _data_side = {
     "type": "object",
     "description": "exactly one of: density (an expression in this side's coordinate names, on its domain) or "
-                   "points (a CSV file, path relative to the cost file: a column per coordinate, optional 'weight')",
+                   "points (a CSV file, path relative to the cost file: a column per coordinate, optional 'weight'), "
+                   "with points optionally their layout",
     "properties": {
-        "density": _number_or_expression,
+        "density": {
+            "description": "an expression in this side's coordinate names (and the file's params), or a "
+                           "number for a uniform density, e.g. '1.5 - rung' or 'exp(-x1**2 - x2**2)': finite and "
+                           ">= 0 on the side's domain; it need not integrate to one (it is normalised to total "
+                           "mass 1 on the domain)",
+            "anyOf": [{"type": "number"}, {"type": "string", "minLength": 1}],
+        },
         "points": {"type": "string", "minLength": 1, "pattern": r"\.csv" + END},
+        "layout": {
+            "description": "how the CSV points are laid out: 'sample' (an independent sample of the distribution) or "
+                           "'grid' (the nodes of a regular grid, each weight the mass of its cell, integrated as a "
+                           "midpoint rule); without it a file whose points fill a regular grid is read as a grid",
+            "enum": ["sample", "grid"],
+        },
     },
     "minProperties": 1,
-    "maxProperties": 1,
+    "maxProperties": 2,
+    "not": {"required": ["density", "points"]},
+    "dependentRequired": {"layout": ["points"]},
     "additionalProperties": False,
 }
 

@@ -17,9 +17,9 @@ surplus ``s`` that is maximised; costcheck stores the cost ``c = -s`` it minimis
   ``X<(y', k-(y'))``: the level curves cross.
 
 Inside ``costcheck check`` the condition runs when the file carries ``data:`` (without both
-distributions it is ``not-applicable``), on a coarser grid of levels than ``costcheck nested``
-(which also builds the map), to keep a catalog check fast; the verdict's evidence says how many
-levels were used.
+distributions it is ``not-applicable``), on the same grid of levels as ``costcheck nested``
+(``--levels``, ``--grid`` for a source density; the defaults in :mod:`costcheck.defaults`) but
+without building the map; the verdict's evidence says how many levels were used.
 
 Modules: :mod:`.data` (the two distributions), :mod:`.levels` (``k±(y)`` on a grid),
 :mod:`.decide` (the verdict and its witness), :mod:`.map` (``T`` and the files it writes),
@@ -29,12 +29,10 @@ Modules: :mod:`.data` (the two distributions), :mod:`.levels` (``k±(y)`` on a g
 from __future__ import annotations
 
 CONDITION = "nested"
-#: levels of y in the catalog check (the nested command uses more)
-CHECK_LEVELS = 48
 
 
 def check(ctx):
-    """The nestedness verdict of ``ctx.cost`` on its data (no map)."""
+    """The nestedness verdict of ``ctx.cost`` on its data (no map), on ``ctx.levels`` and ``ctx.grid``."""
     from .analysis import analyse  # numpy and the levels only when the condition runs
 
-    return analyse(ctx.cost, levels=CHECK_LEVELS, with_map=False, evaluator=ctx.evaluator(2)).verdict
+    return analyse(ctx.cost, levels=ctx.levels, grid=ctx.grid, with_map=False, evaluator=ctx.evaluator(2)).verdict

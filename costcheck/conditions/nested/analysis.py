@@ -7,7 +7,7 @@ from dataclasses import dataclass, field
 
 import numpy as np
 
-from ...defaults import DEFAULT_LEVELS  # noqa: F401 - the default lives in a light module
+from ...defaults import DEFAULT_LEVELS, MAX_LEVEL_POINTS
 from ...errors import CostFileError
 from ...model.verdict import Verdict, not_applicable
 from ...spec.data import DataSpec, SideSpec
@@ -31,10 +31,22 @@ class NestedResult:
     seconds: dict = field(default_factory=dict)
 
 
-def source_measure(cost, side: SideSpec) -> measures.Measure:
+def source_measure(cost, side: SideSpec, grid: int | None = None) -> measures.Measure:
+    """The source as weighted points; ``grid`` is the density's cells per axis (None: the default rule)."""
     if side.kind == "points":
-        return measures.points_measure(side, cost.x_names, cost.domain.contains_x)
-    return measures.density_measure(side, cost.x_symbols, cost.domain.x, cost.domain.contains_x, cost.file)
+        return measures.points_measure(side, cost.x_names, cost.domain.contains_x, cost.file)
+    return measures.density_measure(side, cost.x_symbols, cost.domain.x, cost.domain.contains_x, cost.file,
+                                    per_axis=grid)
+
+
+def _refuse_oversized(cost, side: SideSpec, source: measures.Measure, levels: int) -> None:
+    """The mass balance holds (level, point) arrays: bound their size before they are made."""
+    if source.count * levels > MAX_LEVEL_POINTS:
+        what = "quadrature nodes" if side.kind == "density" else "points"
+        raise CostFileError(f"{levels} levels × {source.count:,} source {what} = {source.count * levels:,} "
+                            f"(level, point) pairs, at most {MAX_LEVEL_POINTS:,} (memory); lower --levels"
+                            + (" or --grid" if side.kind == "density" else ""),
+                            file=cost.file if side.kind == "density" else str(side.path), field=side.origin or None)
 
 
 def target_distribution(cost, side: SideSpec) -> measures.Distribution1D:
@@ -60,15 +72,16 @@ def applicable(cost, source, target) -> str | None:
     return None
 
 
-def analyse(cost, source_side=None, target_side=None, *, levels: int = DEFAULT_LEVELS, with_map: bool = True,
-            evaluator=None) -> NestedResult:
+def analyse(cost, source_side=None, target_side=None, *, levels: int = DEFAULT_LEVELS, grid: int | None = None,
+            with_map: bool = True, evaluator=None) -> NestedResult:
     source_side, target_side = sides_of(cost, source_side, target_side)
     reason = applicable(cost, source_side, target_side)
     if reason:
         return NestedResult(cost, not_applicable(CONDITION, reason))
     started = time.perf_counter()
     seconds = {}
-    source = source_measure(cost, source_side)
+    source = source_measure(cost, source_side, grid)
+    _refuse_oversized(cost, source_side, source, levels)
     target = target_distribution(cost, target_side)
     seconds["read_data"] = time.perf_counter() - started
     evaluator = evaluator or cost.derivatives(backend="sympy", order=2)

@@ -84,12 +84,15 @@ def write_levels_csv(path: Path, y_name: str, levels: Levels) -> None:
             out.writerow([repr(float(v)) for v in row])
 
 
-def write_map_csv(path: Path, x_names, y_name: str, points: np.ndarray, T: np.ndarray) -> None:
+def write_map_csv(path: Path, x_names, y_name: str, points: np.ndarray, T: np.ndarray,
+                  weights: np.ndarray | None = None) -> None:
+    """``x names, y name`` per row (``T`` at the point), and the point's mass in a ``weight`` column if given."""
     with Path(path).open("w", newline="") as handle:
         out = csv.writer(handle)
-        out.writerow(list(x_names) + [y_name])
-        for p, t in zip(points, T):
-            out.writerow([repr(float(v)) for v in p] + [repr(float(t))])
+        out.writerow(list(x_names) + [y_name] + (["weight"] if weights is not None else []))
+        for i, (p, t) in enumerate(zip(points, T)):
+            out.writerow([repr(float(v)) for v in p] + [repr(float(t))]
+                         + ([repr(float(weights[i]))] if weights is not None else []))
 
 
 def write_json(path: Path, document: dict) -> None:

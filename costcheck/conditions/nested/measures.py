@@ -19,8 +19,10 @@ from typing import Sequence
 import numpy as np
 import sympy as sp
 
+from ...defaults import MAX_DENSITY_NODES
 from ...errors import CostFileError
 from ...spec.data import SideSpec, read_points
+from .grid import cell_edges, grid_spacing
 
 #: quadrature nodes for a source density (split evenly over the axes)
 QUADRATURE_NODES = 40_000
@@ -59,7 +61,8 @@ class Measure:
 
 # --------------------------------------------------------------------------- measures
 
-def points_measure(side: SideSpec, names: Sequence[str], contains) -> Measure:
+def points_measure(side: SideSpec, names: Sequence[str], contains, file: str | None = None) -> Measure:
+    """Weighted points, normalised; a regular grid of them (:mod:`.grid`) as the nodes of a midpoint rule."""
     coords, weights, line = read_points(side.path, names)
     inside = contains(coords)
     if not inside.all():
@@ -67,6 +70,13 @@ def points_measure(side: SideSpec, names: Sequence[str], contains) -> Measure:
         raise CostFileError(f"row {line[r]}: the point ({', '.join(f'{n}={v:g}' for n, v in zip(names, coords[r]))}) "
                             f"lies outside the {side.role}'s domain declared in the cost file; widen the domain or "
                             "drop the row", file=str(side.path))
+    layout_field = side.origin.rsplit(".", 1)[0] + ".layout" if side.origin.startswith("data.") else None
+    spacing = grid_spacing(coords, side.layout, file or str(side.path), layout_field)
+    if spacing is not None:
+        return Measure(coords, weights / weights.sum(), "quadrature",
+                       f"{coords.shape[0]} weighted points from {side.path} on a regular grid (spacing "
+                       f"{', '.join(f'{h:.4g}' for h in spacing)}), each weight its cell's mass: a midpoint rule",
+                       cell=spacing)
     return Measure(coords, weights / weights.sum(), "points",
                    f"{coords.shape[0]} weighted points from {side.path}")
 
@@ -87,11 +97,20 @@ def _density_values(side: SideSpec, symbols: Sequence[sp.Symbol], nodes: np.ndar
 
 
 def density_measure(side: SideSpec, symbols: Sequence[sp.Symbol], region, contains, file: str | None,
-                    nodes_total: int = QUADRATURE_NODES) -> Measure:
-    """Midpoint-rule nodes on the region's bounding box, weighted by the density, masked by the domain."""
+                    nodes_total: int = QUADRATURE_NODES, per_axis: int | None = None) -> Measure:
+    """Midpoint-rule nodes on the region's bounding box, weighted by the density, masked by the domain.
+
+    ``per_axis`` cells per axis (``--grid``), or by default about ``nodes_total`` nodes split evenly
+    over the axes; a grid of more than :data:`~costcheck.defaults.MAX_DENSITY_NODES` is refused
+    before it is built."""
     lo, hi = region.bounds()
     dim = lo.shape[0]
-    per_axis = int(np.clip(round(nodes_total ** (1.0 / dim)), 8, MAX_NODES_PER_AXIS))
+    if per_axis is None:
+        per_axis = int(np.clip(round(nodes_total ** (1.0 / dim)), 8, MAX_NODES_PER_AXIS))
+    elif per_axis**dim > MAX_DENSITY_NODES:
+        raise CostFileError(f"--grid {per_axis} gives {per_axis}^{dim} = {per_axis**dim:,} quadrature nodes for the "
+                            f"{side.role} density, at most {MAX_DENSITY_NODES:,} (memory); lower --grid",
+                            file=file, field=side.origin or None)
     cell = (hi - lo) / per_axis
     axes = [lo[k] + (np.arange(per_axis) + 0.5) * cell[k] for k in range(dim)]
     nodes = np.stack([g.ravel() for g in np.meshgrid(*axes, indexing="ij")], axis=1)
@@ -177,8 +196,11 @@ class Distribution1D:
 def target_distribution(side: SideSpec, name: str, symbol: sp.Symbol, region, contains, file: str | None) -> Distribution1D:
     lo, hi = (float(v[0]) for v in region.bounds())
     if side.kind == "points":
-        measure = points_measure(side, [name], contains)
+        measure = points_measure(side, [name], contains, file)
         y = measure.points[:, 0]
+        if measure.kind == "quadrature":  # a grid: each node's mass spread over its cell
+            knots, cdf = cell_edges(y, measure.weights, float(measure.cell[0]), lo, hi)
+            return Distribution1D(lo, hi, knots, cdf, "density", measure.description, measure.count)
         order = np.argsort(y, kind="stable")
         ys, ws = y[order], measure.weights[order]
         knots, start = np.unique(ys, return_index=True)

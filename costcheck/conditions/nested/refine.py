@@ -16,7 +16,8 @@ A candidate ``(x, y, y')`` is then
 - **cleared** when it is not a crossing of the refined central levels;
 - **pending** otherwise — after the finest factor, the verdict is *undecided* and says so.
 
-Weighted points are a fixed sample: no finer sample can be taken, so candidates stay pending.
+Weighted points are a fixed sample (or a fixed grid, :mod:`.grid`): no finer sample can be taken, so
+candidates stay pending.
 (Chiappori–McCann–Pass, Comm. Pure Appl. Math. 70, 2017, for the nestedness conditions.)
 """
 
@@ -129,8 +130,10 @@ def settle(evaluator, domain, levels, source) -> Outcome:
         return outcome
     if source.subdivide is None:
         outcome.pending = candidates
-        outcome.reason = ("the source is a fixed set of weighted points, so no finer sample can be taken and the "
-                          "sampling band cannot be narrowed")
+        outcome.reason = ("the source is a fixed grid of weighted points, so no finer grid can be taken and the "
+                          "band of the cells the level curves cross cannot be narrowed" if source.kind == "quadrature"
+                          else "the source is a fixed set of weighted points, so no finer sample can be taken and "
+                          "the sampling band cannot be narrowed")
         return outcome
     chosen, used = [], set()
     for c in candidates:

@@ -181,6 +181,8 @@ def cost_section(report, figures: list[FigureRef]) -> CostSection:
 def _option_words(key: str, value) -> str:
     if key == "prove":
         return "proofs not asked for (samples only)" if value is None else f"proofs: {value}"
+    if key == "grid":  # nestedness's density grid: None is the default rule, not "all"
+        return f"density grid = {'default' if value is None else f'{value} per axis'}"
     return f"{key} = {'all' if value is None else value}"
 
 
