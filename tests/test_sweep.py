@@ -244,3 +244,17 @@ def test_a_sweep_where_no_value_can_be_checked_is_bad_input(tmp_path, capsys):
     assert code == 2 and json.loads(captured.out)["summary"]["exit_code"] == 2
     lines = captured.err.strip().splitlines()
     assert len(lines) == 1 and "no parameter value could be checked" in lines[0] and "p = 1" in lines[0]
+
+
+def test_terminal_view_is_a_plain_grid_in_80_columns(capsys):
+    code = main(["sweep", POWER, "--vary", "p=1.9,2.0,2.1", "--only", "mtw", "--only", "twist", "--budget", "64",
+                 "--workers", "1", "--no-bisect", "--quick", "--no-cache"])
+    lines = capsys.readouterr().out.splitlines()
+    assert code == 0
+    assert not any(ch in "".join(lines) for ch in "┃━│─┏┡└╇"), "no library box drawing"
+    assert max(len(line) for line in lines) <= 80
+    head = lines.index(next(line for line in lines if line.split()[:1] == ["p"]))
+    assert lines[head].split() == ["p", "mtw", "twist"]
+    rows = [line.split() for line in lines[head + 1:head + 4]]
+    assert [r[0] for r in rows] == ["1.9", "2", "2.1"] and rows[1][1] == "weak"  # S ≡ 0 at p = 2 (MTW 2005)
+    assert lines[-1].startswith("3 values, 2 boundaries")

@@ -1,10 +1,10 @@
-"""Terminal tables (rich) and the JSON document of a sweep."""
+"""The terminal view of a sweep (a plain aligned grid of our own, then one line per boundary) and its JSON document."""
 
 from __future__ import annotations
 
 import json
 
-from rich.table import Table
+from rich.text import Text
 
 from .. import __version__
 from ..render.json_out import clean_json
@@ -17,42 +17,62 @@ def _fmt(v):
     return "—" if v is None else f"{v:.3g}"
 
 
+def _grid(console, heads: list[str], rows: list[list[str]], styles: list[list[str]], right: int = 0) -> None:
+    """A plain aligned grid: a bold heading line, then one line per row, two spaces between columns.
+
+    The first ``right`` columns (parameter values) are right-aligned; ``styles`` colours cells.
+    """
+    widths = [max([len(h)] + [len(r[i]) for r in rows]) for i, h in enumerate(heads)]
+
+    def line(cells, cell_styles, bold=False):
+        text = Text(style="bold" if bold else "")
+        for i, (cell, width) in enumerate(zip(cells, widths)):
+            if i:
+                text.append("  ")
+            padded = cell.rjust(width) if i < right else cell.ljust(width)
+            text.append(padded, style=cell_styles[i] if cell_styles else "")
+        text.rstrip()
+        console.print(text, no_wrap=True, overflow="ignore", crop=False, soft_wrap=True)
+
+    line(heads, None, bold=True)
+    for cells, cell_styles in zip(rows, styles):
+        line(cells, cell_styles)
+
+
 def render(console, result) -> None:
     names = [a.name for a in result.axes]
-    table = Table(title=f"sweep of {result.file}", show_lines=False)
-    for n in names:
-        table.add_column(n, justify="right")
-    for c in result.conditions:
-        table.add_column(c)
+    console.print(Text(f"sweep of {result.file}", style="bold"))
+    rows, styles = [], []
     for p, r in zip(result.points, result.results):
-        cells = [f"{p[n]:g}" for n in names]
-        for c in result.conditions:
-            v = r[c]["verdict"]
-            cells.append(f"[{COLOUR.get(v, 'white')}]{v}[/]")
-        table.add_row(*cells)
-    console.print(table)
+        verdicts = [r[c]["verdict"] for c in result.conditions]
+        rows.append([f"{p[n]:g}" for n in names] + verdicts)
+        styles.append([""] * len(names) + [COLOUR.get(v, "") for v in verdicts])
+    _grid(console, names + list(result.conditions), rows, styles, right=len(names))
     if result.boundaries:
         rb = result.options.get("recheck_budget")
-        bt = Table(title=f"boundaries (bisected to tolerance {result.options['tolerance']:g}; both sides "
-                         f"re-checked at budget {rb})")
-        two = len(result.axes) > 1
-        for col in (("condition",) + (("fixed",) if two else ())
-                    + ("interval [a, b]", "verdict at a → b", "value at a", "value at b", "where (x; y)")):
-            bt.add_column(col)
+        console.print(Text(f"boundaries (bisected to width {result.options['tolerance']:g}; both sides "
+                           f"re-checked at budget {rb})", style="bold"))
         for b in result.boundaries:
-            fixed = (", ".join(f"{k}={v:g}" for k, v in b["fixed"].items()),) if two else ()
-            bt.add_row(b["condition"], *fixed, f"{b['parameter']} ∈ [{b['interval'][0]:.6g}, {b['interval'][1]:.6g}]",
-                       f"{b['from']} → {b['to']}", _fmt(b["left"]["value"]), _fmt(b["right"]["value"]), _where(b))
-        console.print(bt)
+            fixed = "".join(f", {k}={v:g}" for k, v in b["fixed"].items())
+            line = Text(f"  {b['condition']}: {b['parameter']} ∈ [{b['interval'][0]:.6g}, {b['interval'][1]:.6g}]"
+                        f"{fixed}  ")
+            line.append(b["from"], style=COLOUR.get(b["from"], ""))
+            line.append(" → ")
+            line.append(b["to"], style=COLOUR.get(b["to"], ""))
+            line.append(f"  (value {_fmt(b['left']['value'])} → {_fmt(b['right']['value'])})")
+            console.print(line, no_wrap=True, overflow="ignore", crop=False, soft_wrap=True)
+            where = _where(b)
+            if where != "—":
+                console.print(f"    where {where}", markup=False, highlight=False)
     for iso in result.isolated:
         at = "".join(f", {k}={v:g}" for k, v in iso["fixed"].items())
         console.print(f"isolated: {iso['condition']} is {iso['verdict']} at {iso['parameter']}={iso['value']:g}{at} "
-                      f"only (neighbours: {' / '.join(iso['neighbours'])})", markup=False)
+                      f"only (neighbours: {' / '.join(iso['neighbours'])})", markup=False, highlight=False)
     for u in result.unstable:
-        console.print(_unstable(u, result.options["budget"]), markup=False)
+        console.print(_unstable(u, result.options["budget"]), markup=False, highlight=False)
     console.print(f"{len(result.points)} values, {len(result.boundaries)} boundaries, "
                   f"{len(result.isolated)} isolated values, {len(result.unstable)} unstable changes, "
-                  f"{result.seconds:.1f} s", markup=False)
+                  f"{result.seconds:.1f} s", markup=False, highlight=False)
 
 
 def _unstable(u, budget) -> str:
