@@ -210,6 +210,9 @@ def _cmd_nested(args, out: Console) -> int:
 
 _error = check_command.error_line
 
+#: the commands whose work a cost file decides: their process gets the memory bound of run.memory
+MEMORY_BOUND_COMMANDS = {"check", "report", "sweep", "nested", "tensor", "show"}
+
 
 def main(argv: Sequence[str] | None = None) -> int:
     """The command line; an exception nobody expected becomes one line and exit status 3."""
@@ -263,6 +266,9 @@ def _main(argv: Sequence[str] | None = None) -> int:
     err = Console(stderr=True, highlight=False)
     parser = _build_parser()
     args = parser.parse_args(argv)
+    if argv is None and args.command in MEMORY_BOUND_COMMANDS:  # the process is the command (not a test)
+        from ..run.memory import bound_memory
+        bound_memory()
     if args.command is None:
         parser.print_help()
         return EXIT_BAD_INPUT

@@ -175,10 +175,14 @@ def check_one(
     hit = cached_report(data, file, run_options, cache=cache, full_cost=full_cost, param_overrides=param_overrides)
     if hit is not None:
         return hit, True
-    cost = build_full_cost(data, file, param_overrides)
+    from .memory import memory_bound_mb, out_of_memory_message
     from .runner import run_checks
-    with progress(cost.id) if progress else nullcontext() as on_progress:
-        report = run_checks(cost, **run_options, on_progress=on_progress)
+    try:
+        cost = build_full_cost(data, file, param_overrides)
+        with progress(cost.id) if progress else nullcontext() as on_progress:
+            report = run_checks(cost, **run_options, on_progress=on_progress)
+    except MemoryError:  # past the process's bound (run.memory): this file, not the whole run
+        raise CostFileError(out_of_memory_message(memory_bound_mb()), file=file) from None
     if cache is not None:
         cache.put(cache_key(normalised_data(data, param_overrides), key_options(run_options)), report)
     return report, False

@@ -48,14 +48,17 @@ def checked_in_worker(data: Mapping, file: str | None, run_options: Mapping):
     Module-level, so a spawned worker can find it by name.
     """
     from ..spec.loader import build_cost
+    from .memory import memory_bound_mb, out_of_memory_message
     from .runner import run_checks
 
     try:
         cost = build_cost(data, file)
+        report = run_checks(cost, **run_options)
     except CostFileError as exc:
         # an exception with keyword fields does not survive pickling: send its parts
         return ("refused", exc.message, exc.file, exc.field)
-    report = run_checks(cost, **run_options)
+    except MemoryError:  # past the bound the worker inherited (run.memory)
+        return ("refused", out_of_memory_message(memory_bound_mb()), file, None)
     try:
         verdicts = {name: v.to_json(cost.x_names, cost.y_names) for name, v in report.verdicts.items()}
     except (TypeError, ValueError):
