@@ -13,6 +13,7 @@ from __future__ import annotations
 
 import errno
 import os
+import re
 import stat
 from functools import lru_cache
 from pathlib import Path
@@ -71,7 +72,48 @@ class _StrictSafeLoader(yaml.SafeLoader):
         return super().construct_mapping(node, deep=deep)
 
 
+# C0 controls but tab and newline, DEL, C1 controls: an escape sequence in a title would reach
+# the terminal raw (rich prints them as given) and can clear or rewrite the screen
+_CONTROL = re.compile("[\x00-\x08\x0b-\x1f\x7f-\x9f]")
+# a lone surrogate ("\ud800" in a double-quoted string) is text no UTF-8 output can hold
+_SURROGATE = re.compile("[\ud800-\udfff]")
+
+
+def _check_text(data: Any, file: str | None, path: tuple = ()) -> None:
+    """Refuse control characters and lone surrogates in every key and string of the document."""
+    stack = [(data, path)]
+    while stack:  # iterative: a deeply nested document cannot overflow the stack here
+        value, where = stack.pop()
+        if isinstance(value, dict):
+            for key, item in value.items():
+                _check_string(key, file, where, key=True)
+                stack.append((item, where + (key,)))
+        elif isinstance(value, list):
+            stack.extend((item, where + (k,)) for k, item in enumerate(value))
+        else:
+            _check_string(value, file, where)
+
+
+def _check_string(value: Any, file: str | None, where: tuple, key: bool = False) -> None:
+    if not isinstance(value, str):
+        return
+    for pattern, what in ((_SURROGATE, "a lone surrogate"), (_CONTROL, "the control character")):
+        found = pattern.search(value)
+        if found:
+            code = repr(found.group())[1:-1]  # \x1b or \ud800, never the raw character
+            place = f"the key {_short(value)}" if key else "the text"
+            raise CostFileError(f"{place} contains {what} {code} (at character {found.start() + 1}); "
+                                f"cost files hold printable text only", file=file,
+                                field=_field_path(where) or None)
+
+
 def read_yaml(text: str, file: str | None = None) -> Any:
+    data = _load_yaml(text, file)
+    _check_text(data, file)
+    return data
+
+
+def _load_yaml(text: str, file: str | None) -> Any:
     try:
         return yaml.load(text, Loader=_StrictSafeLoader)  # noqa: S506 - a SafeLoader subclass
     except yaml.MarkedYAMLError as exc:
@@ -131,6 +173,13 @@ def _short(value: Any, limit: int = 40) -> str:
     return text if len(text) <= limit else text[: limit - 1] + "…"
 
 
+def _did_you_mean(extra: list[str], allowed: list[str]) -> str:
+    import difflib
+
+    close = difflib.get_close_matches(extra[0], allowed, n=1, cutoff=0.6) if extra and len(extra[0]) <= 40 else []
+    return f" (did you mean {close[0]!r}?)" if close else ""
+
+
 def _plain_message(error: jsonschema.ValidationError, path: list) -> str:
     """One sentence a user can act on, instead of JSON Schema's own wording (which can quote a
     whole list back and says "is not valid under any of the given schemas")."""
@@ -138,11 +187,13 @@ def _plain_message(error: jsonschema.ValidationError, path: list) -> str:
     if kind == "additionalProperties":
         allowed = sorted(schema.get("properties", {}))
         extra = sorted(str(k) for k in set(instance) - set(allowed)) if isinstance(instance, dict) else []
-        return f"unknown key {_short(extra[0]) if extra else '?'}; allowed here: {', '.join(allowed)}"
+        return f"unknown key {_short(extra[0]) if extra else '?'}{_did_you_mean(extra, allowed)}; " \
+               f"allowed here: {', '.join(allowed)}"
     if kind == "required":
         return error.message.replace("is a required property", "is missing (it is required)")
     if kind in ("minProperties", "maxProperties") and path and path[-1] in ("x", "y"):
-        return "give exactly one of 'box' or 'ball'"
+        found = f" (found: {', '.join(_short(str(k)) for k in instance)})" if instance else ""
+        return f"give exactly one of 'box' or 'ball'{found}"
     if kind in ("minProperties", "maxProperties") and path[:1] == ["data"] and len(path) == 2:
         return "give exactly one of 'density' or 'points'"
     if kind == "minProperties":
@@ -271,7 +322,13 @@ def find_cost_files(paths) -> list[Path]:
     found: list[Path] = []
     for raw in paths:
         path = Path(raw)
-        if path.is_dir():
+        if "\0" in str(raw):
+            raise CostFileError("the path contains a NUL character", file=repr(str(raw))[1:-1][:200])
+        try:
+            is_dir = path.is_dir()
+        except OSError as exc:  # a name too long for the file system (is_dir lets ENAMETOOLONG through)
+            raise CostFileError(f"cannot read: {exc.strerror or exc}", file=str(path)) from None
+        if is_dir:
             found.extend(sorted(
                 p for p in path.rglob("*")
                 # not only regular files: a named pipe or a link loop called *.yaml is reported
