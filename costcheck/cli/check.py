@@ -16,10 +16,24 @@ OUTPUT_ONLY_OPTIONS = {"command", "paths", "json", "junit", "quiet", "no_cache",
                        "failures"}
 
 
-def error_line(problem) -> None:
-    """One line on stderr (never wrapped, never a traceback)."""
+#: an error line longer than this is cut: the messages quote the input, and a quoted 100 kB
+#: CSV cell or expression would not be a line a reader can use
+MAX_ERROR_CHARS = 600
+
+
+def one_line(problem) -> str:
+    """``problem`` as one printable line of at most :data:`MAX_ERROR_CHARS` characters."""
     text = " ".join(str(problem).split())
-    sys.stderr.write(f"costcheck: error: {text}\n")
+    # a file name or a quoted value may hold an escape sequence or a lone surrogate: print its code
+    text = "".join(c if c.isprintable() else repr(c)[1:-1] for c in text)
+    if len(text) > MAX_ERROR_CHARS:
+        text = text[:MAX_ERROR_CHARS - 1] + "…"
+    return text
+
+
+def error_line(problem) -> None:
+    """One line on stderr (never wrapped, never a traceback, no raw control characters)."""
+    sys.stderr.write(f"costcheck: error: {one_line(problem)}\n")
     sys.stderr.flush()
 
 
