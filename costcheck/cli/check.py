@@ -26,8 +26,9 @@ def one_line(problem) -> str:
     text = " ".join(str(problem).split())
     # a file name or a quoted value may hold an escape sequence or a lone surrogate: print its code
     text = "".join(c if c.isprintable() else repr(c)[1:-1] for c in text)
-    if len(text) > MAX_ERROR_CHARS:
-        text = text[:MAX_ERROR_CHARS - 1] + "…"
+    if len(text) > MAX_ERROR_CHARS:  # keep both ends: the file comes first, what is wrong with it last
+        half = MAX_ERROR_CHARS // 2
+        text = text[:half - 1] + "…" + text[-half:]
     return text
 
 
