@@ -198,6 +198,8 @@ def _plain_message(error: jsonschema.ValidationError, path: list) -> str:
         return "give exactly one of 'density' or 'points'"
     if kind == "minProperties":
         return "must not be empty"
+    if kind == "maxProperties":
+        return f"{len(instance)} entries; at most {schema['maxProperties']} are allowed"
     if kind == "pattern" and path[:1] == ["data"] and path[-1] == "points":
         return f"{_short(instance)} must name a .csv file"
     if kind == "pattern" and path and path[0] in ("x", "y", "params", "define"):
