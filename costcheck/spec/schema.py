@@ -29,7 +29,7 @@ VERDICT_WORDS: dict[str, list[str]] = {
 
 # How many entries a file may hold where each one is parsed and kept: every helper and every
 # constraint costs parsing, substitution and evaluation on each sample, and 10,000 helpers or
-# 8,000 constraints in a 200 kB file took minutes.  The catalog uses at most 2 of each.
+# 8,000 constraints in a 200 kB file did not finish within 20 s.  The catalog uses at most 2 of each.
 MAX_NAMED = 100  # params, define
 MAX_CONSTRAINTS = 32  # domain.where, domain.pairs
 
