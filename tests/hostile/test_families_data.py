@@ -112,3 +112,10 @@ def test_a_data_path_that_is_a_folder_is_refused(capsys, outside):
     (outside / "folder.csv").mkdir()
     cost = _model(outside, "folder", None, "folder.csv")
     assert_refused(capsys, ["show", str(cost)], str(outside / "folder.csv"), "is a folder")
+
+
+def test_a_data_path_in_a_link_loop_is_named_as_one(capsys, outside):
+    loop = outside / "loop.csv"
+    loop.symlink_to(loop.name)
+    cost = _model(outside, "loop", None, "loop.csv")
+    assert_refused(capsys, ["show", str(cost)], str(loop), "link loop")
