@@ -73,8 +73,10 @@ class _StrictSafeLoader(yaml.SafeLoader):
 
 
 # C0 controls but tab and newline, DEL, C1 controls: an escape sequence in a title would reach
-# the terminal raw (rich prints them as given) and can clear or rewrite the screen
-_CONTROL = re.compile("[\x00-\x08\x0b-\x1f\x7f-\x9f]")
+# the terminal raw (rich prints them as given) and can clear or rewrite the screen; and the
+# bidirectional overrides and isolates, which make a line display in an order other than the one
+# it is read in (Boucher and Anderson, "Trojan Source", USENIX Security 2023)
+_CONTROL = re.compile("[\x00-\x08\x0b-\x1f\x7f-\x9f\u202a-\u202e\u2066-\u2069]")
 # a lone surrogate ("\ud800" in a double-quoted string) is text no UTF-8 output can hold
 _SURROGATE = re.compile("[\ud800-\udfff]")
 
@@ -97,7 +99,7 @@ def _check_text(data: Any, file: str | None, path: tuple = ()) -> None:
 def _check_string(value: Any, file: str | None, where: tuple, key: bool = False) -> None:
     if not isinstance(value, str):
         return
-    for pattern, what in ((_SURROGATE, "a lone surrogate"), (_CONTROL, "the control character")):
+    for pattern, what in ((_SURROGATE, "a lone surrogate"), (_CONTROL, "the non-printing character")):
         found = pattern.search(value)
         if found:
             code = repr(found.group())[1:-1]  # \x1b or \ud800, never the raw character
