@@ -2,6 +2,9 @@
 
 from __future__ import annotations
 
+import errno
+import os
+import stat
 import sys
 from pathlib import Path
 
@@ -30,6 +33,24 @@ def one_line(problem) -> str:
         half = MAX_ERROR_CHARS // 2
         text = text[:half - 1] + "…" + text[-half:]
     return text
+
+
+def refuse_unread_pipe(path, option: str) -> None:
+    """Refuse an output that is a named pipe nobody reads: writing would wait for ever.
+
+    A pipe someone reads (``--junit /dev/stdout`` into ``| tee``) is fine: the probe opens it
+    without blocking, which fails with ENXIO only when there is no reader.
+    """
+    try:
+        if not stat.S_ISFIFO(os.stat(path).st_mode):
+            return
+        os.close(os.open(path, os.O_WRONLY | os.O_NONBLOCK))
+    except OSError as exc:
+        if exc.errno == errno.ENXIO:
+            from ..errors import UsageError
+            raise UsageError(f"{path} is a named pipe that nothing reads; writing to it would wait for ever "
+                             f"(option {option})") from None
+        # anything else (no such file yet, no permission) the writer itself reports
 
 
 def error_line(problem) -> None:
@@ -115,6 +136,7 @@ def cmd_check(args, out: Console, err: Console) -> int:
     code = exit_code(result)
     if args.junit:
         from ..render.junit import run_to_junit
+        refuse_unread_pipe(args.junit, "--junit")
         try:
             Path(args.junit).write_text(run_to_junit(result.reports, result.errors), encoding="utf-8")
         except OSError as exc:
@@ -139,6 +161,8 @@ def cmd_report(args, out: Console, err: Console) -> int:
     result = checked(args, err, full_costs=True)
     if result is None:
         return EXIT_BAD_INPUT
+    for name in ("index.html", "report.md"):
+        refuse_unread_pipe(Path(args.out) / name, "--out")
     try:
         written = write_report(result.reports, result.errors, args.out, options=run_options(args))
     except OSError as exc:

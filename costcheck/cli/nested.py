@@ -20,7 +20,11 @@ def _side_from_option(role: str, path: str | None, option: str, names):
 
 def _write_out(out: Path, document: dict, cost, result, at_values) -> list[str]:
     """nested.json, levels.csv and the map as CSV into ``out``; the files written."""
+    from .check import refuse_unread_pipe
+
     out.mkdir(parents=True, exist_ok=True)
+    for name in ("nested.json", "levels.csv", "map-on-source.csv", "map-at.csv"):
+        refuse_unread_pipe(out / name, "--out")
     write_json(out / "nested.json", clean_json(document))
     written = [str(out / "nested.json")]
     if result.levels is not None:

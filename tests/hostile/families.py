@@ -42,7 +42,7 @@ data:
 #: 60 weighted workers in the unit square (invented demo data)
 GOOD_CSV = "a,b,weight\n" + "".join(f"{(i * 37 % 100) / 100},{(i * 61 % 100) / 100},1\n" for i in range(60))
 
-QUICK = ["--budget", "64", "--quick", "--no-cache"]
+QUICK = ["--budget", "64", "--quick", "--no-cache", "--quiet"]  # quiet: no progress line on a slow machine
 
 
 def run(capsys, argv: list[str]) -> tuple[int, str, list[str]]:

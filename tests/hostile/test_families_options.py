@@ -5,6 +5,9 @@ places that cannot be read or written."""
 
 from __future__ import annotations
 
+import os
+from pathlib import Path
+
 import pytest
 from families import CLEAN, GOOD_CSV, MODEL, assert_refused
 
@@ -24,7 +27,7 @@ def files(tmp_path):
             "empty": str(tmp_path / "empty"), "folder": str(tmp_path)}
 
 
-FAST = ["--budget", "64", "--only", "twist", "--quick", "--no-cache"]
+FAST = ["--budget", "64", "--only", "twist", "--quick", "--no-cache", "--quiet"]  # quiet: no progress line on a slow machine
 
 CASES = {  # name -> (argv with {placeholders}, text the line names, phrase)
     "budget-negative": (["check", "{clean}", "--budget", "-1"], "--budget", "expected a positive number"),
@@ -84,3 +87,16 @@ def test_an_unreachable_scheduler_is_refused_in_bounded_time(capsys, files, monk
     assert_refused(capsys, ["sweep", files["clean"], "--vary", "p=0:1:2", "--scheduler", "tcp://127.0.0.1:9",
                             "--budget", "64", "--only", "twist", "--no-bisect", "--quiet"],
                    "--scheduler 'tcp://127.0.0.1:9'", "cannot connect")
+
+
+@pytest.mark.parametrize("argv, pipe, option", [
+    (["check", "{clean}", "--junit", "{folder}/out/j.xml", *FAST], "j.xml", "--junit"),
+    (["report", "{clean}", "--out", "{folder}/out", *FAST], "report.md", "--out"),
+    (["nested", "{model}", "--out", "{folder}/out"], "nested.json", "--out"),
+])
+def test_an_output_that_is_a_pipe_nobody_reads_is_refused_not_waited_on(capsys, files, argv, pipe, option):
+    out = Path(files["folder"]) / "out"
+    out.mkdir()
+    os.mkfifo(out / pipe)  # opening it to write would block until a reader comes: for ever
+    assert_refused(capsys, [a.format(**files) for a in argv], str(out / pipe), f"nothing reads; writing to it "
+                   f"would wait for ever (option {option})")
