@@ -13,7 +13,6 @@ from __future__ import annotations
 
 import errno
 import os
-import re
 import stat
 from functools import lru_cache
 from pathlib import Path
@@ -24,6 +23,7 @@ import yaml
 
 from ..errors import CostFileError
 from .schema import COST_FILE_SCHEMA
+from .text import check_printable, field_path
 
 MAX_FILE_BYTES = 256 * 1024
 COST_FILE_SUFFIXES = (".yaml", ".yml")
@@ -72,46 +72,9 @@ class _StrictSafeLoader(yaml.SafeLoader):
         return super().construct_mapping(node, deep=deep)
 
 
-# C0 controls but tab and newline, DEL, C1 controls: an escape sequence in a title would reach
-# the terminal raw (rich prints them as given) and can clear or rewrite the screen; and the
-# bidirectional overrides and isolates, which make a line display in an order other than the one
-# it is read in (Boucher and Anderson, "Trojan Source", USENIX Security 2023)
-_CONTROL = re.compile("[\x00-\x08\x0b-\x1f\x7f-\x9f\u202a-\u202e\u2066-\u2069]")
-# a lone surrogate ("\ud800" in a double-quoted string) is text no UTF-8 output can hold
-_SURROGATE = re.compile("[\ud800-\udfff]")
-
-
-def _check_text(data: Any, file: str | None, path: tuple = ()) -> None:
-    """Refuse control characters and lone surrogates in every key and string of the document."""
-    stack = [(data, path)]
-    while stack:  # iterative: a deeply nested document cannot overflow the stack here
-        value, where = stack.pop()
-        if isinstance(value, dict):
-            for key, item in value.items():
-                _check_string(key, file, where, key=True)
-                stack.append((item, where + (key,)))
-        elif isinstance(value, list):
-            stack.extend((item, where + (k,)) for k, item in enumerate(value))
-        else:
-            _check_string(value, file, where)
-
-
-def _check_string(value: Any, file: str | None, where: tuple, key: bool = False) -> None:
-    if not isinstance(value, str):
-        return
-    for pattern, what in ((_SURROGATE, "a lone surrogate"), (_CONTROL, "the non-printing character")):
-        found = pattern.search(value)
-        if found:
-            code = repr(found.group())[1:-1]  # \x1b or \ud800, never the raw character
-            place = f"the key {_short(value)}" if key else "the text"
-            raise CostFileError(f"{place} contains {what} {code} (at character {found.start() + 1}); "
-                                f"cost files hold printable text only", file=file,
-                                field=_field_path(where) or None)
-
-
 def read_yaml(text: str, file: str | None = None) -> Any:
     data = _load_yaml(text, file)
-    _check_text(data, file)
+    check_printable(data, file)
     return data
 
 
@@ -135,13 +98,6 @@ def _load_yaml(text: str, file: str | None) -> Any:
 
 
 # --------------------------------------------------------------------------- schema
-
-
-def _field_path(parts) -> str:
-    out = ""
-    for part in parts:
-        out += f"[{part}]" if isinstance(part, int) else (f".{part}" if out else str(part))
-    return out
 
 
 @lru_cache(maxsize=1)
@@ -239,7 +195,7 @@ def validate_shape(data: Any, file: str | None = None) -> None:
     if error is None:
         return
     path = list(error.absolute_path)
-    raise CostFileError(_plain_message(error, path), file=file, field=_field_path(path) or None)
+    raise CostFileError(_plain_message(error, path), file=file, field=field_path(path) or None)
 
 
 def _describe_kind(mode: int) -> str:
