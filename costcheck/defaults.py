@@ -68,3 +68,6 @@ CONDITION_SECONDS = 900.0
 
 #: one exact zero test (an expansion of a constant expression)
 EXACT_ZERO_SECONDS = 10.0
+
+#: how long ``sweep --scheduler ADDRESS`` waits to reach a Dask scheduler before it says it cannot
+SCHEDULER_CONNECT_SECONDS = 5.0

@@ -26,6 +26,7 @@ class _Parser(argparse.ArgumentParser):
     """argparse, but usage errors are one line plus a hint, with exit status 2."""
 
     def error(self, message: str):  # noqa: D401 - argparse hook
+        message = check_command.one_line(message)  # an unknown argument is quoted back: keep it one short line
         sys.stderr.write(f"costcheck: usage error: {message} (try 'costcheck {self.prog.split()[-1]} --help')\n"
                          if " " in self.prog else f"costcheck: usage error: {message} (try 'costcheck --help')\n")
         raise SystemExit(EXIT_BAD_INPUT)
@@ -271,6 +272,7 @@ def _main(argv: Sequence[str] | None = None) -> int:
         bound_memory()
     if args.command is None:
         parser.print_help()
+        sys.stderr.write("costcheck: usage error: give a command, such as 'costcheck check FILE' (the list is above)\n")
         return EXIT_BAD_INPUT
     try:
         if args.command == "check":

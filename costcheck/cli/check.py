@@ -2,6 +2,9 @@
 
 from __future__ import annotations
 
+import errno
+import os
+import stat
 import sys
 from pathlib import Path
 
@@ -16,10 +19,43 @@ OUTPUT_ONLY_OPTIONS = {"command", "paths", "json", "junit", "quiet", "no_cache",
                        "failures", "workers"}
 
 
-def error_line(problem) -> None:
-    """One line on stderr (never wrapped, never a traceback)."""
+#: an error line longer than this is cut: the messages quote the input, and a quoted 100 kB
+#: CSV cell or expression would not be a line a reader can use
+MAX_ERROR_CHARS = 600
+
+
+def one_line(problem) -> str:
+    """``problem`` as one printable line of at most :data:`MAX_ERROR_CHARS` characters."""
     text = " ".join(str(problem).split())
-    sys.stderr.write(f"costcheck: error: {text}\n")
+    # a file name or a quoted value may hold an escape sequence or a lone surrogate: print its code
+    text = "".join(c if c.isprintable() else repr(c)[1:-1] for c in text)
+    if len(text) > MAX_ERROR_CHARS:  # keep both ends: the file comes first, what is wrong with it last
+        half = MAX_ERROR_CHARS // 2
+        text = text[:half - 1] + "…" + text[-half:]
+    return text
+
+
+def refuse_unread_pipe(path, option: str) -> None:
+    """Refuse an output that is a named pipe nobody reads: writing would wait for ever.
+
+    A pipe someone reads (``--junit /dev/stdout`` into ``| tee``) is fine: the probe opens it
+    without blocking, which fails with ENXIO only when there is no reader.
+    """
+    try:
+        if not stat.S_ISFIFO(os.stat(path).st_mode):
+            return
+        os.close(os.open(path, os.O_WRONLY | os.O_NONBLOCK))
+    except OSError as exc:
+        if exc.errno == errno.ENXIO:
+            from ..errors import UsageError
+            raise UsageError(f"{path} is a named pipe that nothing reads; writing to it would wait for ever "
+                             f"(option {option})") from None
+        # anything else (no such file yet, no permission) the writer itself reports
+
+
+def error_line(problem) -> None:
+    """One line on stderr (never wrapped, never a traceback, no raw control characters)."""
+    sys.stderr.write(f"costcheck: error: {one_line(problem)}\n")
     sys.stderr.flush()
 
 
@@ -113,6 +149,7 @@ def cmd_check(args, out: Console, err: Console) -> int:
     code = exit_code(result)
     if args.junit:
         from ..render.junit import run_to_junit
+        refuse_unread_pipe(args.junit, "--junit")
         try:
             Path(args.junit).write_text(run_to_junit(result.reports, result.errors), encoding="utf-8")
         except OSError as exc:
@@ -137,6 +174,8 @@ def cmd_report(args, out: Console, err: Console) -> int:
     result = checked(args, err, full_costs=True)
     if result is None:
         return EXIT_BAD_INPUT
+    for name in ("index.html", "report.md"):
+        refuse_unread_pipe(Path(args.out) / name, "--out")
     try:
         written = write_report(result.reports, result.errors, args.out, options=run_options(args))
     except OSError as exc:

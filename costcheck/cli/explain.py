@@ -205,7 +205,7 @@ def run(name: str | None) -> int:
         return EXIT_OK
     entry = find(name, table)
     if entry is None:
-        raise CostcheckError(f"nothing to explain under {name!r}: give a condition (twist, mtw, …), a code "
+        raise CostcheckError(f"nothing to explain under {name[:40]!r}: give a condition (twist, mtw, …), a code "
                              "(twist-holds, mtw-fails, …), an evidence kind (proved, sampled, …) or a term (A3w, margins); "
                              "'costcheck explain' lists them all")
     sys.stdout.write(plain_text(entry))

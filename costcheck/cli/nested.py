@@ -7,7 +7,7 @@ from pathlib import Path
 from .. import __version__
 from ..conditions.nested.analysis import analyse, applicable, map_at, sides_of
 from ..conditions.nested.map import write_json, write_levels_csv, write_map_csv
-from ..errors import EXIT_EXPECTATION_FAILED, EXIT_OK, CostFileError
+from ..errors import EXIT_EXPECTATION_FAILED, EXIT_OK, CostFileError, UsageError
 from ..render.json_out import clean_json
 from ..spec.data import points_side, read_points
 
@@ -16,6 +16,30 @@ def _side_from_option(role: str, path: str | None, option: str, names):
     if path is None:
         return None
     return points_side(role, Path(path), None, option, names)
+
+
+def _write_out(out: Path, document: dict, cost, result, at_values) -> list[str]:
+    """nested.json, levels.csv and the map as CSV into ``out``; the files written."""
+    from .check import refuse_unread_pipe
+
+    out.mkdir(parents=True, exist_ok=True)
+    for name in ("nested.json", "levels.csv", "map-on-source.csv", "map-at.csv"):
+        refuse_unread_pipe(out / name, "--out")
+    write_json(out / "nested.json", clean_json(document))
+    written = [str(out / "nested.json")]
+    if result.levels is not None:
+        write_levels_csv(out / "levels.csv", cost.y_names[0], result.levels)
+        written.append(str(out / "levels.csv"))
+    if result.map_on_source is not None:
+        # T at every source point, or at every node of a source density's midpoint rule, with the
+        # (normalised) mass each carries: the map the README promises, with or without --at
+        write_map_csv(out / "map-on-source.csv", cost.x_names, cost.y_names[0], result.source.points,
+                      result.map_on_source, weights=result.source.weights)
+        written.append(str(out / "map-on-source.csv"))
+    if at_values is not None:
+        write_map_csv(out / "map-at.csv", cost.x_names, cost.y_names[0], *at_values)
+        written.append(str(out / "map-at.csv"))
+    return written
 
 
 def run(args) -> tuple[dict, object, list[str]]:
@@ -53,27 +77,18 @@ def run(args) -> tuple[dict, object, list[str]]:
                                      for p, t in zip(points, T)]}
     written: list[str] = []
     if args.out:
-        out = Path(args.out)
-        out.mkdir(parents=True, exist_ok=True)
-        write_json(out / "nested.json", clean_json(document))
-        written.append(str(out / "nested.json"))
-        if result.levels is not None:
-            write_levels_csv(out / "levels.csv", cost.y_names[0], result.levels)
-            written.append(str(out / "levels.csv"))
-        if result.map_on_source is not None:
-            # T at every source point, or at every node of a source density's midpoint rule, with the
-            # (normalised) mass each carries: the map the README promises, with or without --at
-            write_map_csv(out / "map-on-source.csv", cost.x_names, cost.y_names[0], result.source.points,
-                          result.map_on_source, weights=result.source.weights)
-            written.append(str(out / "map-on-source.csv"))
-        if at_values is not None:
-            write_map_csv(out / "map-at.csv", cost.x_names, cost.y_names[0], *at_values)
-            written.append(str(out / "map-at.csv"))
+        try:
+            written += _write_out(Path(args.out), document, cost, result, at_values)
+        except OSError as exc:  # a folder that cannot be made or written: the option's fault, not a bug
+            raise UsageError(f"cannot write into {args.out}: {exc.strerror or exc} (option --out)") from None
     if args.plots and result.levels is not None:
         from ..render.plots.nested import nested_figures
 
-        for fig in nested_figures(result, Path(args.plots)):
-            written += [str(fig.png), str(fig.svg)]
+        try:
+            for fig in nested_figures(result, Path(args.plots)):
+                written += [str(fig.png), str(fig.svg)]
+        except OSError as exc:
+            raise UsageError(f"cannot write pictures into {args.plots}: {exc.strerror or exc} (option --plots)") from None
     expected = cost.expect.get("nested")
     code = EXIT_EXPECTATION_FAILED if expected and expected != verdict.verdict else EXIT_OK
     document["expect"] = expected

@@ -67,9 +67,37 @@ def parse_data_spec(raw: Mapping, x_symbols: Sequence[sp.Symbol], y_symbols: Seq
         else:
             base = Path(file).parent if file else Path.cwd()
             names = [str(v) for v in symbols]
-            sides[role] = points_side(role, base / entry["points"], file, f"{field}.points", names,
+            path = _beside(base, entry["points"], file, f"{field}.points")
+            sides[role] = points_side(role, path, file, f"{field}.points", names,
                                       layout=entry.get("layout"))
     return DataSpec(sides.get("source"), sides.get("target"), str(raw.get("notes", "")))
+
+
+def _beside(base: Path, written: str, file: str | None, field: str) -> Path:
+    """A data path of a cost file: relative, in the cost file's folder or below it.
+
+    A cost file comes from a repository someone else may write to; it may name only files it
+    travels with, never an arbitrary file of the machine (whose first line an error message
+    would quote).  Links are followed before the test, so a link out of the folder is refused too.
+    """
+    if Path(written).is_absolute():
+        raise CostFileError(f"{_quote(written)} is an absolute path; data files are named relative to the "
+                            "cost file's folder", file=file, field=field)
+    path = base / written
+    try:
+        inside = path.resolve().is_relative_to(base.resolve())
+    except (OSError, RuntimeError):  # a link loop: the reader names it
+        inside = True
+    if not inside:
+        raise CostFileError(f"{_quote(written)} leads out of the cost file's folder; data files must lie in "
+                            "it or below it", file=file, field=field)
+    return path
+
+
+def _quote(text: str, limit: int = 40) -> str:
+    """A value from a file, quoted (control characters as codes) and cut to ``limit`` characters."""
+    quoted = repr(text)
+    return quoted if len(quoted) <= limit else quoted[:limit - 1] + "…"
 
 
 def density_side(role: str, text, symbols: Sequence[sp.Symbol], constants: Mapping[str, sp.Expr],
@@ -97,7 +125,7 @@ def points_side(role: str, path: Path, file: str | None, field: str, names: Sequ
     if names is not None:
         try:
             with open_regular_file(path, str(path)) as raw, \
-                    io.TextIOWrapper(raw, encoding="utf-8", newline="") as handle:
+                    io.TextIOWrapper(raw, encoding="utf-8-sig", newline="") as handle:
                 first = handle.readline(MAX_HEADER_CHARS + 1)
         except UnicodeDecodeError:
             raise CostFileError("not UTF-8 text", file=str(path)) from None
@@ -119,7 +147,7 @@ def _check_header(header: list[str], names: Sequence[str], label: str) -> None:
     allowed = list(names) + [WEIGHT_COLUMN]
     for col in header:
         if col not in allowed:
-            raise CostFileError(f"row 1: unknown column '{col}'; the columns must be {', '.join(names)} and "
+            raise CostFileError(f"row 1: unknown column {_quote(col)}; the columns must be {', '.join(names)} and "
                                 f"optionally {WEIGHT_COLUMN}", file=label)
     if len(set(header)) != len(header):
         raise CostFileError("row 1: a column is named twice", file=label)
@@ -134,7 +162,8 @@ def read_points(path: Path, names: Sequence[str]) -> tuple[np.ndarray, np.ndarra
     label = str(path)
     raw = read_capped_bytes(path, MAX_CSV_BYTES, label, kind="data files")
     try:
-        rows = list(csv.reader(io.StringIO(raw.decode("utf-8"), newline="")))
+        # utf-8-sig: a spreadsheet's UTF-8 export starts with a byte-order mark, which is not part of a name
+        rows = list(csv.reader(io.StringIO(raw.decode("utf-8-sig"), newline="")))
     except UnicodeDecodeError:
         raise CostFileError("not UTF-8 text", file=label) from None
     except csv.Error as exc:
@@ -176,7 +205,7 @@ def _number(cell: str, label: str, row: int, column: str) -> float:
     try:
         value = float(cell)
     except ValueError:
-        raise CostFileError(f"row {row}, column '{column}': {cell.strip()!r} is not a number", file=label) from None
+        raise CostFileError(f"row {row}, column '{column}': {_quote(cell.strip())} is not a number", file=label) from None
     if not np.isfinite(value):
-        raise CostFileError(f"row {row}, column '{column}': {cell.strip()!r} is not a finite number", file=label)
+        raise CostFileError(f"row {row}, column '{column}': {_quote(cell.strip())} is not a finite number", file=label)
     return value

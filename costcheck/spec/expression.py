@@ -95,10 +95,15 @@ def _parse_tree(text: object) -> ast.expr:
         _fail("the expression is empty")
     if len(text) > MAX_LENGTH:
         _fail(f"the expression is {len(text)} characters long; the limit is {MAX_LENGTH}")
+    odd = next((k for k, c in enumerate(text) if not c.isascii()), None)
+    if odd is not None:
+        # Python folds identifiers to NFKC, so a full-width 'ｘ１' would silently read as x1
+        _fail(f"the character {text[odd]!r} (U+{ord(text[odd]):04X}, column {odd + 1}) is not allowed; expressions are "
+              f"written in ASCII (names, digits, + - * / ** and parentheses)")
     try:
         tree = ast.parse(text, mode="eval")
     except SyntaxError as exc:
-        _fail(f"not a valid expression: {exc.msg} (column {exc.offset}) in {text!r}")
+        _fail(f"not a valid expression: {exc.msg} (column {exc.offset}) in {_excerpt(text, exc.offset)}")
     except (RecursionError, MemoryError, ValueError):
         _fail("the expression is too deeply nested to parse")
     nodes = sum(1 for _ in ast.walk(tree))
@@ -107,6 +112,14 @@ def _parse_tree(text: object) -> ast.expr:
     if _depth(tree) > MAX_DEPTH:
         _fail(f"the expression is nested deeper than {MAX_DEPTH} levels")
     return tree.body
+
+
+def _excerpt(text: str, column: int | None, width: int = 60) -> str:
+    """The expression quoted, or only the part around ``column`` when it is long."""
+    if len(text) <= width:
+        return repr(text)
+    start = max(0, min((column or 1) - 1 - width // 2, len(text) - width))
+    return ("…" if start else "") + repr(text[start:start + width]) + ("…" if start + width < len(text) else "")
 
 
 def _digits(n: int) -> float:
@@ -390,13 +403,15 @@ def parse_inequalities(text: object, names: Mapping[str, sp.Expr]) -> list[Inequ
     """Parse a constraint such as ``x1 + x2 <= 1`` or ``0 < r < 1`` into ``g >= 0`` forms."""
     tree = _parse_tree(text)
     if not isinstance(tree, ast.Compare):
-        _fail(f"a constraint must be a comparison using < <= > >=, got {text!r}")
+        _fail(f"a constraint must be a comparison using < <= > >=, got {_excerpt(str(text), 1)}")
     builder = _Builder(names, str(text))
     sides = [builder.build(tree.left)] + [builder.build(c) for c in tree.comparators]
     result = []
     for op, lhs, rhs in zip(tree.ops, sides, sides[1:]):
         if type(op) not in _COMPARE:
-            _fail(f"comparison '{type(op).__name__}' is not allowed; use < <= > >=")
+            written = {ast.Eq: "==", ast.NotEq: "!=", ast.Is: "is", ast.IsNot: "is not", ast.In: "in",
+                       ast.NotIn: "not in"}.get(type(op), type(op).__name__)
+            _fail(f"the comparison '{written}' is not allowed; use < <= > >=")
         strict = isinstance(op, (ast.Lt, ast.Gt))
         g = (rhs - lhs) if isinstance(op, (ast.Lt, ast.LtE)) else (lhs - rhs)
         check_expanded(g)

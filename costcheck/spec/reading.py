@@ -23,6 +23,7 @@ import yaml
 
 from ..errors import CostFileError
 from .schema import COST_FILE_SCHEMA
+from .text import check_printable, field_path
 
 MAX_FILE_BYTES = 256 * 1024
 COST_FILE_SUFFIXES = (".yaml", ".yml")
@@ -72,6 +73,12 @@ class _StrictSafeLoader(yaml.SafeLoader):
 
 
 def read_yaml(text: str, file: str | None = None) -> Any:
+    data = _load_yaml(text, file)
+    check_printable(data, file)
+    return data
+
+
+def _load_yaml(text: str, file: str | None) -> Any:
     try:
         return yaml.load(text, Loader=_StrictSafeLoader)  # noqa: S506 - a SafeLoader subclass
     except yaml.MarkedYAMLError as exc:
@@ -91,13 +98,6 @@ def read_yaml(text: str, file: str | None = None) -> Any:
 
 
 # --------------------------------------------------------------------------- schema
-
-
-def _field_path(parts) -> str:
-    out = ""
-    for part in parts:
-        out += f"[{part}]" if isinstance(part, int) else (f".{part}" if out else str(part))
-    return out
 
 
 @lru_cache(maxsize=1)
@@ -131,6 +131,13 @@ def _short(value: Any, limit: int = 40) -> str:
     return text if len(text) <= limit else text[: limit - 1] + "…"
 
 
+def _did_you_mean(extra: list[str], allowed: list[str]) -> str:
+    import difflib
+
+    close = difflib.get_close_matches(extra[0], allowed, n=1, cutoff=0.6) if extra and len(extra[0]) <= 40 else []
+    return f" (did you mean {close[0]!r}?)" if close else ""
+
+
 def _plain_message(error: jsonschema.ValidationError, path: list) -> str:
     """One sentence a user can act on, instead of JSON Schema's own wording (which can quote a
     whole list back and says "is not valid under any of the given schemas")."""
@@ -138,17 +145,21 @@ def _plain_message(error: jsonschema.ValidationError, path: list) -> str:
     if kind == "additionalProperties":
         allowed = sorted(schema.get("properties", {}))
         extra = sorted(str(k) for k in set(instance) - set(allowed)) if isinstance(instance, dict) else []
-        return f"unknown key {_short(extra[0]) if extra else '?'}; allowed here: {', '.join(allowed)}"
+        return f"unknown key {_short(extra[0]) if extra else '?'}{_did_you_mean(extra, allowed)}; " \
+               f"allowed here: {', '.join(allowed)}"
     if kind == "required":
         return error.message.replace("is a required property", "is missing (it is required)")
     if kind in ("minProperties", "maxProperties") and path and path[-1] in ("x", "y"):
-        return "give exactly one of 'box' or 'ball'"
+        found = f" (found: {', '.join(_short(str(k)) for k in instance)})" if instance else ""
+        return f"give exactly one of 'box' or 'ball'{found}"
     if kind in ("minProperties", "maxProperties", "not") and path[:1] == ["data"] and len(path) == 2:
         return "give exactly one of 'density' or 'points'"
     if kind == "dependentRequired" and path[:1] == ["data"]:
         return "'layout' says how CSV points are laid out: it goes with 'points', not alone or with 'density'"
     if kind == "minProperties":
         return "must not be empty"
+    if kind == "maxProperties":
+        return f"{len(instance)} entries; at most {schema['maxProperties']} are allowed"
     if kind == "pattern" and path[:1] == ["data"] and path[-1] == "points":
         return f"{_short(instance)} must name a .csv file"
     if kind == "pattern" and path and path[0] in ("x", "y", "params", "define"):
@@ -186,7 +197,7 @@ def validate_shape(data: Any, file: str | None = None) -> None:
     if error is None:
         return
     path = list(error.absolute_path)
-    raise CostFileError(_plain_message(error, path), file=file, field=_field_path(path) or None)
+    raise CostFileError(_plain_message(error, path), file=file, field=field_path(path) or None)
 
 
 def _describe_kind(mode: int) -> str:
@@ -273,7 +284,13 @@ def find_cost_files(paths) -> list[Path]:
     found: list[Path] = []
     for raw in paths:
         path = Path(raw)
-        if path.is_dir():
+        if "\0" in str(raw):
+            raise CostFileError("the path contains a NUL character", file=repr(str(raw))[1:-1][:200])
+        try:
+            is_dir = path.is_dir()
+        except OSError as exc:  # a name too long for the file system (is_dir lets ENAMETOOLONG through)
+            raise CostFileError(f"cannot read: {exc.strerror or exc}", file=str(path)) from None
+        if is_dir:
             found.extend(sorted(
                 p for p in path.rglob("*")
                 # not only regular files: a named pipe or a link loop called *.yaml is reported

@@ -16,6 +16,7 @@ from concurrent.futures import ProcessPoolExecutor
 from dataclasses import dataclass, field
 from typing import Callable, Sequence
 
+from ..defaults import SCHEDULER_CONNECT_SECONDS
 from .boundaries import RECHECK_FACTOR, find_boundaries
 from .grid import Axis, SweepSpecError, plan
 from .point import evaluate_point
@@ -39,7 +40,8 @@ class Executor:
                 raise SweepSpecError("--scheduler needs dask.distributed, which is not installed "
                                      "(pip install 'dask[distributed]')") from None
             try:
-                self._client = Client(scheduler)
+                # a bounded wait: dask's own default (30 s, with retries) looked like a hang
+                self._client = Client(scheduler, timeout=SCHEDULER_CONNECT_SECONDS)
             except Exception as exc:  # noqa: BLE001 - any connection problem is a usage error here
                 raise SweepSpecError(f"--scheduler {scheduler!r}: cannot connect ({' '.join(str(exc).split())})") from None
             self._own_client = True
