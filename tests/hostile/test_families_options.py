@@ -50,7 +50,7 @@ CASES = {  # name -> (argv with {placeholders}, text the line names, phrase)
     "junit-into-a-folder": (["check", "{clean}", "--junit", "{empty}", *FAST], "{empty}", "cannot write the JUnit file"),
     "plots-into-a-file": (["check", "{clean}", "--plots", "{csv}", *FAST], "{csv}", "cannot write pictures"),
     "nested-out-unwritable": (["nested", "{model}", "--out", NOWHERE], "--out", "cannot write into"),
-    "nested-levels-negative": (["nested", "{model}", "--levels", "-3"], "--levels", "positive"),
+    "nested-levels-negative": (["nested", "{model}", "--levels", "-3"], "--levels", "at least 2"),
     "nested-levels-text": (["nested", "{model}", "--levels", "many"], "--levels", "expected a whole number"),
     "nested-at-missing": (["nested", "{model}", "--at", "{folder}/absent.csv"], "absent.csv", "no such file"),
     "nested-source-is-yaml": (["nested", "{model}", "--source", "{clean}"], "{clean}", "row 1: unknown column"),

@@ -135,7 +135,7 @@ def _options(valid: str) -> dict[str, tuple[list[str], str, str]]:
         "option-sweep-workers": (["sweep", valid, "--vary", "p=0:1:3", "--workers", "100000"], "--workers", "at most"),
         "option-simplify-negative": (["tensor", valid, "--simplify-seconds", "-1"], "--simplify-seconds",
                                      "non-negative"),
-        "option-nested-levels": (["nested", valid, "--levels", "0"], "--levels", "positive"),
+        "option-nested-levels": (["nested", valid, "--levels", "0"], "--levels", "at least 2"),
     }
 
 
