@@ -42,8 +42,26 @@ def _axis_tensor(cost, frame: RadialFrame):
     M = sp.Matrix(on_axis["dxy"])
     if M.free_symbols - {frame.r} or M.det() == 0:
         return None
-    inv = M.inv(method="ADJ")
+    inv = _inverse(M, frame)
     return quantities.mtw_tensor(on_axis, [[inv[r, s] for s in range(n)] for r in range(n)]), inv
+
+
+def _inverse(M: sp.Matrix, frame: RadialFrame) -> sp.Matrix:
+    """``M⁻¹`` as adjugate over determinant: the matrix ``M.inv(method="ADJ")`` returns.
+
+    ``inv`` first proves the determinant non-zero with ``equals(0)``, a simplification that
+    takes seconds on these entries.  A determinant that is a non-zero number at one distance is
+    not the zero function, and then ``inv`` would return exactly ``adjugate / det``; only when
+    that evaluation does not show it (zero, undefined there, or too small to tell) is ``inv``
+    itself asked, with its own test and its own error for a singular matrix.
+    """
+    det = M.det(method="berkowitz")
+    middle = sp.Rational(float((frame.lo[0] + frame.hi[0]) / 2)) if frame.hi[0] > frame.lo[0] else None
+    if middle is not None and middle > 0:
+        value = det.xreplace({frame.r: middle}).evalf(30)
+        if value.is_Float and abs(value) > 1e-12:
+            return M.adjugate() / det
+    return M.inv(method="ADJ")
 
 
 def triangle_coefficients(cost, frame: RadialFrame) -> list[sp.Expr] | None:
