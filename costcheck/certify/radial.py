@@ -56,9 +56,9 @@ def _inverse(M: sp.Matrix, frame: RadialFrame) -> sp.Matrix:
     itself asked, with its own test and its own error for a singular matrix.
     """
     det = M.det(method="berkowitz")
-    middle = sp.Rational(float((frame.lo[0] + frame.hi[0]) / 2)) if frame.hi[0] > frame.lo[0] else None
-    if middle is not None and middle > 0:
-        value = det.xreplace({frame.r: middle}).evalf(30)
+    lo, hi = float(frame.lo[0]), float(frame.hi[0])
+    for t in ((lo + hi) / 2, lo + (hi - lo) / 3) if hi > lo else ():
+        value = det.xreplace({frame.r: sp.Rational(t)}).evalf(30)
         if value.is_Float and abs(value) > 1e-12:
             return M.adjugate() / det
     return M.inv(method="ADJ")
