@@ -42,11 +42,11 @@ def _axis_tensor(cost, frame: RadialFrame):
     M = sp.Matrix(on_axis["dxy"])
     if M.free_symbols - {frame.r} or M.det() == 0:
         return None
-    inv = _inverse(M, frame)
+    inv = adjugate_inverse(M, frame)
     return quantities.mtw_tensor(on_axis, [[inv[r, s] for s in range(n)] for r in range(n)]), inv
 
 
-def _inverse(M: sp.Matrix, frame: RadialFrame) -> sp.Matrix:
+def adjugate_inverse(M: sp.Matrix, frame: RadialFrame) -> sp.Matrix:
     """``M⁻¹`` as adjugate over determinant: the matrix ``M.inv(method="ADJ")`` returns.
 
     ``inv`` first proves the determinant non-zero with ``equals(0)``, a simplification that
