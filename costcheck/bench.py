@@ -17,6 +17,12 @@ Every figure is measured in the same run (nothing is copied from earlier runs):
   (``catalog_one_worker``, ``--workers 1``) and the ratio ``catalog_workers_speedup`` the
   worker processes give.  Compiled code (JAX's and numba's caches) is
   as the margin measurements above left it: compiled once on this machine;
+* ``startup``: ``check_2d.wall_s``, the shell wall time of ``costcheck check <2-D cost> --no-cache``
+  (a fresh interpreter each time, imports, derivatives, sampling, checks and the default proofs),
+  the best of :data:`STARTUP_REPEATS` runs (the machine is shared: the best run is the one least
+  disturbed), its least CPU seconds ``cpu_s``, beside ``interpreter_s`` (``python -c pass``) and
+  ``imports_s`` (importing what that check imports, nothing run), the one-minute load average, and
+  ``ratio``, wall over target (below 1 meets it);
 * ``certify``: rigorous enclosures of the MTW tensor's derivative fields (values and gradients,
   natural ∩ mean-value form) over one seeded set of cells of the pair box of
   :data:`CERTIFY_COST`, in cells per second: ``arb`` (today's engine, ball arithmetic one cell at
@@ -56,11 +62,16 @@ SIZES = {
     "small": {"pairs": {2: 2_000, 3: 100}, "naive": {2: 10, 3: 4}, "single_budget": 256, "certify_cells": 16},
 }
 SINGLE_COST = "euclidean/power-0.5.yaml"
+#: runs of each start-up figure per size (the best is reported)
+STARTUP_REPEATS = {"default": 3, "small": 1}
+#: what a 2-D check imports before it computes anything (the start-up floor of ``startup.check_2d``)
+STARTUP_IMPORTS = ("import costcheck.cli, costcheck.run.batch, costcheck.run.runner, costcheck.spec.loader, "
+                   "costcheck.conditions.context, costcheck.certify, scipy.stats")
 NAIVE_GRID = 64
 
 TARGETS = {"n2_pairs_per_s": 2e6, "n2_speedup_vs_naive": 200.0, "n3_pairs_per_s": 2e5,
            "single_cost_check_s": 5.0, "catalog_check_s": 15.0, "catalog_peak_mb": 2048.0,
-           "certify_speedup": 100.0}
+           "certify_speedup": 100.0, "check_2d_startup_s": 1.5}
 #: the cost and the cells of the certify figures: each cell's side is CERTIFY_CELL_SIDE of the pair
 #: box's (after four halvings of every axis, where branch and bound spends most of its cells)
 CERTIFY_COST = "euclidean/power-0.5.yaml"
@@ -408,6 +419,51 @@ def _command_times(result: dict, cfg: dict, skip_catalog: bool) -> None:
             result["cli"]["catalog_workers_speedup"] = one["seconds"] / cat["seconds"]
 
 
+def _best_wall(argv: list[str], repeats: int) -> tuple[float, list[float], int, float]:
+    """``(best, all runs, exit code of the last, least CPU seconds)`` of ``argv`` in a fresh process.
+
+    The CPU seconds (user + system, ``RUSAGE_CHILDREN``) say how much of a slow wall time was
+    the machine's other work: on a loaded machine the wall time grows, the CPU time much less."""
+    import resource
+
+    runs, cpus, code = [], [], 0
+    for _ in range(repeats):
+        before = resource.getrusage(resource.RUSAGE_CHILDREN)
+        t0 = time.perf_counter()
+        code = subprocess.run(argv, cwd=ROOT, stdout=subprocess.DEVNULL, stderr=subprocess.DEVNULL).returncode
+        runs.append(time.perf_counter() - t0)
+        after = resource.getrusage(resource.RUSAGE_CHILDREN)
+        cpus.append(after.ru_utime - before.ru_utime + after.ru_stime - before.ru_stime)
+    return min(runs), runs, code, min(cpus)
+
+
+#: what bounds the start-up figure, said when its target is not met
+STARTUP_LIMIT = ("the imports alone (startup.check_2d.imports_s): SciPy's qmc module (the Sobol sampler) "
+                 "imports all of scipy.stats, about 1 s of the floor, then sympy, numpy, the YAML and schema "
+                 "libraries; the rest is the checks themselves (symbolic derivatives and their lambdified "
+                 "code, sampling, the searches and the default proof attempts)")
+
+
+def _startup(result: dict, cfg: dict, size: str) -> None:
+    """The shell wall time of one 2-D check with no result cache, beside its floor (interpreter, imports)."""
+    repeats = STARTUP_REPEATS[size]
+    args = ["check", f"catalog/{SINGLE_COST}", "--no-cache"]
+    if cfg["single_budget"]:
+        args += ["--budget", str(cfg["single_budget"])]
+    _log(f"start-up: costcheck {' '.join(args)} (best of {repeats})")
+    wall, runs, code, cpu = _best_wall([sys.executable, "-m", "costcheck", *args], repeats)
+    interpreter = _best_wall([sys.executable, "-c", "pass"], repeats)[0]
+    imports, _, _, imports_cpu = _best_wall([sys.executable, "-c", STARTUP_IMPORTS], repeats)
+    target = TARGETS["check_2d_startup_s"]
+    result["startup"]["check_2d"] = {"command": "costcheck " + " ".join(args), "wall_s": wall, "runs_s": runs,
+                                     "cpu_s": cpu, "exit_code": code, "interpreter_s": interpreter,
+                                     "imports_s": imports, "imports_cpu_s": imports_cpu,
+                                     "load_average": os.getloadavg()[0], "target_s": target, "ratio": wall / target}
+    t = result["targets"]["check_2d_startup_s"] = {"measured": wall, "target": target, "lower_is_better": True}
+    if wall > target:
+        t["bottleneck"] = STARTUP_LIMIT
+
+
 def _targets(result: dict, per_n: dict, skip_catalog: bool) -> None:
     """Each measured figure beside its target, with what bounds it where it falls short."""
     t = result["targets"]
@@ -440,10 +496,11 @@ def run(size: str = "default", backends=("sympy", "jax"), skip_catalog: bool = F
     result: dict = {"tool": "costcheck.bench", "size": size, "backends": list(backends),
                     "machine": {"cpus": os.cpu_count(), "python": platform.python_version(),
                                 "numpy": np.__version__, "platform": platform.platform()},
-                    "margin": {}, "naive": {}, "cli": {}, "certify": {}, "targets": {}}
+                    "margin": {}, "naive": {}, "cli": {}, "startup": {}, "certify": {}, "targets": {}}
     per_n = _margins(result, cfg, size, backends)
     _certify(result, cfg)
     _command_times(result, cfg, skip_catalog)
+    _startup(result, cfg, size)
     _targets(result, per_n, skip_catalog)
     if size != "default":
         result["note"] = "tiny sizes: a smoke test, not comparable with the targets"

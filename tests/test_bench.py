@@ -13,7 +13,7 @@ def test_bench_small_prints_one_json_object_with_positive_figures():
                            "--backends", "sympy"], cwd=ROOT, capture_output=True, text=True, timeout=300)
     assert proc.returncode == 0, proc.stderr
     out = json.loads(proc.stdout)  # stdout is exactly one JSON document
-    assert {"margin", "naive", "cli", "certify", "targets", "size", "machine"} <= set(out)
+    assert {"margin", "naive", "cli", "startup", "certify", "targets", "size", "machine"} <= set(out)
     assert out["size"] == "small"
     ns = {fig["n"] for fig in out["margin"].values()}
     assert ns == {2, 3}
@@ -25,10 +25,15 @@ def test_bench_small_prints_one_json_object_with_positive_figures():
         assert out["naive"][key]["pairs_per_s"] > 0 and out["naive"][key]["speedup"] > 0
     single = out["cli"]["single_cost"]
     assert single["exit_code"] == 0 and single["seconds"] > 0 and single["peak_mb"] > 0
+    startup = out["startup"]["check_2d"]  # the shell wall time of one 2-D check, beside its floor
+    assert startup["exit_code"] == 0 and "--no-cache" in startup["command"]
+    assert 0 < startup["interpreter_s"] < startup["wall_s"] == min(startup["runs_s"])
+    assert startup["imports_s"] > 0 and startup["ratio"] == startup["wall_s"] / startup["target_s"]
     certify = out["certify"]
     for engine in ("arb", "vectorised"):
         assert certify[engine]["cells"] == certify["arb"]["cells"] > 0  # the same cells for both engines
         assert certify[engine]["cells_per_s"] > 0 and 0 <= certify[engine]["enclosed_fraction"] <= 1
     assert certify["speedup"] > 0
-    for name in ("n2_pairs_per_s", "n3_pairs_per_s", "n2_speedup_vs_naive", "single_cost_check_s", "certify_speedup"):
+    for name in ("n2_pairs_per_s", "n3_pairs_per_s", "n2_speedup_vs_naive", "single_cost_check_s", "certify_speedup",
+                 "check_2d_startup_s"):
         assert out["targets"][name]["measured"] > 0 and isinstance(out["targets"][name]["met"], bool)

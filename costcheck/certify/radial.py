@@ -42,8 +42,26 @@ def _axis_tensor(cost, frame: RadialFrame):
     M = sp.Matrix(on_axis["dxy"])
     if M.free_symbols - {frame.r} or M.det() == 0:
         return None
-    inv = M.inv(method="ADJ")
+    inv = adjugate_inverse(M, frame)
     return quantities.mtw_tensor(on_axis, [[inv[r, s] for s in range(n)] for r in range(n)]), inv
+
+
+def adjugate_inverse(M: sp.Matrix, frame: RadialFrame) -> sp.Matrix:
+    """``M⁻¹`` as adjugate over determinant: the matrix ``M.inv(method="ADJ")`` returns.
+
+    ``inv`` first proves the determinant non-zero with ``equals(0)``, a simplification that
+    takes seconds on these entries.  A determinant that is a non-zero number at one distance is
+    not the zero function, and then ``inv`` would return exactly ``adjugate / det``; only when
+    that evaluation does not show it (zero, undefined there, or too small to tell) is ``inv``
+    itself asked, with its own test and its own error for a singular matrix.
+    """
+    det = M.det(method="berkowitz")
+    lo, hi = float(frame.lo[0]), float(frame.hi[0])
+    for t in ((lo + hi) / 2, lo + (hi - lo) / 3) if hi > lo else ():
+        value = det.xreplace({frame.r: sp.Rational(t)}).evalf(30)
+        if value.is_Float and abs(value) > 1e-12:
+            return M.adjugate() / det
+    return M.inv(method="ADJ")
 
 
 def triangle_coefficients(cost, frame: RadialFrame) -> list[sp.Expr] | None:

@@ -11,7 +11,6 @@ from __future__ import annotations
 from dataclasses import dataclass
 
 import numpy as np
-from scipy.stats import qmc
 
 from ..model.domain import Domain
 
@@ -35,6 +34,10 @@ class PairSample:
 
 
 def _draw(dim: int, count: int, seed: np.random.Generator | int, lower, upper) -> np.ndarray:
+    # SciPy's qmc module imports all of scipy.stats (about a second): loaded on the first draw
+    # (then kept by the import system), so commands that sample nothing never pay for it
+    from scipy.stats import qmc
+
     sobol = qmc.Sobol(d=dim, scramble=True, seed=seed)
     # Sobol balance properties need a power of two
     exponent = max(1, int(np.ceil(np.log2(max(count, 2)))))

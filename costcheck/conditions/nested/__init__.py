@@ -33,6 +33,13 @@ CONDITION = "nested"
 
 def check(ctx):
     """The nestedness verdict of ``ctx.cost`` on its data (no map), on ``ctx.levels`` and ``ctx.grid``."""
+    from .applies import applicable, sides_of
+
+    reason = applicable(ctx.cost, *sides_of(ctx.cost))
+    if reason:  # the same verdict analyse() gives, without importing its numerics
+        from ...model.verdict import not_applicable
+
+        return not_applicable(CONDITION, reason)
     from .analysis import analyse  # numpy and the levels only when the condition runs
 
     return analyse(ctx.cost, levels=ctx.levels, grid=ctx.grid, with_map=False, evaluator=ctx.evaluator(2)).verdict

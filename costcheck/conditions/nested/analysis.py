@@ -10,8 +10,9 @@ import numpy as np
 from ...defaults import DEFAULT_LEVELS, MAX_LEVEL_POINTS
 from ...errors import CostFileError
 from ...model.verdict import Verdict, not_applicable
-from ...spec.data import DataSpec, SideSpec
+from ...spec.data import SideSpec
 from . import measures
+from .applies import applicable, sides_of  # noqa: F401 - the command line reads them here
 from .decide import CONDITION, find_crossings, nested_verdict
 from .levels import Levels, compute_levels
 from .refine import settle
@@ -52,24 +53,6 @@ def _refuse_oversized(cost, side: SideSpec, source: measures.Measure, levels: in
 def target_distribution(cost, side: SideSpec) -> measures.Distribution1D:
     return measures.target_distribution(side, cost.y_names[0], cost.y_symbols[0], cost.domain.y,
                                         cost.domain.contains_y, cost.file)
-
-
-def sides_of(cost, source: SideSpec | None = None, target: SideSpec | None = None):
-    """The two sides to use: command-line ones first, then the file's ``data:``."""
-    spec = cost.data or DataSpec()
-    return source or spec.source, target or spec.target
-
-
-def applicable(cost, source, target) -> str | None:
-    """Why nestedness cannot be decided here, or None."""
-    if cost.m != 1:
-        return f"nestedness is defined here for a one-dimensional target (m = 1); this cost has m = {cost.m}"
-    missing = [name for name, side in (("source", source), ("target", target)) if side is None]
-    if missing:
-        return (f"nestedness depends on the two distributions, and the {' and '.join(missing)} "
-                f"{'is' if len(missing) == 1 else 'are'} not given (a 'data:' key in the cost file, or --source / "
-                "--target CSV files)")
-    return None
 
 
 def analyse(cost, source_side=None, target_side=None, *, levels: int = DEFAULT_LEVELS, grid: int | None = None,

@@ -12,7 +12,6 @@ from __future__ import annotations
 
 import mpmath
 import numpy as np
-from scipy.spatial import cKDTree
 
 from ...model.verdict import Witness
 from ...numerics import precision
@@ -119,6 +118,8 @@ def sample_sign_changes(st: Setup, Z, sdet, *, clear_sign, tries) -> Witness | N
     if not pos.size or not neg.size:
         return None
     w = np.where(st.width > 0, st.width, 1.0)
+    from scipy.spatial import cKDTree  # SciPy's spatial package loads when a sign change is looked for
+
     tree = cKDTree(Z[pos] / w)
     dist, j = tree.query(Z[neg] / w, k=1)
     order = np.argsort(dist, kind="stable")

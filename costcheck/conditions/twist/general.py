@@ -12,7 +12,6 @@ from __future__ import annotations
 from dataclasses import dataclass
 
 import numpy as np
-from scipy.spatial import cKDTree
 
 from ...model.verdict import Evidence, Verdict, undecided
 from ...numerics import search
@@ -81,6 +80,8 @@ def _near_collisions(st: Setup, g: _Grid, min_sep: float) -> list[tuple]:
         return []
     extent = float(np.max(np.abs(Pn)))
     points = np.concatenate([Pn, (rows_i * (4 * extent + 10.0))[:, None]], axis=1)
+    from scipy.spatial import cKDTree  # loaded when the search runs, not when the module is imported
+
     dist, nb = cKDTree(points).query(points, k=min(min(8, g.K), Pn.shape[0]))
     nb = np.minimum(nb, Pn.shape[0] - 1)
     same = rows_i[nb] == rows_i[:, None]

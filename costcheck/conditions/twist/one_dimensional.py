@@ -10,7 +10,6 @@ collision, sufficient condition (a) is checked on the samples: ``c_xy`` of one s
 from __future__ import annotations
 
 import numpy as np
-from scipy.optimize import brentq
 
 from ...model.verdict import Evidence, Verdict, undecided
 from ...numerics import search
@@ -57,6 +56,8 @@ def solve_in_run(f, ys, P, a, b, v):
         return None
     k = a + change[0]
     lo, hi = ys[k], ys[k + 1]
+    from scipy.optimize import brentq  # SciPy's optimize package only for one-dimensional costs
+
     try:
         t = brentq(lambda s: f(s) - v, lo, hi, xtol=1e-15, rtol=1e-15, maxiter=200)
     except (ValueError, RuntimeError):
