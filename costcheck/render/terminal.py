@@ -122,9 +122,18 @@ class TerminalView:
             self._condition_line(name, v, cost.expect.get(name))
             if self.verbose:
                 self._details(v, cost)
+        where = cost.file or cost.id
+        not_run = [mm.condition for mm in report.mismatches if mm.got == "not run"]
         for mm in report.mismatches:
+            if mm.got != "not run":
+                line = Text("  ✗ ", style="bold red")
+                line.append(f"{where}: {mm.condition}: expected {mm.expected}, got {mm.got}")
+                self._print(line)
+        if not_run:  # conditions left out (--only): one line for all, not one per condition
             line = Text("  ✗ ", style="bold red")
-            line.append(f"{cost.file or cost.id}: {mm.condition}: expected {mm.expected}, got {mm.got}")
+            text = f"expected, not run: {', '.join(not_run)}"
+            room = self.width - 4
+            line.append(text if len(text) <= room else text[:room - 1] + "…")
             self._print(line)
 
     def _condition_line(self, name: str, v: Verdict, expected: str | None) -> None:
