@@ -292,3 +292,15 @@ def test_every_relative_link_in_the_pages_resolves():
 def test_every_code_says_its_condition_and_verdict():
     # issue 20: a code is read without a table — the condition and the verdict word it stands for
     assert all(code == f"{condition}-{verdict}" for (condition, verdict), code in CODES.items())
+
+
+def test_explain_shows_code_spans_verbatim():
+    # a power written `d1**2` must not lose its asterisks to the removal of bold markup
+    from costcheck.cli.explain import Entry
+
+    body = ("The cost `d1**2 + d2**2` is **smooth**; ``a`b`` quotes a tick; see "
+            "[`twist`](conditions.md#twist) and [the margins](#margins).")
+    text = " ".join(plain_text(Entry("demo", "evidence.md", "A `c**2` **demo**", body)).split())
+    assert text.startswith("A c**2 demo — docs/evidence.md#demo")
+    assert ("The cost d1**2 + d2**2 is smooth; a`b quotes a tick; see twist (docs/conditions.md#twist) and "
+            "the margins (docs/evidence.md#margins).") in text

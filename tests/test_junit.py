@@ -66,3 +66,33 @@ def test_junit_counts_cases_failures_skips_and_errors(tmp_path, capsys):
     assert props["evidence"] == "proved"
     assert "proved on the whole domain" in case.system_out
     assert not case.is_passed and cases[("quad-line", "twist")].is_passed
+
+
+def _undecided_and_missed_report():
+    """A cost whose MTW check is undecided and whose twist misses its expectation (no check run)."""
+    from costcheck.model.header import CostHeader
+    from costcheck.model.report import CostReport
+    from costcheck.model.verdict import Evidence, Verdict, undecided
+
+    header = CostHeader("demo", ("x1", "x2"), ("y1", "y2"), expect={"twist": "fails"}, file="demo.yaml")
+    return CostReport(header, {"twist": Verdict("twist", "holds", Evidence("sampled", "no collision found")),
+                               "mtw": undecided("mtw", "every sample was undefined")}, 0.2)
+
+
+def test_failing_and_undecided_cases_say_what_their_code_means(tmp_path):
+    # a CI reader sees the meaning of the code next to it, from the same source as the JSON's code_meaning
+    from costcheck.model.verdict import CODE_MEANINGS
+    from costcheck.render.junit import run_to_junit
+
+    report = tmp_path / "results.xml"
+    report.write_text(run_to_junit([_undecided_and_missed_report()], []), encoding="utf-8")
+    cases = {case.name: case for suite in JUnitXml.fromfile(str(report)) for case in suite}
+    for name, code in (("twist", "twist-holds"), ("mtw", "mtw-undecided")):
+        [properties] = cases[name].iterchildren(Properties)
+        props = {p.name: p.value for p in properties.iterchildren(Property)}
+        assert props["code"] == code and props["code_meaning"] == CODE_MEANINGS[code]
+        assert props["docs"] == f"docs/codes.md#{code}"
+        assert cases[name].system_out.splitlines()[0] == f"{code}: {CODE_MEANINGS[code]} (costcheck explain {code})"
+    [failure] = [r for r in cases["twist"].result if isinstance(r, Failure)]
+    assert failure.message == f"expected fails, got holds (twist-holds: {CODE_MEANINGS['twist-holds']})"
+    assert cases["mtw"].is_passed  # undecided is an honest answer, not a broken build

@@ -116,3 +116,28 @@ def test_header_says_when_proofs_were_not_asked_for():
     assert quick.options_line == "proofs not asked for (samples only), conditions = all"
     asked = ReportModel([], [], [], {"prove": {"seconds": 5, "cells": None}}, "0", "now")
     assert "not asked" not in asked.options_line and "proofs:" in asked.options_line
+
+
+def test_each_verdict_of_the_page_and_its_twin_says_what_its_code_means(tmp_path):
+    # the code's plain meaning beside it (the JSON's code_meaning, one source), without running a check
+    from html import escape
+
+    from costcheck.model.header import CostHeader
+    from costcheck.model.report import CostReport
+    from costcheck.model.verdict import CODE_MEANINGS, Evidence, Verdict, undecided
+    from costcheck.render.report.html import render_html
+    from costcheck.render.report.markdown import render_markdown
+    from costcheck.render.report.model import CostSection, ReportModel, verdict_rows
+
+    header = CostHeader("demo", ("x1",), ("y1",), expect={"twist": "fails"}, file="demo.yaml")
+    report = CostReport(header, {"twist": Verdict("twist", "holds", Evidence("sampled", "no collision found")),
+                                 "loeper": undecided("loeper", "too few segments")}, 0.1)
+    section = CostSection("demo", "a demo", "demo.yaml", "cost", None, 1, 1, [], [], verdict_rows(report), [])
+    model = ReportModel([section], ["twist", "loeper"], [], {}, "0", "now")
+    page, twin = render_html(model, tmp_path), render_markdown(model)
+    for code in ("twist-holds", "loeper-undecided"):
+        meaning = CODE_MEANINGS[code]
+        assert f"{code}: {escape(meaning)} (<code>costcheck explain {code}</code>)" in page
+        assert f'<abbr title="{escape(meaning)}">{code}</abbr>' in page  # the summary table's cell
+        assert f"`costcheck explain {code}`" in twin
+    assert "twist\\-holds: twist holds: y ↦ D\\_x c\\(x, y\\) is one\\-to\\-one" in twin

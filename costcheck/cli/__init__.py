@@ -136,7 +136,9 @@ def _build_parser() -> argparse.ArgumentParser:
 
     explain = sub.add_parser("explain", help="explain a condition, a code or a term (the entry of docs/)")
     explain.add_argument("name", nargs="?", metavar="CONDITION|CODE", help="e.g. mtw, mtw-fails, sampled; none: list all")
-    sub.add_parser("schema", help="print the JSON Schema of cost files (draft 2020-12)")
+    schema = sub.add_parser("schema", help="print the JSON Schema of cost files (draft 2020-12)")
+    schema.add_argument("--results", action="store_true",
+                        help="print the JSON Schema of the results document (check --json) instead")
     new = sub.add_parser("new", help="write a commented template cost file NAME.yaml to start from")
     new.add_argument("name", metavar="NAME", help="file to write (.yaml is added if missing); its stem is the id")
 

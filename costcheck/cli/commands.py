@@ -13,9 +13,12 @@ from .progress import Progress
 
 
 def cmd_schema(args) -> int:
-    from ..spec.schema import schema_json
-
-    sys.stdout.write(schema_json())
+    """The cost-file schema, or with ``--results`` the schema of ``check --json``'s document."""
+    if args.results:
+        from ..render.results_schema import results_schema_json as text
+    else:
+        from ..spec.schema import schema_json as text
+    sys.stdout.write(text())
     return EXIT_OK
 
 

@@ -117,19 +117,31 @@ def find(name: str, table: dict[str, Entry]) -> Entry | None:
 # --------------------------------------------------------------------------- plain text
 
 _LINK = re.compile(r"\[([^\]]+)\]\(([^)\s]+)\)")
+#: a code span (CommonMark: a run of backticks, closed by a run of the same length) or a link
+_SPAN_OR_LINK = re.compile(r"(?P<ticks>`+)(?P<code>.+?)(?<!`)(?P=ticks)(?!`)|" + _LINK.pattern)
 
 
 def _inline(text: str, page: str) -> str:
-    """Markdown inline markup as plain text; a link into the pages shows its target."""
-    def link(match: re.Match) -> str:
-        label, target = match.group(1), match.group(2)
+    """Markdown inline markup as plain text; a code span is shown verbatim (``d1**2`` stays as
+    written), and a link into the pages shows its target."""
+    def link(label: str, target: str) -> str:
+        shown = _inline(label, page)
         if "://" in target:
-            return f"{label} ({target})"
+            return f"{shown} ({target})"
         target = target if not target.startswith("#") else page + target
-        return f"docs/{target}" if label.replace("`", "") in (target.split("#")[0], target) else f"{label} (docs/{target})"
+        return f"docs/{target}" if shown in (target.split("#")[0], target) else f"{shown} (docs/{target})"
 
-    text = _LINK.sub(link, text)
-    return text.replace("**", "").replace("`", "")
+    out, at = [], 0
+    for match in _SPAN_OR_LINK.finditer(text):
+        out.append(text[at:match.start()].replace("**", ""))
+        if match.group("ticks"):
+            code = match.group("code")
+            out.append(code[1:-1] if len(code) > 2 and code[0] == code[-1] == " " else code)
+        else:
+            out.append(link(match.group(3), match.group(4)))
+        at = match.end()
+    out.append(text[at:].replace("**", ""))
+    return "".join(out)
 
 
 def _wrap(text: str, first: str = "", rest: str = "") -> list[str]:

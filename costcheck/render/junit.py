@@ -10,8 +10,10 @@ What counts as what (the same rule as the exit codes, so a CI page and the exit 
   expectation is a finding about the cost, not a broken build.  Write ``expect`` to make CI
   enforce it.
 
-Every test case carries ``verdict``, ``code``, ``evidence`` (kind) and ``expected``
-properties, and the evidence summary, witness and notes in ``<system-out>``.  A suite per
+Every test case carries ``verdict``, ``code``, ``code_meaning`` (the code in plain words, the
+JSON's own), ``docs`` (where the code is explained), ``evidence`` (kind) and ``expected``
+properties, and the code's meaning, the evidence summary, witness and notes in ``<system-out>``;
+a failure's message says what the code reached means, so a CI page needs no table.  A suite per
 cost file (``name`` = the file), ``classname`` = the cost id, ``name`` = the condition.
 """
 
@@ -20,6 +22,7 @@ from __future__ import annotations
 import xml.etree.ElementTree as ET
 
 from ..errors import CostFileError
+from ..model.verdict import CODE_MEANINGS, docs_links
 from .terminal import format_witness
 
 
@@ -45,16 +48,19 @@ def run_to_junit(reports, errors: list[CostFileError]) -> str:
         for name, v in report.verdicts.items():
             case = _testcase(suite, cost.id, name, share)
             counts["tests"] += 1
-            _properties(case, {"verdict": v.verdict, "code": v.code, "evidence": v.evidence.kind,
+            meaning = CODE_MEANINGS[v.code]
+            _properties(case, {"verdict": v.verdict, "code": v.code, "code_meaning": meaning,
+                               "docs": docs_links(name, v.code)["code"], "evidence": v.evidence.kind,
                                "expected": cost.expect.get(name)})
             if name in mismatched:
                 counts["failures"] += 1
                 ET.SubElement(case, "failure", type="expectation",
-                              message=f"expected {mismatched[name].expected}, got {v.verdict} ({v.code})")
+                              message=f"expected {mismatched[name].expected}, got {v.verdict} ({v.code}: {meaning})")
             elif v.evidence.kind == "not_applicable":
                 counts["skipped"] += 1
                 ET.SubElement(case, "skipped", message=v.evidence.summary)
-            lines = [f"{v.verdict} [{v.code}], evidence {v.evidence.kind}: {v.evidence.summary}"]
+            lines = [f"{v.code}: {meaning} (costcheck explain {v.code})",
+                     f"{v.verdict}, evidence {v.evidence.kind}: {v.evidence.summary}"]
             if v.witness is not None:
                 lines.append("witness: " + format_witness(v.witness, cost.x_names, cost.y_names))
             lines += [f"note: {note}" for note in v.notes]
@@ -64,7 +70,8 @@ def run_to_junit(reports, errors: list[CostFileError]) -> str:
                 case = _testcase(suite, cost.id, name, 0.0)
                 counts["tests"] += 1
                 counts["failures"] += 1
-                _properties(case, {"verdict": mm.got, "code": "", "evidence": "", "expected": mm.expected})
+                _properties(case, {"verdict": mm.got, "code": "", "code_meaning": "", "docs": "", "evidence": "",
+                                   "expected": mm.expected})
                 ET.SubElement(case, "failure", type="expectation", message=f"expected {mm.expected}, got {mm.got}")
         _close(suite, counts, totals, report.seconds)
     for error in errors:

@@ -25,7 +25,8 @@ td.cell { white-space: nowrap; }
 .v-holds, .v-strong { background: #dff2df; } .v-weak { background: #fdf0d0; }
 .v-fails { background: #f6d4d4; } .v-undecided, .v-not-applicable { background: #eeeeee; }
 .miss { color: #8b1a1a; font-weight: 700; }
-.kind { color: #444; font-size: .85rem; }
+.kind { color: #444; font-size: .85rem; } abbr { text-decoration: underline dotted; }
+.meaning { font-size: .92rem; }
 math[display="block"] { font-size: 1.25rem; margin: .6rem 0; }
 figure { margin: 1rem 0; } figure img { max-width: 100%; height: auto; border: 1px solid #ddd; }
 figcaption { font-size: .88rem; color: #333; max-width: 60rem; }
@@ -58,7 +59,12 @@ def _verdict_cell(row: VerdictRow | None) -> str:
     miss = "" if row.met else f' <span class="miss">✗ expected {escape(row.expected or "")}</span>'
     kind = row.kind.replace("_", " ")
     return (f'<td class="cell v-{escape(row.verdict)}"><span class="v">{escape(row.verdict_words)}</span>{miss}'
-            f'<br><span class="kind">{escape(kind)}{" · " + escape(row.code) if row.code else ""}</span></td>')
+            f'<br><span class="kind">{escape(kind)}{" · " + _code(row) if row.code else ""}</span></td>')
+
+
+def _code(row: VerdictRow) -> str:
+    """The code, its meaning shown on hovering (the verdict list below says it in full)."""
+    return f'<abbr title="{escape(row.meaning)}">{escape(row.code)}</abbr>' if row.meaning else escape(row.code)
 
 
 def _summary_table(model: ReportModel) -> str:
@@ -80,6 +86,9 @@ def _verdicts(section: CostSection) -> str:
                         else f' <span class="miss">(expected {escape(r.expected)}: NOT met)</span>')
         notes = "".join(f'<br><span class="dim">Note: {escape(n)}</span>' for n in r.notes)
         detail = f'<br><span class="dim">{escape(r.summary)}</span>' if r.summary else ""
+        if r.code:
+            detail = (f'<br><span class="meaning">{escape(r.code)}: {escape(r.meaning)} '
+                      f'(<code>costcheck explain {escape(r.code)}</code>)</span>{detail}')
         items.append(f"<li><b>{escape(r.title)}</b>: <span class=\"v\">{escape(r.verdict_words)}</span>"
                      f"{' [' + escape(r.code) + ']' if r.code else ''}{expected} — {escape(r.words)}."
                      f"{detail}{notes}</li>")

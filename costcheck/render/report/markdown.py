@@ -90,6 +90,8 @@ def _section(s: CostSection) -> list[str]:
             expected = f" (expected {r.expected}: {'met' if r.met else 'NOT met'})"
         code = " \\[" + _text(r.code) + "\\]" if r.code else ""
         out.append(f"- **{_text(r.title)}**: **{_text(r.verdict_words)}**{code}{_text(expected)} — {_text(r.words)}.")
+        if r.code:
+            out.append(f"  {_text(r.code)}: {_text(r.meaning)} (`costcheck explain {r.code}`).")
         if r.summary:
             out.append(f"  {_text(r.summary)}")
         out += [f"  Note: {_text(n)}" for n in r.notes]

@@ -14,7 +14,7 @@ from dataclasses import dataclass, field
 from typing import Sequence
 
 from ...model.display import number, with_error
-from ...model.verdict import Verdict, Witness
+from ...model.verdict import CODE_MEANINGS, Verdict, Witness
 
 #: what each condition means, in a reader's words; a condition added later shows its name
 CONDITION_TITLES = {
@@ -112,6 +112,8 @@ class VerdictRow:
     notes: tuple[str, ...]
     #: where the verdict holds when less than the domain ("on the non-degenerate part"), else ""
     scope: str = ""
+    #: the code in plain words (the JSON's ``code_meaning``), so a reader needs no table; "" without a code
+    meaning: str = ""
 
     @property
     def verdict_words(self) -> str:
@@ -152,7 +154,7 @@ def verdict_rows(report) -> list[VerdictRow]:
         rows.append(VerdictRow(name, CONDITION_TITLES.get(name, name), v.verdict, v.code, v.evidence.kind,
                                evidence_words(v, cost.x_names, cost.y_names), v.evidence.summary, expected,
                                expected is None or expected == v.verdict, tuple(v.notes),
-                               v.scope.get("text", "") if v.scope else ""))
+                               v.scope.get("text", "") if v.scope else "", CODE_MEANINGS[v.code]))
     for mm in report.mismatches:
         if mm.condition not in report.verdicts:
             rows.append(VerdictRow(mm.condition, CONDITION_TITLES.get(mm.condition, mm.condition), mm.got, "",
