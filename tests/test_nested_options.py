@@ -90,7 +90,7 @@ data:
 
 
 def test_out_writes_the_map_on_a_density_source_without_at(tmp_path, capsys):
-    # the README's promise: --out DIR writes the map as CSV, with or without --at; for a density
+    # docs/usage.md's promise: --out DIR writes the map as CSV, with or without --at; for a density
     # the rows are the midpoint-rule nodes, each with its normalised mass
     import numpy as np
 

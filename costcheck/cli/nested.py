@@ -32,7 +32,7 @@ def _write_out(out: Path, document: dict, cost, result, at_values) -> list[str]:
         written.append(str(out / "levels.csv"))
     if result.map_on_source is not None:
         # T at every source point, or at every node of a source density's midpoint rule, with the
-        # (normalised) mass each carries: the map the README promises, with or without --at
+        # (normalised) mass each carries: the map docs/usage.md promises, with or without --at
         write_map_csv(out / "map-on-source.csv", cost.x_names, cost.y_names[0], result.source.points,
                       result.map_on_source, weights=result.source.weights)
         written.append(str(out / "map-on-source.csv"))

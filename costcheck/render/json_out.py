@@ -1,6 +1,6 @@
 """Machine-readable output: one JSON document per run.
 
-Shape (documented in the README)::
+Shape (documented in docs/usage.md and schema/results.schema.json)::
 
     {"tool": "costcheck", "version": "...", "options": {...},
      "costs": [{"id", "file", "title", "sense", "n", "m", "seconds",
