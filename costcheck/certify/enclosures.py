@@ -6,7 +6,7 @@ The fields and their index layout are those of :class:`costcheck.derivatives.Der
 
 from __future__ import annotations
 
-from typing import Sequence
+from typing import Callable, Sequence
 
 import numpy as np
 
@@ -18,9 +18,10 @@ from .arb_eval import compile_exprs
 TENSOR_FIELDS = ("dxy", "dxxy", "dxyy", "dxxyy")
 
 
-def flat_fields(cost, fields: Sequence[str], substitution: dict | None = None):
+def flat_fields(cost, fields: Sequence[str], substitution: dict | None = None, rewrite: Callable | None = None):
     """``(distinct entries, layout, shapes)`` of the named derivative fields: ``layout[name]`` lists the
-    position in the entries of each element of the field (row-major), ``shapes[name]`` its shape."""
+    position in the entries of each element of the field (row-major), ``shapes[name]`` its shape.
+    ``rewrite`` (after ``substitution``) maps each entry to an expression equal to it where it is used."""
     order = max(k for k, names in ORDER_FIELDS.items() if set(names) & set(fields))
     sym = symbolic_derivatives(cost.expr, cost.x_symbols, cost.y_symbols, order)
     shapes, layout = {}, {}
@@ -32,6 +33,8 @@ def flat_fields(cost, fields: Sequence[str], substitution: dict | None = None):
         for e in arr.reshape(-1):
             if substitution:
                 e = e.xreplace(substitution)
+            if rewrite is not None:
+                e = rewrite(e)
             if e not in position:
                 position[e] = len(flat)
                 flat.append(e)
@@ -44,10 +47,11 @@ class FieldEnclosures:
     """``enclose(cell) -> {field: nested lists of balls}`` for the named derivative fields."""
 
     def __init__(self, cost, fields: Sequence[str], substitution: dict | None = None,
-                 symbols: Sequence | None = None):
-        """``substitution`` rewrites the derivatives into other variables ``symbols`` (default: x, then y)."""
+                 symbols: Sequence | None = None, rewrite: Callable | None = None):
+        """``substitution`` rewrites the derivatives into other variables ``symbols`` (default: x, then y);
+        ``rewrite`` then applies identities that hold where the fields are enclosed (:mod:`.range_identities`)."""
         self.fields = tuple(fields)
-        flat, self._layout, self._shapes = flat_fields(cost, self.fields, substitution)
+        flat, self._layout, self._shapes = flat_fields(cost, self.fields, substitution, rewrite)
         variables = tuple(symbols) if symbols is not None else tuple(cost.x_symbols) + tuple(cost.y_symbols)
         #: every rewritten derivative is a function of ``symbols`` alone (else nothing is compiled)
         self.free_of_others = all(e.free_symbols <= set(variables) for e in flat)
