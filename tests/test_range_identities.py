@@ -79,3 +79,24 @@ def test_rational_forms_keep_values_and_refuse_what_is_not_rational():
     y = sp.Symbol("y")
     assert forms.reduce(sp.atan(s) * y) is None  # another variable
     assert forms.reduce(sp.Float(0.5) * s) is None  # a rounded number is not a rational
+
+
+def test_gram_matrix_gives_the_cross_curvature_form():
+    # w = (ξ_i η_k): Σ T_ijkl ξ_i ξ_j η_k η_l = wᵀ G w for the matrix chosen (exact rationals; algebra)
+    from costcheck.certify.chart_nncc import PRODUCTS, gram_matrix
+
+    rng = np.random.default_rng(8)
+    pairs = [(0, 0), (0, 1), (1, 1)]
+    for zero_row in (False, True):
+        T = {(i, j, k, l): sp.Rational(int(rng.integers(-9, 10)), 7) for i, j in pairs for k, l in pairs}
+        if zero_row:  # the pattern of the sphere's normal forms: Q vanishes at ξ = η = e₀
+            T[(0, 0, 0, 0)] = T[(0, 0, 0, 1)] = T[(0, 1, 0, 0)] = 0
+        G = gram_matrix(T, lambda e: e)
+        for _ in range(5):
+            xi, eta = rng.integers(-5, 6, 2), rng.integers(-5, 6, 2)
+            w = sp.Matrix([int(xi[i] * eta[k]) for i, k in PRODUCTS])
+            Q = sum(T[(min(i, j), max(i, j), min(k, l), max(k, l))] * int(xi[i] * xi[j] * eta[k] * eta[l])
+                    for i in range(2) for j in range(2) for k in range(2) for l in range(2))
+            assert (w.T * G * w)[0] == Q
+        if zero_row:
+            assert all(G[0, b] == 0 for b in range(4))

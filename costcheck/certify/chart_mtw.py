@@ -41,13 +41,22 @@ MAX_RATIONAL_OPERATIONS = 1000
 SYMBOLIC_SECONDS = 120.0
 
 
+def rational_frame(cost, frame: RadialFrame):
+    """``(frame whose rewrite also reduces each field in Q(s, atoms), the forms)``, or None when a field is not
+    rational there (:mod:`.rational_forms`)."""
+    fields, _, _ = flat_fields(cost, TENSOR_FIELDS, frame.to_axis, frame.rewrite)
+    forms = RationalForms(frame.r, fields)
+    if not all(forms.reduce(e) is not None for e in fields):
+        return None
+    return dataclasses.replace(frame, rewrite=lambda e: forms.reduce(frame.rewrite(e))), forms
+
+
 def _simplified(cost, frame: RadialFrame, may_simplify: bool):
     """The quartic's coefficients in ``s``: by exact cancellation in ``Q(s, atoms)`` when every field is rational
     there (:mod:`.rational_forms`), else by ``sympy.simplify`` if allowed; None when neither applies."""
-    fields, _, _ = flat_fields(cost, TENSOR_FIELDS, frame.to_axis, frame.rewrite)
-    forms = RationalForms(frame.r, fields)
-    if all(forms.reduce(e) is not None for e in fields):
-        reduced = dataclasses.replace(frame, rewrite=lambda e: forms.reduce(frame.rewrite(e)))
+    built = rational_frame(cost, frame)
+    if built is not None:
+        reduced, forms = built
         coefficients = radial.circle_coefficients(cost, reduced)
         if coefficients is not None:
             out = [forms.reduce(c, factor=True) for c in coefficients]
@@ -57,6 +66,13 @@ def _simplified(cost, frame: RadialFrame, may_simplify: bool):
         return None
     coefficients = radial.circle_coefficients(cost, frame)
     return None if coefficients is None else [sp.simplify(c) for c in coefficients]
+
+
+def fields_defined(fields, a, b) -> bool:
+    """Every derivative field at the normal forms of the cell ``[a, b]`` is enclosed and ``det D²_xy c`` excludes 0
+    there: the original expressions are defined on the cell, so reduced forms equal them."""
+    at_cell = fields.at_balls([balls.from_bounds(a[0], b[0])])  # None unless every field is enclosed
+    return at_cell is not None and balls.excludes_zero(quantities.det(at_cell["dxy"]))
 
 
 def chart_strong(cost, space: ProofSpace, budget: Budget) -> Outcome | None:
@@ -74,8 +90,7 @@ def chart_strong(cost, space: ProofSpace, budget: Budget) -> Outcome | None:
     fields = space.enclosures
 
     def decide(a, b):
-        at_cell = fields.at_balls([balls.from_bounds(a[0], b[0])])  # None unless every field is enclosed
-        if at_cell is None or not balls.excludes_zero(quantities.det(at_cell["dxy"])):
+        if not fields_defined(fields, a, b):
             return None
         duals, _, _ = function.duals_over_box(a, b)
         values = [d.value for d in duals]

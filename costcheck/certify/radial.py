@@ -34,7 +34,7 @@ def _form(T: dict, inv, xi, eta) -> sp.Expr:
     return total
 
 
-def _axis_tensor(cost, frame: RadialFrame):
+def axis_tensor(cost, frame: RadialFrame):
     """``(T, M⁻¹)`` in sympy at ``x − y = (r, 0, …)``, or None if the rewrite keeps other symbols."""
     n = cost.n
     sym = symbolic_derivatives(cost.expr, cost.x_symbols, cost.y_symbols, 4)
@@ -49,7 +49,7 @@ def _axis_tensor(cost, frame: RadialFrame):
 def triangle_coefficients(cost, frame: RadialFrame) -> list[sp.Expr] | None:
     """``[c₀, c₁, c₂, c₃]`` as expressions in ``frame.r`` (``n ≥ 3``), or None."""
     n = cost.n
-    built = _axis_tensor(cost, frame)
+    built = axis_tensor(cost, frame)
     if built is None:
         return None
     T, inv = built
@@ -65,7 +65,7 @@ def triangle_coefficients(cost, frame: RadialFrame) -> list[sp.Expr] | None:
 
 def circle_coefficients(cost, frame: RadialFrame) -> list[sp.Expr] | None:
     """The five coefficients of ``S(u, v)`` on ``ξ = (u, v)``, ``η = (−v, u)`` (``n = 2``), or None."""
-    built = _axis_tensor(cost, frame)
+    built = axis_tensor(cost, frame)
     if built is None:
         return None
     T, inv = built
