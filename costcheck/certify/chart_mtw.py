@@ -90,13 +90,13 @@ def chart_strong(cost, space: ProofSpace, budget: Budget) -> Outcome | None:
     fields = space.enclosures
 
     def decide(a, b):
-        if not fields_defined(fields, a, b):
-            return None
         duals, _, _ = function.duals_over_box(a, b)
         values = [d.value for d in duals]
         if not all(v.is_finite() for v in values):
             return None
-        return quantities.circle_lower_bound(values)
+        bound = quantities.circle_lower_bound(values)
+        # last: the costliest test, needed only on a cell the quartic proves
+        return bound if bound is not None and fields_defined(fields, a, b) else None
 
     outcome = branch_and_bound(space.lo, space.hi, space.classify, decide, budget)
     outcome.space, outcome.names = space.description, space.names

@@ -13,13 +13,17 @@ when ``G_(00),(00)`` or ``G_(11),(11)`` is 0, ``μ = T_0101`` when ``G_(01),(01)
 The entries are built at the normal forms in ``Q(s, atoms)`` (:mod:`.rational_forms`); rows that
 reduce to 0 exactly are dropped (they are 0 wherever the fields are defined), and the rest is shown
 positive definite on each cell by its leading principal minors (Sylvester's criterion), each reduced
-and factored once and enclosed by the mean-value form.  A cell counts only when the original fields
+and factored once; each factor is enclosed on its own by the mean-value form, and a minor is positive
+on the cell when every factor excludes 0 there and the signs multiply to +.  A cell counts only when the original fields
 are enclosed and ``det D²_xy c`` excludes 0 there (:func:`.chart_mtw.fields_defined`), so the reduced
 forms equal the originals on it.  The chart's change of coordinates keeps the sign of ``Q`` (see
 :mod:`.charts`), so ``Q ≥ 0`` at every normal form of the cover gives NNCC on the domain.
 """
 
 from __future__ import annotations
+
+import itertools
+import math
 
 import sympy as sp
 
@@ -55,6 +59,17 @@ def gram_matrix(T: dict, reduce) -> sp.Matrix | None:
     return G
 
 
+def _leibniz(H: sp.Matrix) -> sp.Expr:
+    """``det H`` as the plain sum over permutations (at most 4! terms), left for exact reduction: sympy's own
+    determinant simplifies every product on the way and takes minutes on these entries."""
+    n = H.shape[0]
+    terms = []
+    for p in itertools.permutations(range(n)):
+        inversions = sum(1 for i in range(n) for j in range(i + 1, n) if p[i] > p[j])
+        terms.append((-1) ** inversions * sp.Mul(*[H[i, p[i]] for i in range(n)]))
+    return sp.Add(*terms)
+
+
 def _minors(cost, frame: RadialFrame):
     """``(leading principal minors of G's non-zero rows, rows kept)`` as expressions in ``s``, or None."""
     built = chart_mtw.rational_frame(cost, frame)
@@ -69,8 +84,18 @@ def _minors(cost, frame: RadialFrame):
         return None
     keep = [a for a in range(4) if any(G[a, b] != 0 for b in range(4))]
     H = G.extract(keep, keep)
-    minors = [forms.reduce(H[:k, :k].det(method="berkowitz"), factor=True) for k in range(1, len(keep) + 1)]
+    minors = [forms.reduce(_leibniz(H[:k, :k]), factor=True) for k in range(1, len(keep) + 1)]
     return None if any(m is None for m in minors) else (minors, [PRODUCTS[a] for a in keep])
+
+
+def _factors(expression: sp.Expr) -> list:
+    """``[(base, power)]`` with ``expression = Π base^power`` (the factored minor read off its product; each base
+    is enclosed on its own, which keeps a factor's cancellation from spreading to the others)."""
+    out = []
+    for factor in sp.Mul.make_args(expression):
+        base, power = factor.as_base_exp() if factor.is_Pow and factor.exp.is_Integer else (factor, 1)
+        out.append((base, int(power)))
+    return out
 
 
 def chart_nncc(cost, space: ProofSpace, budget: Budget) -> Outcome | None:
@@ -83,14 +108,21 @@ def chart_nncc(cost, space: ProofSpace, budget: Budget) -> Outcome | None:
     if status != "ok" or built is None or any(m.free_symbols - {s} for m in built[0]):
         return None
     minors, kept = built
-    function = compile_exprs(tuple(minors), (s,))
+    split = [_factors(m) for m in minors]
+    bases = sorted({b for factors in split for b, _ in factors}, key=sp.default_sort_key)
+    function = compile_exprs(tuple(bases), (s,))
     fields = space.enclosures
 
     def decide(a, b):
-        if not chart_mtw.fields_defined(fields, a, b):
-            return None
         duals, _, _ = function.duals_over_box(a, b)
-        if not all(balls.positive(d.value) for d in duals):
+        signs = {}
+        for base, dual in zip(bases, duals):
+            if not balls.excludes_zero(dual.value):
+                return None
+            signs[base] = 1 if balls.positive(dual.value) else -1
+        if not all(math.prod(signs[base] ** power for base, power in factors) > 0 for factors in split):
+            return None
+        if not chart_mtw.fields_defined(fields, a, b):  # last: the costliest test, needed only on a proved cell
             return None
         return 0.0  # what is proved is Q ≥ 0 (the form may vanish): its lower bound is 0
 
