@@ -39,6 +39,7 @@ from .arb_eval import compile_exprs
 from .cell_region import CellLocator
 from .enclosures import FieldEnclosures
 from .interval_eval import compile_interval_exprs
+from .range_identities import RangeRewriter
 from .region import bounding_box
 from .space import ConstraintLocator, ProofSpace
 
@@ -191,7 +192,8 @@ def chart_space(cost, fields: Sequence[str]) -> ProofSpace | None:
             g = through_pairing(c.inequality.g, x, y, chart, t)
             if g is not None:
                 tests.append((compile_exprs((g.xreplace({t: sigma_at}),), (s,)), c.inequality.strict))
-        enclosures = FieldEnclosures(cost, fields, substitution=to_normal, symbols=(s,))
+        rewrite = RangeRewriter(s, chart.start, far)
+        enclosures = FieldEnclosures(cost, fields, substitution=to_normal, symbols=(s,), rewrite=rewrite)
         if not enclosures.free_of_others:
             return None
         description = (f"normal-form pairs of {chart.name} (the cost is F(σ), shown by exact rewriting; "
@@ -200,6 +202,7 @@ def chart_space(cost, fields: Sequence[str]) -> ProofSpace | None:
                        "that change of chart, its size is not: the lower bound is the normal forms')")
         space = ProofSpace(description, ["s"], np.array([chart.start]), np.array([far]), enclosures,
                            ConstraintLocator(tests).classify)
-        space.normal_form = (s, to_normal)  # for .chart_mtw: the rewrite of x, y into the normal forms
+        # for .chart_mtw: the rewrite of x, y into the normal forms, and the identities proved on the cover
+        space.normal_form = (s, to_normal, rewrite)
         return space
     return None

@@ -6,7 +6,7 @@ The fields and their index layout are those of :class:`costcheck.derivatives.Der
 
 from __future__ import annotations
 
-from typing import Sequence
+from typing import Callable, Sequence
 
 import numpy as np
 
@@ -19,9 +19,11 @@ from .arb_eval import compile_exprs
 TENSOR_FIELDS = ("dxy", "dxxy", "dxyy", "dxxyy")
 
 
-def flat_fields(cost, fields: Sequence[str], substitution: dict | None = None, composed: bool = False):
+def flat_fields(cost, fields: Sequence[str], substitution: dict | None = None, rewrite: Callable | None = None,
+                composed: bool = False):
     """``(distinct entries, layout, shapes)`` of the named derivative fields: ``layout[name]`` lists the
     position in the entries of each element of the field (row-major), ``shapes[name]`` its shape.
+    ``rewrite`` (after ``substitution``) maps each entry to an expression equal to it where it is used.
 
     ``composed``: the derivatives by Faà di Bruno's formula where the cost is ``F(t)``
     (:mod:`costcheck.derivatives.composition`), the same functions formed far faster on the charts;
@@ -39,6 +41,8 @@ def flat_fields(cost, fields: Sequence[str], substitution: dict | None = None, c
         for e in arr.reshape(-1):
             if substitution:
                 e = e.xreplace(substitution)
+            if rewrite is not None:
+                e = rewrite(e)
             if e not in position:
                 position[e] = len(flat)
                 flat.append(e)
@@ -51,11 +55,12 @@ class FieldEnclosures:
     """``enclose(cell) -> {field: nested lists of balls}`` for the named derivative fields."""
 
     def __init__(self, cost, fields: Sequence[str], substitution: dict | None = None,
-                 symbols: Sequence | None = None, composed: bool = False):
+                 symbols: Sequence | None = None, rewrite: Callable | None = None, composed: bool = False):
         """``substitution`` rewrites the derivatives into other variables ``symbols`` (default: x, then y);
+        ``rewrite`` then applies identities that hold where the fields are enclosed (:mod:`.range_identities`);
         ``composed`` as for :func:`flat_fields`."""
         self.fields = tuple(fields)
-        flat, self._layout, self._shapes = flat_fields(cost, self.fields, substitution, composed)
+        flat, self._layout, self._shapes = flat_fields(cost, self.fields, substitution, rewrite, composed)
         variables = tuple(symbols) if symbols is not None else tuple(cost.x_symbols) + tuple(cost.y_symbols)
         #: every rewritten derivative is a function of ``symbols`` alone (else nothing is compiled)
         self.free_of_others = all(e.free_symbols <= set(variables) for e in flat)

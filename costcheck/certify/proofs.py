@@ -29,7 +29,9 @@ without an implemented certificate, a domain the sufficient condition does not c
   ``B = b²`` ranging over the triangle ``A, B ≥ 0``, ``A + B ≤ 1``.  The four coefficients come from
   ``S`` at four orthonormal pairs, and a bilinear function's minimum on the triangle lies on its
   edges: two linear, one quadratic in ``A`` (bounded on ``A``-intervals).
-- **NNCC with a positive minimum** for ``n = 2``: ``A(ξ)`` positive definite for all unit ``ξ``.
+- **NNCC with a positive minimum** for ``n = 2``: ``A(ξ)`` positive definite for all unit ``ξ``; over a
+  chart's normal forms, with a long budget, ``Q ≥ 0`` by a semidefinite Gram matrix instead
+  (:mod:`.chart_nncc`), which also covers forms that vanish along a direction.
 """
 
 from __future__ import annotations
@@ -37,7 +39,7 @@ from __future__ import annotations
 from ..model.domain import Ball, Box
 from flint import arb
 
-from . import balls, chart_mtw, quantities, radial
+from . import balls, chart_mtw, chart_nncc, quantities, radial
 from .branch_bound import Budget, Outcome, branch_and_bound
 from .dual import Dual, tighten
 from .enclosures import TENSOR_FIELDS
@@ -205,6 +207,11 @@ def mtw_strong(cost, budget: Budget):
 def nncc_positive(cost, budget: Budget):
     if (why := _plane_only(cost, "NNCC")) is not None:
         return None, why
+    # the Gram route costs about 100 s of sympy on the sphere's squared distance and does not finish there
+    # (cells near the diagonal stay undecided): only for a long budget, never in a default check
+    chart = chart_space(cost, TENSOR_FIELDS) if budget.seconds >= CHART_TENSOR_SECONDS else None
+    if chart is not None and (outcome := chart_nncc.chart_nncc(cost, chart, budget)) is not None:
+        return outcome, ""
 
     def coefficients(f):
         T, _ = _tensor_on(f)

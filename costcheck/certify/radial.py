@@ -34,11 +34,11 @@ def _form(T: dict, inv, xi, eta) -> sp.Expr:
     return total
 
 
-def _axis_tensor(cost, frame: RadialFrame):
+def axis_tensor(cost, frame: RadialFrame):
     """``(T, M⁻¹)`` in sympy at ``x − y = (r, 0, …)``, or None if the rewrite keeps other symbols."""
     n = cost.n
     sym = symbolic_derivatives(cost.expr, cost.x_symbols, cost.y_symbols, 4)
-    on_axis = {name: _rewrite(sym[name], frame.to_axis) for name in ("dxy", "dxxy", "dxyy", "dxxyy")}
+    on_axis = {name: _rewrite(sym[name], frame.to_axis, frame.rewrite) for name in ("dxy", "dxxy", "dxyy", "dxxyy")}
     M = sp.Matrix(on_axis["dxy"])
     if M.free_symbols - {frame.r} or M.det() == 0:
         return None
@@ -67,7 +67,7 @@ def adjugate_inverse(M: sp.Matrix, frame: RadialFrame) -> sp.Matrix:
 def triangle_coefficients(cost, frame: RadialFrame) -> list[sp.Expr] | None:
     """``[c₀, c₁, c₂, c₃]`` as expressions in ``frame.r`` (``n ≥ 3``), or None."""
     n = cost.n
-    built = _axis_tensor(cost, frame)
+    built = axis_tensor(cost, frame)
     if built is None:
         return None
     T, inv = built
@@ -83,7 +83,7 @@ def triangle_coefficients(cost, frame: RadialFrame) -> list[sp.Expr] | None:
 
 def circle_coefficients(cost, frame: RadialFrame) -> list[sp.Expr] | None:
     """The five coefficients of ``S(u, v)`` on ``ξ = (u, v)``, ``η = (−v, u)`` (``n = 2``), or None."""
-    built = _axis_tensor(cost, frame)
+    built = axis_tensor(cost, frame)
     if built is None:
         return None
     T, inv = built
@@ -96,10 +96,11 @@ def _only_in(frame: RadialFrame, expressions: list):
     return None if any(e.free_symbols - {frame.r} for e in expressions) else expressions
 
 
-def _rewrite(entries, substitution):
+def _rewrite(entries, substitution, identities=None):
     if isinstance(entries, list):
-        return [_rewrite(e, substitution) for e in entries]
-    return entries.xreplace(substitution)
+        return [_rewrite(e, substitution, identities) for e in entries]
+    entry = entries.xreplace(substitution)
+    return identities(entry) if identities is not None else entry
 
 
 def radial_strong(cost, frame: RadialFrame, budget: Budget) -> Outcome | None:

@@ -121,6 +121,8 @@ class RadialFrame:
     classify: Callable[[np.ndarray, np.ndarray], str]
     description: str = ("distances r = |x − y| (the cost is a function of |x − y|: a translation and a rotation "
                         "carry every pair to z = (r, 0))")
+    #: identities applied to the derivatives once rewritten (:mod:`.range_identities`), or None
+    rewrite: Callable | None = None
 
 
 def radial_frame(cost) -> RadialFrame | None:
