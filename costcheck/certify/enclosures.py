@@ -22,7 +22,8 @@ def flat_fields(cost, fields: Sequence[str], substitution: dict | None = None):
     """``(distinct entries, layout, shapes)`` of the named derivative fields: ``layout[name]`` lists the
     position in the entries of each element of the field (row-major), ``shapes[name]`` its shape."""
     order = max(k for k, names in ORDER_FIELDS.items() if set(names) & set(fields))
-    sym = symbolic_derivatives(cost.expr, cost.x_symbols, cost.y_symbols, order)
+    sym = symbolic_derivatives(cost.expr, cost.x_symbols, cost.y_symbols, order,
+                               getattr(cost, "generating", None) is not None)
     shapes, layout = {}, {}
     flat, position = [], {}
     for name in fields:

@@ -33,7 +33,10 @@ def make_evaluator(cost, backend: str = "sympy", order: int = 4) -> Evaluator:
         from .sympy_backend import build
 
         return Evaluator(cost.n, cost.m, order, backend,
-                         build(cost.expr, cost.x_symbols, cost.y_symbols, order, getattr(cost, "family", None)))
+                         build(cost.expr, cost.x_symbols, cost.y_symbols, order, getattr(cost, "family", None),
+                               generating=getattr(cost, "generating", None) is not None))
+    if backend == "jax" and getattr(cost, "generating", None) is not None:
+        raise UsageError(f"'{cost.id}' is a generating function: its checks use the sympy backend")
     if backend == "jax":
         from .jax_backend import build_from_cost
 

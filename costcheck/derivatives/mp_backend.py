@@ -34,11 +34,11 @@ class HighPrecision:
     """``hp(x, y, dps)`` → dict of field name → nested lists of ``mpmath.mpf``."""
 
     def __init__(self, expr: sp.Expr, xs: Sequence[sp.Symbol], ys: Sequence[sp.Symbol], order: int = 4,
-                 extra: Sequence[sp.Symbol] = ()):
+                 extra: Sequence[sp.Symbol] = (), generating: bool = False):
         """``extra``: parameter symbols of a family, given values at each call (see ``Cost.family``)."""
         self.order = order
         self.names = fields_up_to(order)
-        sym = symbolic_derivatives(expr, xs, ys, order)
+        sym = symbolic_derivatives(expr, xs, ys, order, generating)
         self._shapes = {k: np.shape(np.array(sym[k], dtype=object)) for k in self.names}
         flat = [e for k in self.names for e in np.array(sym[k], dtype=object).reshape(-1)]
         self._sizes = [int(np.prod(self._shapes[k], dtype=int)) for k in self.names]
@@ -69,8 +69,8 @@ class HighPrecision:
 
 
 @lru_cache(maxsize=32)
-def _cached(expr, xs, ys, order, extra=()):
-    return HighPrecision(expr, xs, ys, order, extra)
+def _cached(expr, xs, ys, order, extra=(), generating=False):
+    return HighPrecision(expr, xs, ys, order, extra, generating)
 
 
 def high_precision(cost, order: int = 4) -> HighPrecision | None:
@@ -85,7 +85,8 @@ def high_precision(cost, order: int = 4) -> HighPrecision | None:
         template, values = family
         shared = _cached(template, cost.x_symbols, cost.y_symbols, order, tuple(s for s, _ in values))
         return shared.bound([v for _, v in values])
-    return _cached(cost.expr, cost.x_symbols, cost.y_symbols, order)
+    generating = getattr(cost, "generating", None) is not None
+    return _cached(cost.expr, cost.x_symbols, cost.y_symbols, order, (), generating)
 
 
 def confirm(compute, dps_low: int = 30, dps_high: int = 60) -> tuple[mpmath.mpf, mpmath.mpf]:

@@ -59,13 +59,21 @@ def _explicit_sign(e: sp.Expr) -> sp.Expr:
     return e.replace(lambda a: isinstance(a, sp.Derivative) and isinstance(a.expr, sp.sign), evaluate)
 
 
-def symbolic_derivatives(expr: sp.Expr, xs: Sequence[sp.Symbol], ys: Sequence[sp.Symbol], order: int) -> dict:
+def symbolic_derivatives(expr: sp.Expr, xs: Sequence[sp.Symbol], ys: Sequence[sp.Symbol], order: int,
+                         generating: bool = False) -> dict:
     """Nested lists of sympy expressions, one entry per field of :class:`Derivatives`.
+
+    ``generating``: ``expr`` is a generating function ``G(x, y, z)`` with ``z`` the last of ``ys``,
+    and the fields are those of its effective cost (:mod:`costcheck.derivatives.generating`).
 
     Cached: the numeric, high-precision and closed-form steps all start from the same
     derivatives, and differentiating a chart of the sphere four times takes seconds.
     Callers must not modify the returned lists.
     """
+    if generating:
+        from .generating import effective_derivatives
+
+        return effective_derivatives(expr, tuple(xs), tuple(ys), order)
     return _symbolic_derivatives(expr, tuple(xs), tuple(ys), order)
 
 
@@ -151,14 +159,15 @@ CHUNK = 8192
 THREADS = 2
 
 
-def build(expr: sp.Expr, xs: Sequence[sp.Symbol], ys: Sequence[sp.Symbol], order: int, family=None):
+def build(expr: sp.Expr, xs: Sequence[sp.Symbol], ys: Sequence[sp.Symbol], order: int, family=None,
+          generating: bool = False):
     """A function ``(xs (N,n), ys (N,m)) -> Derivatives`` evaluating the symbolic derivatives.
 
     ``family = (template, ((symbol, value), ...))`` evaluates the template's derivatives with the
     symbols set to the values: one differentiation and one compilation for a whole sweep.
     """
     if family is None:
-        return _build(expr, tuple(xs), tuple(ys), order)
+        return _build(expr, tuple(xs), tuple(ys), order, (), generating)
     template, values = family
     symbols = tuple(s for s, _ in values)
     numbers = tuple(float(v) for _, v in values)
@@ -167,9 +176,9 @@ def build(expr: sp.Expr, xs: Sequence[sp.Symbol], ys: Sequence[sp.Symbol], order
 
 
 @lru_cache(maxsize=64)
-def _build(expr, xs, ys, order, extra=()):
+def _build(expr, xs, ys, order, extra=(), generating=False):
     names = fields_up_to(order)
-    sym = symbolic_derivatives(expr, xs, ys, order)
+    sym = symbolic_derivatives(expr, xs, ys, order, generating)
     shapes = {name: np.shape(np.array(sym[name], dtype=object)) for name in names}
     flat, layout = distinct_entries(sym, names)
 
