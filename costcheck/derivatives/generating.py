@@ -34,7 +34,7 @@ from functools import lru_cache
 
 import sympy as sp
 
-from .sympy_backend import diff
+from .differentiate import diff
 
 
 def _total(F, G_ratio, ys, z):
