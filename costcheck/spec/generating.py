@@ -47,6 +47,13 @@ def parse_generating(data: Mapping, names: Mapping[str, sp.Expr], constant: Call
     if G.has(sp.zoo, sp.nan, sp.oo, -sp.oo):
         raise CostFileError("the generating function is undefined (a division by zero, log(0) or similar "
                             "between constants)", file=file, field="generating.expr")
+    z = names[spec["z"]]
+    # every condition divides by G_z (the level set G = u gives z as a function of (x, y, u)): a G
+    # that does not vary with z is a cost written in the wrong key, not a generating function
+    if not G.has(z) or sp.diff(G, z) == 0:
+        raise CostFileError(f"the generating function does not depend on its third variable '{z}' (G_z = 0 "
+                            "everywhere): write it with z, or give an ordinary cost as 'expr'", file=file,
+                            field="generating.expr")
     low = float(constant(spec["range"][0], "generating.range[0]"))
     high = float(constant(spec["range"][1], "generating.range[1]"))
     if not low < high:
