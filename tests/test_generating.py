@@ -168,3 +168,19 @@ def test_expr_and_generating_exactly_one(tmp_path, capsys, text, phrase):
     code = main(["check", str(path), "--no-cache", "--budget", "64"])
     err = capsys.readouterr().err.strip().splitlines()
     assert code == 2 and len(err) == 1 and str(path) in err[0] and phrase in err[0], err
+
+
+def test_a_twist_collision_is_found_and_left_undecided():
+    # G = x1 cos(y1) + x2 y2 - z: G_x = (cos y1, y2) and G take the same values at y1 and -y1
+    # (cos is even), so (y, z) ↦ (G_x, G) is not one-to-one on y1 in [-2, 2]; at fixed (y, z),
+    # G_y / G_z = (x1 sin y1, -x2) is one-to-one in x where sin y1 ≠ 0 (elementary calculus)
+    data = {"id": "fold", "x": ["x1", "x2"], "y": ["y1", "y2"],
+            "domain": {"x": {"box": [[0.5, 1], [0.5, 1]]}, "y": {"box": [[-2, 2], [-1, 1]]}},
+            "generating": {"expr": "x1*cos(y1) + x2*y2 - z", "z": "z", "range": [-1, 1]}}
+    verdicts = costcheck.check(build_cost(data), budget=128, seed=4, conditions=["g_twist", "g_dual_twist"]).verdicts
+    twist = verdicts["g_twist"]
+    assert twist.verdict == "undecided" and twist.value == 0.0  # a float collision, not certified
+    first, second = np.array(twist.evidence.details["first"]), np.array(twist.evidence.details["second"])
+    assert np.allclose(first[:2], second[:2]) and np.allclose(first[3:], second[3:])  # same x, y2, z
+    assert first[2] == pytest.approx(-second[2], abs=1e-8) and abs(first[2]) > 1e-3  # y1 and -y1
+    assert verdicts["g_dual_twist"].verdict == "holds" and verdicts["g_dual_twist"].evidence.kind == "sampled"

@@ -42,13 +42,17 @@ def check(ctx) -> Verdict:
         return _refute(ctx, cost, Gz, point, top, scale, count, details)
     if top / scale > -1e-12:
         return undecided(CONDITION, f"G_z reaches {top:.3g} (zero to rounding, scale {scale:.3g}) at "
-                                    f"x = {list(point[:n])}, (y, z) = {list(point[n:])}: not decided", **details)
+                                    f"x = {_short(point[:n])}, (y, z) = {_short(point[n:])}: not decided", **details)
     summary = (f"G_z < 0 at all {count} sampled triples (x, y, z) and at the ends of 8 local ascents; the "
-               f"largest, {top:.4g} (scale-free {top / scale:.3g}), is at x = {list(np.round(point[:n], 6))}, "
-               f"(y, z) = {list(np.round(point[n:], 6))}: evidence, not proof")
+               f"largest, {top:.4g} (scale-free {top / scale:.3g}), is at x = {_short(point[:n])}, "
+               f"(y, z) = {_short(point[n:])}: evidence, not proof")
     return Verdict(CONDITION, "holds", Evidence("sampled", summary, samples=count,
                                                 resolution=float(ctx.sample.resolution), details=details),
                    value=top / scale, value_meaning=VALUE_MEANING)
+
+
+def _short(values) -> list[float]:
+    return [round(float(v), 6) for v in values]
 
 
 def _refute(ctx, cost, Gz, point, top, scale, count, details) -> Verdict:

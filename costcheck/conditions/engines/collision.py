@@ -5,7 +5,8 @@ Points are full coordinate vectors ``(x, y, z)``; ``free`` lists the coordinates
 argument runs over, the others are fixed (taken from the shared sample).  For each fixed part
 a scrambled Sobol set of free parts inside the domain is mapped; nearest neighbours in the
 image (coordinates scaled by their spread) that are far apart in the argument are candidates;
-each is refined by SciPy's bounded least squares on ``F(w') = F(w)`` from the neighbour.  A
+all are refined together by a batched, bounded Levenberg–Marquardt iteration on
+``F(w') = F(w)`` from the neighbour (:func:`costcheck.numerics.search.batched_least_squares`).  A
 refined pair with image distance at rounding level and argument distance well above it is a
 collision *in floating point*: this module does not prove that an exact collision exists.
 """
@@ -15,10 +16,11 @@ from __future__ import annotations
 from dataclasses import dataclass
 
 import numpy as np
-from scipy.optimize import least_squares
+import sympy as sp
 from scipy.spatial import cKDTree
 from scipy.stats import qmc
 
+from ...numerics.search import batched_least_squares
 from . import generating as gen
 
 #: fixed parts tried, free points per fixed part, candidates refined per fixed part
@@ -51,7 +53,7 @@ def _free_points(ctx, cost, free, count, rng):
 
 def search(ctx, exprs, free, salt: int) -> Outcome:
     """Look for ``F(w) = F(w')``, ``w ≠ w'``, with ``F = exprs`` over the ``free`` coordinates."""
-    cost = ctx.cost
+    cost, exprs = ctx.cost, tuple(exprs)
     free = np.asarray(free)
     rng = ctx.rng(salt)
     base = gen.sample_points(ctx)
@@ -59,11 +61,12 @@ def search(ctx, exprs, free, salt: int) -> Outcome:
     W, lower, upper = _free_points(ctx, cost, free, FREE, rng)
     width = np.where(upper > lower, upper - lower, 1.0)
     tried, closest, n = 0, np.inf, cost.n
+    firsts, starts, spreads = [], [], []
     for row in fixed_rows:
         P = np.repeat(row[None], W.shape[0], axis=0)
         P[:, free] = W
         P = P[cost.domain.contains_pairs(P[:, :n], P[:, n:])]
-        F = np.stack([gen.evaluate(cost, e, P) for e in exprs], axis=1) if P.shape[0] else np.empty((0, len(exprs)))
+        F = gen.evaluate_many(cost, exprs, P) if P.shape[0] else np.empty((0, len(exprs)))
         ok = np.all(np.isfinite(F), axis=1)
         P, F = P[ok], F[ok]
         if P.shape[0] < 3:
@@ -75,31 +78,36 @@ def search(ctx, exprs, free, salt: int) -> Outcome:
         ratio = dist[:, 1] / np.maximum(apart, 1e-300)
         closest = min(closest, float(np.min(ratio)))
         for i in np.argsort(ratio)[:CANDIDATES]:
-            found = _refine(cost, exprs, free, P[i], P[idx[i, 1]], lower, upper, spread, width)
-            if found is not None:
-                return Outcome(tried, len(fixed_rows), closest, found)
-    return Outcome(tried, len(fixed_rows), closest, None)
+            firsts.append(P[i]), starts.append(P[idx[i, 1]]), spreads.append(spread)
+    found = _refine(cost, exprs, free, firsts, starts, spreads, lower, upper, width) if firsts else None
+    return Outcome(tried, len(fixed_rows), closest, found)
 
 
-def _refine(cost, exprs, free, w, start, lower, upper, spread, width) -> Collision | None:
-    target = np.array([gen.evaluate(cost, e, w[None])[0] for e in exprs])
+def _refine(cost, exprs, free, firsts, starts, spreads, lower, upper, width) -> Collision | None:
+    """Solve ``F(w') = F(w)`` from each neighbour ``start`` at once (a batched Levenberg–Marquardt
+    with the exact Jacobian of ``F`` in the free coordinates); the first pair, in the order of
+    the candidates, that meets at rounding level while far apart is the collision."""
+    W, S, spread = np.array(firsts), np.array(starts), np.array(spreads)
+    targets = gen.evaluate_many(cost, exprs, W)
+    variables = gen.symbols(cost)
+    jacobian = tuple(sp.diff(e, variables[j]) for e in exprs for j in free)
+    k, q = len(exprs), len(free)
 
-    def residual(v):
-        p = w.copy()
-        p[free] = v
-        out = np.array([gen.evaluate(cost, e, p[None])[0] for e in exprs]) - target
-        return np.where(np.isfinite(out), out, 1e6) / spread
+    def model(V):
+        P = W.copy()
+        P[:, free] = V
+        r = (gen.evaluate_many(cost, exprs, P) - targets) / spread
+        J = gen.evaluate_many(cost, jacobian, P).reshape(-1, k, q) / spread[:, :, None]
+        ok = np.all(np.isfinite(r), axis=1) & np.all(np.isfinite(J), axis=(1, 2))
+        return np.where(np.isfinite(r), r, 0.0), np.where(np.isfinite(J), J, 0.0), ok
 
-    try:
-        fit = least_squares(residual, np.clip(start[free], lower, upper), bounds=(lower, upper),
-                            xtol=1e-15, ftol=1e-15, gtol=1e-15, max_nfev=200)
-    except ValueError:
-        return None
-    w2 = w.copy()
-    w2[free] = fit.x
-    res = float(np.linalg.norm(fit.fun))
-    sep = float(np.linalg.norm((fit.x - w[free]) / width))
+    V, squares = batched_least_squares(model, np.clip(S[:, free], lower, upper), lower, upper, iterations=60)
     n = cost.n
-    if res < 1e-10 and sep > 1e-4 and cost.domain.contains_pairs(w2[None, :n], w2[None, n:])[0]:
-        return Collision(w, w2, res, sep)
+    for i in range(W.shape[0]):
+        w2 = W[i].copy()
+        w2[free] = V[i]
+        res = float(np.sqrt(squares[i]))
+        sep = float(np.linalg.norm((V[i] - W[i, free]) / width))
+        if res < 1e-10 and sep > 1e-4 and cost.domain.contains_pairs(w2[None, :n], w2[None, n:])[0]:
+            return Collision(W[i], w2, res, sep)
     return None

@@ -35,7 +35,7 @@ def symbols(cost) -> tuple:
 
 @lru_cache(maxsize=32)
 def _float_fn(expr, variables):
-    return sp.lambdify(list(variables), expr, modules="numpy", dummify=True)
+    return sp.lambdify(list(variables), expr, modules="numpy", dummify=True, cse=True)
 
 
 @lru_cache(maxsize=32)
@@ -48,6 +48,15 @@ def evaluate(cost, expr: sp.Expr, points: np.ndarray) -> np.ndarray:
     fn = _float_fn(expr, symbols(cost))
     with np.errstate(all="ignore"):
         out = np.asarray(fn(*points.T), dtype=complex) * np.ones(points.shape[0])
+    return np.where(np.abs(out.imag) == 0, out.real, np.nan)
+
+
+def evaluate_many(cost, exprs: tuple, points: np.ndarray) -> np.ndarray:
+    """Each of ``exprs`` at each row of ``points``, shape ``(rows, len(exprs))``: one compiled call,
+    so a search that evaluates a map point by point pays the call overhead once, not per component."""
+    fn = _float_fn(sp.Tuple(*exprs), symbols(cost))
+    with np.errstate(all="ignore"):
+        out = np.stack([np.asarray(v, dtype=complex) * np.ones(points.shape[0]) for v in fn(*points.T)], axis=1)
     return np.where(np.abs(out.imag) == 0, out.real, np.nan)
 
 

@@ -3,7 +3,6 @@
 
 from __future__ import annotations
 
-import numpy as np
 
 from ...model.verdict import Evidence, Verdict
 from .collision import Outcome
@@ -14,7 +13,7 @@ VALUE_MEANING = ("the smallest ratio, among sampled neighbours, of the distance 
 
 def _at(cost, w) -> str:
     n = cost.n
-    return f"x = {list(np.round(w[:n], 6))}, (y, z) = {list(np.round(w[n:], 6))}"
+    return f"x = {[round(float(v), 6) for v in w[:n]]}, (y, z) = {[round(float(v), 6) for v in w[n:]]}"
 
 
 def verdict_of(ctx, condition: str, outcome: Outcome, what: str) -> Verdict:
