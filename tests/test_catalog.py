@@ -31,7 +31,7 @@ from costcheck.spec.loader import find_cost_files, read_yaml
 from costcheck.spec.schema import VERDICT_WORDS
 
 CATALOG = Path(__file__).resolve().parent.parent / "catalog"
-SUBFOLDERS = ("euclidean", "sphere", "hyperbolic", "economics", "degenerate")
+SUBFOLDERS = ("euclidean", "sphere", "hyperbolic", "economics", "degenerate", "generating")
 
 #: sampled pairs per check: enough for the catalog's 1-D to 3-D costs, small enough that the
 #: whole of group (b) runs in a few minutes
@@ -239,8 +239,21 @@ def test_demo_files_say_their_data_is_invented():
         assert "invented" in data["title"].lower() and "invented" in data["data"].get("notes", "").lower(), relpath
 
 
+#: generating functions G(x, y, z): the check-value table's columns are the conditions of a cost, so
+#: these are not its rows; each names its sources in its own ``source`` field, and its expectations
+#: are test cases in group (b)
+GENERATING_FILES = {rel(p) for p in FILES if load(rel(p)).generating is not None}
+
+
+def test_generating_files_live_in_their_folder_and_name_their_sources():
+    assert GENERATING_FILES, "the catalog has no generating function"
+    for relpath in GENERATING_FILES:
+        assert relpath.startswith("generating/"), relpath
+        assert "Trudinger 2014" in raw(relpath)["source"], relpath
+
+
 def test_every_file_belongs_to_a_row():
-    mapped = {f for _, f in ROW_FILES} | DEMO_FILES
+    mapped = {f for _, f in ROW_FILES} | DEMO_FILES | GENERATING_FILES
     unmapped = sorted(set(rel(p) for p in FILES) - mapped)
     assert not unmapped, f"catalog files not mapped to a check-value row: {unmapped}"
 

@@ -374,7 +374,7 @@ def test_yaml_unreadable_values(tmp_path):
 def test_missing_required_key(tmp_path):
     data = base()
     del data["expr"]
-    rejects(tmp_path, data, None, "'expr' is missing (it is required)")
+    rejects(tmp_path, data, None, "'expr' is missing (or give 'generating' for a generating function)")
     data = base()
     del data["domain"]["y"]
     rejects(tmp_path, data, "domain", "'y' is missing (it is required)")

@@ -20,13 +20,13 @@ from . import balls, quantities
 from .enclosures import FieldEnclosures
 
 #: the conditions stated only where D²_xy c is invertible
-STATED_WHERE_INVERTIBLE = ("mtw", "nncc", "target_c_convex", "source_c_convex", "loeper")
+STATED_WHERE_INVERTIBLE = ("mtw", "nncc", "target_c_convex", "source_c_convex", "loeper", "g_mtw")
 
 
 def witness_points(condition: str, w) -> list[tuple[list, list]]:
     """The pairs ``(x, y)`` at which the condition's construction inverts ``M``."""
     x, y, v = list(w.x), list(w.y), w.vectors
-    if condition in ("mtw", "nncc"):
+    if condition in ("mtw", "nncc", "g_mtw"):  # g_mtw: y is (y, z), the fields the effective ones
         return [(x, y)]
     if condition == "target_c_convex":  # c-segments in Y w.r.t. the fixed x
         return [(x, list(v[k])) for k in ("y0", "y1", "y_exit") if k in v]

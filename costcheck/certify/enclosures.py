@@ -30,8 +30,11 @@ def flat_fields(cost, fields: Sequence[str], substitution: dict | None = None, r
     for enclosures at points (a witness), where the form does not change how tight they are.
     """
     order = max(k for k, names in ORDER_FIELDS.items() if set(names) & set(fields))
-    derive = composed_derivatives if composed else symbolic_derivatives
-    sym = derive(cost.expr, cost.x_symbols, cost.y_symbols, order)
+    if getattr(cost, "generating", None) is not None:  # a generating function's effective cost
+        sym = symbolic_derivatives(cost.expr, cost.x_symbols, cost.y_symbols, order, True)
+    else:
+        derive = composed_derivatives if composed else symbolic_derivatives
+        sym = derive(cost.expr, cost.x_symbols, cost.y_symbols, order)
     shapes, layout = {}, {}
     flat, position = [], {}
     for name in fields:

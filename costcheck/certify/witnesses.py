@@ -40,6 +40,9 @@ from .region import Locator
 
 BITS = 128
 
+#: the conditions of a generating function: a failure that is not certified is undecided, not "fails"
+UNDECIDED_UNLESS_CERTIFIED = ("z_monotone", "g_twist", "g_dual_twist", "g_nondegenerate", "g_mtw")
+
 
 def _point(values) -> list:
     return [arb(float(v)) for v in values]
@@ -305,7 +308,8 @@ def certify_refutation(ctx, verdict: Verdict) -> Verdict:
     cost, w = ctx.cost, verdict.witness
     method = verdict.evidence.details.get("method", "")
     bound = None
-    if verdict.condition in STATED_WHERE_INVERTIBLE and cost.n == cost.m and cost.expr is not None:
+    square = cost.n == cost.m or cost.generating is not None  # a generating function's fields are n × n
+    if verdict.condition in STATED_WHERE_INVERTIBLE and square and cost.expr is not None:
         # first of all: a witness counts only where the condition is stated (D²_xy c invertible, certified)
         bound, part_text = _where_defined(ctx, verdict, w)
         if bound is None:
@@ -314,9 +318,9 @@ def certify_refutation(ctx, verdict: Verdict) -> Verdict:
         try:
             if cost.expr is None:
                 enclosure, text = None, "a Python-function cost has no symbolic form to enclose"
-            elif verdict.condition in ("mtw", "nncc"):
-                enclosure, text = _mtw(cost, w, orthogonal=verdict.condition == "mtw")
-            elif verdict.condition == "nondegenerate":
+            elif verdict.condition in ("mtw", "nncc", "g_mtw"):
+                enclosure, text = _mtw(cost, w, orthogonal=verdict.condition != "nncc")
+            elif verdict.condition in ("nondegenerate", "g_nondegenerate"):
                 enclosure, text = _nondegenerate(cost, w, method)
             elif verdict.condition == "twist":
                 enclosure, text = _twist(cost, w, method)
@@ -338,6 +342,8 @@ def certify_refutation(ctx, verdict: Verdict) -> Verdict:
         evidence = dataclasses.replace(verdict.evidence, summary=f"{verdict.evidence.summary}; certified by ball "
                                        "arithmetic", details=details)
         return dataclasses.replace(verdict, evidence=evidence, witness=witness)
+    if verdict.condition in UNDECIDED_UNLESS_CERTIFIED:
+        return _uncertified(verdict, text)
     evidence = Evidence("sampled", f"{verdict.evidence.summary} — NOT certified: {text}; treat the failure as "
                         "strong numerical evidence, not a proof", samples=verdict.evidence.samples,
                         resolution=verdict.evidence.resolution,
@@ -364,3 +370,13 @@ def _not_where_defined(verdict: Verdict, why: str) -> Verdict:
                         details={**verdict.evidence.details, "certification": why})
     return dataclasses.replace(verdict, verdict="undecided", evidence=evidence, witness=None,
                                notes=verdict.notes + (f"the candidate witness is not a refutation: {why}",))
+
+
+def _uncertified(verdict: Verdict, why: str) -> Verdict:
+    """A failure seen in floating point but not enclosed: undecided (the generating conditions' rule)."""
+    summary = (f"a candidate failure was found but could not be certified: {why}; not a refutation, so the "
+               f"condition is not decided (the candidate was: {verdict.evidence.summary})")
+    evidence = Evidence("undecided", summary, samples=verdict.evidence.samples, resolution=verdict.evidence.resolution,
+                        details={**verdict.evidence.details, "certification": why})
+    return dataclasses.replace(verdict, verdict="undecided", evidence=evidence,
+                               notes=verdict.notes + (f"the candidate witness is not certified: {why}",))

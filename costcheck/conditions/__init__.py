@@ -18,7 +18,17 @@ REGISTRY: dict[str, str] = {
     "loeper": "loeper",
     "index_form": "index_form",
     "nested": "nested",
+    # a generating function G(x, y, z) (docs/conditions.md#generating-functions)
+    "z_monotone": "z_monotone",
+    "g_twist": "g_twist",
+    "g_dual_twist": "g_dual_twist",
+    "g_nondegenerate": "g_nondegenerate",
+    "g_mtw": "g_mtw",
 }
+
+#: the conditions of a generating function; a generating file is checked for these only, and an
+#: ordinary cost for the others
+GENERATING: tuple[str, ...] = ("z_monotone", "g_twist", "g_dual_twist", "g_nondegenerate", "g_mtw")
 
 #: conditions whose check reads another's verdict from the same run (``CheckContext.verdicts``);
 #: a caller that runs a subset (a sweep's bisection) includes these so the evidence is the same

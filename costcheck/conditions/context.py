@@ -64,8 +64,9 @@ class CheckContext:
 
     @cached_property
     def order(self) -> int:
-        # fourth derivatives are only needed for the MTW tensor, which needs n == m
-        return 4 if self.cost.n == self.cost.m else 2
+        # fourth derivatives are only needed for the MTW tensor, which needs n == m (or a generating
+        # function, whose effective fields are n × n: costcheck.derivatives.generating)
+        return 4 if self.cost.n == self.cost.m or self.cost.generating is not None else 2
 
     @cached_property
     def derivs(self) -> Derivatives:

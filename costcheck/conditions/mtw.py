@@ -64,20 +64,27 @@ def check(ctx) -> Verdict:
     if n == 1:
         return not_applicable(CONDITION, "for n = m = 1 the MTW condition is empty: ξ · η = 0 in one dimension "
                                          "forces ξ = 0 or η = 0, so S(ξ, η) = 0 for every admissible pair")
+    return decide(ctx, CONDITION, "the MTW tensor")
+
+
+def decide(ctx, condition: str, tensor: str, weak: str = "A3w", strong: str = "A3s") -> Verdict:
+    """The search, confirmation and wording of the strong / weak / fails verdict on the derivative
+    fields of ``ctx`` (also those of a generating function's effective cost: :mod:`.g_mtw`)."""
+    CONDITION = condition  # noqa: N806 - the same wording for both conditions
     s = search_minimum(ctx, a3w_margin, orthogonal=True)
     if s is None:
-        return undecided(CONDITION, nowhere_defined("the MTW tensor"))
+        return undecided(CONDITION, nowhere_defined(tensor))
     tol = TOLERANCE
     best = s.best
     notes = part_notes(s, skipped_notes(s))
-    meaning = ("the smallest scale-free A3w margin found, min over pairs and unit ξ ⊥ η of " + SCALE_TEXT
+    meaning = (f"the smallest scale-free {weak} margin found, min over pairs and unit ξ ⊥ η of " + SCALE_TEXT
                + f"; the tolerance is ±{tol:g}; the witness value is the raw S(ξ, η) at the unit vectors shown")
     details = {"tolerance": tol, "local_searches": s.starts, "smallest_at": location(best),
                "smallest_raw": best.raw, "sampled_minimum": s.sample_min,
                "nondegenerate_part": part_details(s)}
 
     if best.rel < -tol:
-        return refuted_or_unconfirmed(ctx, s, condition=CONDITION, orthogonal=True, failure="A3w fails",
+        return refuted_or_unconfirmed(ctx, s, condition=CONDITION, orthogonal=True, failure=f"{weak} fails",
                                       fallback="weak", meaning=meaning, details=details, notes=notes)
 
     if best.rel <= tol:
@@ -87,7 +94,7 @@ def check(ctx) -> Verdict:
             conf = confirm_minimum(ctx, s, orthogonal=True)
             value, error, text = conf.value, conf.error, conf.text + "; not a failure witness"
         summary = (f"{part_prefix(s)}no pair with a scale-free margin below -{tol:g} among {coverage(s)}; the smallest margin, "
-                   f"{best.rel:.3g}, is within ±{tol:g} of zero at {where(best)}: A3w holds but A3s is not "
+                   f"{best.rel:.3g}, is within ±{tol:g} of zero at {where(best)}: {weak} holds but {strong} is not "
                    "seen (evidence, not proof)")
         if s.flat == s.valid:
             summary += "; T vanishes at every usable sample, as for bilinear costs"
@@ -97,7 +104,7 @@ def check(ctx) -> Verdict:
                        notes=tuple(notes), scope=scope(s))
 
     summary = (f"{part_prefix(s)}no pair with a scale-free margin at or below {tol:g} among {coverage(s)}; the smallest, "
-               f"{best.rel:.4g}, is at x = {fmt(best.x)}, y = {fmt(best.y)}: evidence of A3s on the sampled region, "
+               f"{best.rel:.4g}, is at x = {fmt(best.x)}, y = {fmt(best.y)}: evidence of {strong} on the sampled region, "
                "not proof")
     return Verdict(CONDITION, "strong", Evidence("sampled", summary, samples=s.samples, resolution=s.resolution,
                                                  details=details),

@@ -16,7 +16,7 @@ import sympy as sp
 
 from .fields import fields_up_to
 from .composition import composed_derivatives
-from .sympy_backend import shared_cse
+from .sympy_backend import shared_cse, symbolic_derivatives
 
 
 def _mp_delta(u, *_):
@@ -35,13 +35,14 @@ class HighPrecision:
     """``hp(x, y, dps)`` → dict of field name → nested lists of ``mpmath.mpf``."""
 
     def __init__(self, expr: sp.Expr, xs: Sequence[sp.Symbol], ys: Sequence[sp.Symbol], order: int = 4,
-                 extra: Sequence[sp.Symbol] = ()):
+                 extra: Sequence[sp.Symbol] = (), generating: bool = False):
         """``extra``: parameter symbols of a family, given values at each call (see ``Cost.family``)."""
         self.order = order
         self.names = fields_up_to(order)
         # the float64 evaluator's expressions (Faà di Bruno's where the cost is F(t)): exact
         # derivatives all the same, and their elimination of common subexpressions is shared
-        sym = composed_derivatives(expr, xs, ys, order)
+        sym = (symbolic_derivatives(expr, xs, ys, order, True) if generating
+               else composed_derivatives(expr, xs, ys, order))
         self._shapes = {k: np.shape(np.array(sym[k], dtype=object)) for k in self.names}
         flat = [e for k in self.names for e in np.array(sym[k], dtype=object).reshape(-1)]
         self._sizes = [int(np.prod(self._shapes[k], dtype=int)) for k in self.names]
@@ -72,8 +73,8 @@ class HighPrecision:
 
 
 @lru_cache(maxsize=32)
-def _cached(expr, xs, ys, order, extra=()):
-    return HighPrecision(expr, xs, ys, order, extra)
+def _cached(expr, xs, ys, order, extra=(), generating=False):
+    return HighPrecision(expr, xs, ys, order, extra, generating)
 
 
 def high_precision(cost, order: int = 4) -> HighPrecision | None:
@@ -88,7 +89,8 @@ def high_precision(cost, order: int = 4) -> HighPrecision | None:
         template, values = family
         shared = _cached(template, cost.x_symbols, cost.y_symbols, order, tuple(s for s, _ in values))
         return shared.bound([v for _, v in values])
-    return _cached(cost.expr, cost.x_symbols, cost.y_symbols, order)
+    generating = getattr(cost, "generating", None) is not None
+    return _cached(cost.expr, cost.x_symbols, cost.y_symbols, order, (), generating)
 
 
 def confirm(compute, dps_low: int = 30, dps_high: int = 60) -> tuple[mpmath.mpf, mpmath.mpf]:

@@ -16,6 +16,7 @@ from typing import Sequence
 import numpy as np
 import sympy as sp
 
+from .differentiate import diff  # noqa: F401 - re-exported: the differentiation every backend uses
 from .fields import Derivatives, fields_up_to
 
 
@@ -32,40 +33,21 @@ def _heaviside(x, *_):
 LAMBDIFY_MODULES = [{"DiracDelta": _delta, "Heaviside": _heaviside, "sign": np.sign}, "numpy"]
 
 
-def diff(e: sp.Expr, v: sp.Symbol) -> sp.Expr:
-    """``∂e/∂v``, with ``sign``'s derivative made explicit.
-
-    sympy differentiates ``sign(u)`` only when it can prove ``u`` real; for ``u = cos(x/(sin(y)
-    + 2)) + 2`` it cannot (it does not bound the denominator away from 0) and leaves an
-    unevaluated ``Derivative(sign(u), v)``, which no printer can evaluate.  Every variable here
-    is real, so ``∂ sign(u)/∂v = 2 δ(u) ∂u/∂v`` (``δ`` evaluates to 0 off ``u = 0`` and is
-    undefined on it, like the kink it comes from).
-    """
-    return _explicit_sign(sp.diff(e, v))
-
-
-def _explicit_sign(e: sp.Expr) -> sp.Expr:
-    if not e.has(sp.Derivative):  # the usual case: nothing to rebuild
-        return e
-
-    def evaluate(d):
-        u = d.expr.args[0]
-        variables = list(d.variables)
-        out = 2 * sp.DiracDelta(u) * sp.diff(u, variables[0])
-        for v in variables[1:]:
-            out = sp.diff(out, v)
-        return _explicit_sign(out)
-
-    return e.replace(lambda a: isinstance(a, sp.Derivative) and isinstance(a.expr, sp.sign), evaluate)
-
-
-def symbolic_derivatives(expr: sp.Expr, xs: Sequence[sp.Symbol], ys: Sequence[sp.Symbol], order: int) -> dict:
+def symbolic_derivatives(expr: sp.Expr, xs: Sequence[sp.Symbol], ys: Sequence[sp.Symbol], order: int,
+                         generating: bool = False) -> dict:
     """Nested lists of sympy expressions, one entry per field of :class:`Derivatives`.
+
+    ``generating``: ``expr`` is a generating function ``G(x, y, z)`` with ``z`` the last of ``ys``,
+    and the fields are those of its effective cost (:mod:`costcheck.derivatives.generating`).
 
     Cached: the numeric, high-precision and closed-form steps all start from the same
     derivatives, and differentiating a chart of the sphere four times takes seconds.
     Callers must not modify the returned lists.
     """
+    if generating:
+        from .generating import effective_derivatives
+
+        return effective_derivatives(expr, tuple(xs), tuple(ys), order)
     return _symbolic_derivatives(expr, tuple(xs), tuple(ys), order)
 
 
@@ -149,6 +131,11 @@ def _cse_of(unique: tuple):
 #: one call, 0.9–1.0M and 0.45M in chunks of 4096–8192 on one thread, 1.1–1.2M and 0.54–0.74M on two
 CHUNK = 8192
 THREADS = 2
+
+
+def generating_derivatives(expr: sp.Expr, xs: Sequence[sp.Symbol], ys: Sequence[sp.Symbol], order: int) -> dict:
+    """:func:`symbolic_derivatives` of a generating function's effective cost (a ``derive`` for :func:`build`)."""
+    return symbolic_derivatives(expr, xs, ys, order, generating=True)
 
 
 def build(expr: sp.Expr, xs: Sequence[sp.Symbol], ys: Sequence[sp.Symbol], order: int, family=None,

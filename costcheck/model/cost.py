@@ -17,6 +17,19 @@ from .header import CostLabels
 
 
 @dataclass(frozen=True)
+class GeneratingSpec:
+    """The third variable of a generating function ``G(x, y, z)``: its name and range.
+
+    A :class:`Cost` with ``generating`` set holds ``G`` itself in ``expr`` (not a cost: no sign is
+    flipped) and lists ``z`` as the last of ``y_names``, so samples and witnesses carry ``(y, z)``.
+    """
+
+    z: str
+    low: float
+    high: float
+
+
+@dataclass(frozen=True)
 class Cost(CostLabels):
     id: str
     x_names: tuple[str, ...]
@@ -40,6 +53,8 @@ class Cost(CostLabels):
     #: in a sweep: ``(expression with the varied parameters as symbols, ((symbol, value), ...))``, so
     #: the symbolic derivatives and their compiled form are shared by every value of the family
     family: tuple | None = field(default=None, repr=False, compare=False)
+    #: set for a generating function ``G(x, y, z)`` (``expr`` is then ``G``; ``z`` ends ``y_names``)
+    generating: GeneratingSpec | None = None
 
     @property
     def x_symbols(self) -> tuple[sp.Symbol, ...]:

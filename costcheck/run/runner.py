@@ -11,7 +11,7 @@ import importlib
 import time
 from typing import TYPE_CHECKING, Callable, Sequence
 
-from ..conditions import REGISTRY
+from ..conditions import GENERATING, REGISTRY
 from .. import defaults
 from ..model.report import CostReport
 from ..model.verdict import Verdict, undecided
@@ -68,6 +68,8 @@ def run_checks(
     # earlier one's verdict (Loeper's principle at MTW's witness), so the order is part of the evidence
     order = list(REGISTRY)
     names = sorted(conditions, key=lambda c: order.index(c) if c in order else len(order)) if conditions else order
+    # a generating function has its own conditions, an ordinary cost the others
+    names = [c for c in names if (c in GENERATING) == (cost.generating is not None)]
     for name in names:
         if status == "timeout":
             verdicts[name] = undecided(name, f"not checked: computing the derivatives of the cost (symbolic "

@@ -22,6 +22,7 @@ import sympy as sp
 from ..errors import CostFileError
 from ..model.cost import Cost
 from ..model.domain import Ball, Box, Constraint, Domain, Inequality
+from .generating import check_sense, extended_target, parse_generating, z_symbol
 from .expression import RESERVED_NAMES, parse_expression, parse_inequalities, referenced_names
 # the first stages (file, YAML, schema) live in .reading, which needs no sympy; re-exported here
 from .reading import (
@@ -129,9 +130,12 @@ def build_cost(data: Mapping, file: str | None = None, *, param_overrides: Mappi
 
     # every name is defined exactly once across coordinates, parameters and helpers
     owners: dict[str, str] = {}
-    for group, names in (("x", x_names), ("y", y_names), ("params", list(params_in)), ("define", list(define))):
+    z_sym = z_symbol(data)
+    z_group = [z_sym.name] if z_sym is not None else []
+    for group, names in (("x", x_names), ("y", y_names), ("generating", z_group), ("params", list(params_in)),
+                         ("define", list(define))):
         for name in names:
-            field = group if group in ("x", "y") else f"{group}.{name}"
+            field = group if group in ("x", "y") else ("generating.z" if group == "generating" else f"{group}.{name}")
             _check_name(name, field, file)
             if name in owners:
                 raise CostFileError(f"the name '{name}' is defined twice (in '{owners[name]}' and '{group}')",
@@ -153,12 +157,20 @@ def build_cost(data: Mapping, file: str | None = None, *, param_overrides: Mappi
                                 file=file, field="params")
 
     base: dict[str, sp.Expr] = {**params, **dict(zip(x_names, x_syms)), **dict(zip(y_names, y_syms))}
+    if z_sym is not None:
+        base[z_sym.name] = z_sym
     names = {**base, **_helpers(define, base, file)}
 
-    try:
-        written = parse_expression(data["expr"], names)
-    except CostFileError as exc:
-        raise exc.located(file=file, field_prefix="expr") from None
+    check_sense(data, file)
+    gen_spec, expr_field = None, "expr" if z_sym is None else "generating.expr"
+    if z_sym is None:
+        try:
+            written = parse_expression(data["expr"], names)
+        except CostFileError as exc:
+            raise exc.located(file=file, field_prefix="expr") from None
+    else:
+        written, gen_spec = parse_generating(data, names, lambda v, f: _constant(v, params, f, file), file)
+        y_names, y_syms = y_names + [z_sym.name], y_syms + [z_sym]
     if written.has(sp.zoo, sp.nan, sp.oo, -sp.oo):
         raise CostFileError("the expression is undefined (a division by zero, log(0) or similar "
                             "between constants)", file=file, field="expr")
@@ -167,12 +179,15 @@ def build_cost(data: Mapping, file: str | None = None, *, param_overrides: Mappi
     x_set, y_set = set(x_syms), set(y_syms)
     stray = expr.free_symbols - x_set - y_set
     if stray:
-        raise CostFileError(f"the expression has unresolved symbols {sorted(map(str, stray))}", file=file, field="expr")
+        raise CostFileError(f"the expression has unresolved symbols {sorted(map(str, stray))}", file=file,
+                            field=expr_field)
 
     dom = data["domain"]
     constants = dict(params)
     region_x = region(dom["x"], len(x_names), "x", constants, file)
-    region_y = region(dom["y"], len(y_names), "y", constants, file)
+    region_y = region(dom["y"], len(y_names) - (z_sym is not None), "y", constants, file)
+    if gen_spec is not None:
+        region_y = extended_target(region_y, gen_spec, file)
 
     where_x, where_y = [], []
     for i, text in enumerate(dom.get("where") or []):
@@ -195,7 +210,7 @@ def build_cost(data: Mapping, file: str | None = None, *, param_overrides: Mappi
                 raise CostFileError(f"the constraint {text!r} mentions no coordinate", file=file, field=f"domain.pairs[{i}]")
             pairs.append(Constraint.build(ineq, x_syms + y_syms))
 
-    family = _family(data, params, param_overrides, x_names, x_syms, y_names, y_syms, define, file)
+    family = None if gen_spec is not None else _family(data, params, param_overrides, x_names, x_syms, y_names, y_syms, define, file)
 
     spec = None
     if data.get("data"):
@@ -219,6 +234,7 @@ def build_cost(data: Mapping, file: str | None = None, *, param_overrides: Mappi
         raw=data,
         data=spec,
         family=family,
+        generating=gen_spec,
     )
 
 

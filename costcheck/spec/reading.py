@@ -182,6 +182,10 @@ def _plain_message(error: jsonschema.ValidationError, path: list) -> str:
     if kind == "uniqueItems":
         repeated = next((v for i, v in enumerate(instance) if v in instance[:i]), None)
         return f"{_short(repeated)} appears twice in the list" if repeated is not None else "an entry appears twice"
+    if kind == "oneOf" and not path and isinstance(instance, dict):
+        both = "expr" in instance and "generating" in instance
+        return ("give 'expr' (a cost) or 'generating' (a generating function G(x, y, z)), not both" if both
+                else "'expr' is missing (or give 'generating' for a generating function)")
     if kind == "minLength":
         return "must not be empty"
     if kind == "maxLength":

@@ -25,6 +25,12 @@ VERDICT_WORDS: dict[str, list[str]] = {
     "loeper": ["holds", "fails"],
     "index_form": ["holds", "fails", "not-applicable"],
     "nested": ["holds", "fails", "not-applicable"],
+    # the conditions of a generating function G(x, y, z) (docs/conditions.md#generating-functions)
+    "z_monotone": ["holds", "fails"],
+    "g_twist": ["holds", "fails"],
+    "g_dual_twist": ["holds", "fails"],
+    "g_nondegenerate": ["holds", "fails"],
+    "g_mtw": ["strong", "weak", "fails"],
 }
 
 # How many entries a file may hold where each one is parsed and kept: every helper and every
@@ -100,12 +106,26 @@ DATA_SIDE_SCHEMA = _data_side = {
     "additionalProperties": False,
 }
 
+GENERATING_SCHEMA = {
+    "type": "object",
+    "description": "a generating function G(x, y, z) instead of 'expr': its expression, the name of its third "
+                   "variable and that variable's range [low, high] (docs/cost-files.md#generating-functions)",
+    "required": ["expr", "z", "range"],
+    "additionalProperties": False,
+    "properties": {
+        "expr": _number_or_expression,
+        "z": {"type": "string", "pattern": IDENTIFIER},
+        "range": {"type": "array", "items": _number_or_expression, "minItems": 2, "maxItems": 2},
+    },
+}
+
 COST_FILE_SCHEMA: dict = {
     "$schema": "https://json-schema.org/draft/2020-12/schema",
     "title": "costcheck cost file",
     "description": "One transport cost (or matching surplus), its domain and its expected verdicts.",
     "type": "object",
-    "required": ["id", "x", "y", "expr", "domain"],
+    "required": ["id", "x", "y", "domain"],
+    "oneOf": [{"required": ["expr"]}, {"required": ["generating"]}],
     "additionalProperties": False,
     "properties": {
         "id": {"type": "string", "pattern": r"^[A-Za-z0-9][A-Za-z0-9._-]*" + END, "maxLength": 100},
@@ -127,6 +147,7 @@ COST_FILE_SCHEMA: dict = {
             "additionalProperties": _number_or_expression,
         },
         "expr": _number_or_expression,
+        "generating": GENERATING_SCHEMA,
         "domain": {
             "type": "object",
             "required": ["x", "y"],

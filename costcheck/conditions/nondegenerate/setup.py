@@ -12,6 +12,7 @@ import mpmath
 import numpy as np
 import sympy as sp
 
+from ...derivatives.sympy_backend import symbolic_derivatives
 from ...numerics import exact, precision, search
 
 
@@ -20,9 +21,12 @@ class Setup:
         self.ctx = ctx
         self.cost = ctx.cost
         self.domain = ctx.cost.domain
-        self.n, self.m = ctx.cost.n, ctx.cost.m
+        # a generating function's extended mixed Hessian is n × n over points (x, y, z)
+        # (costcheck.derivatives.generating): m is then n, and a point has n + m + 1 coordinates
+        self.generating = ctx.cost.generating is not None
+        self.n, self.m = ctx.cost.n, (ctx.cost.n if self.generating else ctx.cost.m)
         self.k = min(self.n, self.m)
-        self.d = self.n + self.m
+        self.d = self.n + ctx.cost.m
         self.ev = ctx.evaluator(2)
         lo_x, hi_x = self.domain.x.bounds()
         lo_y, hi_y = self.domain.y.bounds()
@@ -82,7 +86,11 @@ class Setup:
         if self._M_sym is None:
             xs, ys = self.cost.x_symbols, self.cost.y_symbols
             expr, self.decimals = exact.exact_expression(self.cost.expr)
-            self._M_sym = sp.Matrix(self.n, self.m, lambda i, j: sp.diff(expr, xs[i], ys[j]))
+            if self.generating:
+                M = symbolic_derivatives(expr, xs, ys, 2, generating=True)["dxy"]
+                self._M_sym = sp.Matrix(M)
+            else:
+                self._M_sym = sp.Matrix(self.n, self.m, lambda i, j: sp.diff(expr, xs[i], ys[j]))
         return self._M_sym
 
     def z_of(self, x, y):
