@@ -134,8 +134,14 @@ def view_width(out: Console) -> int:
 
 def cmd_check(args, out: Console, err: Console) -> int:
     from ..render.terminal import TerminalView
+    from ..spec.reading import find_cost_files
 
-    view = TerminalView(out, verbose=args.verbose, failures=args.failures, width=view_width(out))
+    if len(find_cost_files(args.paths)) > 1 and not args.verbose:
+        from ..render.terminal_grid import GridView  # many files: one line per cost
+
+        view = GridView(out, failures=args.failures, width=view_width(out))
+    else:
+        view = TerminalView(out, verbose=args.verbose, failures=args.failures, width=view_width(out))
 
     def show(report):
         if not args.json and not (args.quiet and not report.mismatches):

@@ -24,6 +24,21 @@ class CostLabels:
 
 
 @dataclass(frozen=True)
+class GeneratingLabel:
+    """What outputs read of a generating function's third variable: its name."""
+
+    z: str
+
+
+def coordinate_names(data: Mapping) -> tuple[tuple[str, ...], tuple[str, ...]]:
+    """The x and y names of a validated file as its checked cost has them (a generating
+    function's third variable ends the y names: the target side is ``(y, z)``)."""
+    generating = data.get("generating")
+    z = (str(generating["z"]),) if isinstance(generating, Mapping) and "z" in generating else ()
+    return tuple(data["x"]), tuple(data["y"]) + z
+
+
+@dataclass(frozen=True)
 class CostHeader(CostLabels):
     """What renderers read about a cost, for a result that comes from the cache.
 
@@ -40,9 +55,12 @@ class CostHeader(CostLabels):
     expect: Mapping[str, str] = field(default_factory=dict)
     source: str | None = None
     file: str | None = None
+    generating: GeneratingLabel | None = None
 
     @classmethod
     def from_data(cls, data: Mapping, file: str | None) -> "CostHeader":
-        return cls(id=data["id"], x_names=tuple(data["x"]), y_names=tuple(data["y"]), title=data.get("title", ""),
+        x_names, y_names = coordinate_names(data)
+        generating = GeneratingLabel(y_names[-1]) if len(y_names) > len(data["y"]) else None
+        return cls(id=data["id"], x_names=x_names, y_names=y_names, title=data.get("title", ""),
                    sense=data.get("sense", "cost"), expect=dict(data.get("expect") or {}),
-                   source=data.get("source"), file=file)
+                   source=data.get("source"), file=file, generating=generating)

@@ -108,7 +108,7 @@ class TerminalView:
         self._column_heads()
         hidden = sum(1 for v in report.verdicts.values() if v.verdict == "not-applicable") if not self.verbose else 0
         facts = f"n={cost.n} m={cost.m}" + (" surplus as -s" if cost.sense == "surplus" else "")
-        generating = getattr(cost, "generating", None)  # a cached report's header does not carry it
+        generating = getattr(cost, "generating", None)  # a cached report's header carries its z too
         if generating is not None:  # the target side is (y, z): say so instead of m = m + 1
             facts = f"n={cost.n} m={cost.m - 1} G(x, y, {generating.z})"
         facts += f" · {report.seconds:.1f} s" + (f" · {hidden} n/a" if hidden and not self.failures else "")

@@ -14,7 +14,7 @@ from pathlib import Path
 from typing import Callable, ContextManager, Mapping, Sequence
 
 from .cache import ResultCache, cache_key
-from ..model.header import CostHeader
+from ..model.header import CostHeader, coordinate_names
 from ..conditions import REGISTRY
 from ..model.report import CostReport
 from ..errors import CostFileError
@@ -122,7 +122,8 @@ def from_worker(answer, data: Mapping, file: str, run_options: Mapping, *, cache
     from ..model.verdict import Verdict
 
     _, documents, seconds, options = answer
-    verdicts = {name: Verdict.from_json(name, doc, data["x"], data["y"]) for name, doc in documents.items()}
+    x_names, y_names = coordinate_names(data)
+    verdicts = {name: Verdict.from_json(name, doc, x_names, y_names) for name, doc in documents.items()}
     report = CostReport(build_full_cost(data, file) if full_cost else CostHeader.from_data(data, file),
                         verdicts, seconds, options)
     if cache is not None:
@@ -150,7 +151,7 @@ def cached_report(data: Mapping, file: str | None, run_options: Mapping, *, cach
     if cache is None:
         return None
     hit = cache.get(cache_key(normalised_data(data, param_overrides), key_options(run_options)),
-                    data["x"], data["y"])
+                    *coordinate_names(data))
     if hit is None:
         return None
     cost = build_full_cost(data, file, param_overrides) if full_cost else CostHeader.from_data(data, file)
