@@ -16,6 +16,7 @@ caption that says what is shown and what it does not establish.
 from __future__ import annotations
 
 import importlib
+import io
 from dataclasses import dataclass
 from pathlib import Path
 
@@ -59,17 +60,39 @@ def pyplot():
     return plt
 
 
+#: pixels per inch of the PNG: the widest figure (12.5 in) is then about 1130 px, as wide as the
+#: report page's column (72 rem less its padding, 1088 px at 16 px per rem) shows it, so the page
+#: loses no detail to it (at 120 the page was scaling every picture down)
+PNG_DPI = 90
+#: colours in the PNG's palette: the colour maps are 256-step matplotlib maps already, so a
+#: 256-colour palette keeps every step they draw, at a third of the size of 24-bit colour
+PNG_COLOURS = 256
+
+
 def save_figure(fig, directory: Path, stem: str) -> tuple[Path, Path]:
-    """Write ``fig`` as ``stem.png`` and ``stem.svg`` in ``directory`` and close it."""
+    """Write ``fig`` as ``stem.png`` (palette colour) and ``stem.svg`` in ``directory`` and close it."""
     directory = Path(directory)
     directory.mkdir(parents=True, exist_ok=True)
-    paths = []
-    for ext in ("png", "svg"):
-        path = directory / f"{stem}.{ext}"
-        fig.savefig(path, dpi=120, bbox_inches="tight")
-        paths.append(path)
+    png, svg = directory / f"{stem}.png", directory / f"{stem}.svg"
+    buffer = io.BytesIO()
+    fig.savefig(buffer, format="png", dpi=PNG_DPI, bbox_inches="tight")
+    write_palette_png(buffer.getvalue(), png)
+    # text kept as SVG text rather than one path per glyph: a fraction of the size, still selectable
+    with pyplot().rc_context({"svg.fonttype": "none"}):
+        fig.savefig(svg, dpi=PNG_DPI, bbox_inches="tight")
     pyplot().close(fig)
-    return paths[0], paths[1]
+    return png, svg
+
+
+def write_palette_png(data: bytes, path: Path) -> None:
+    """Write the PNG ``data`` to ``path`` with a palette of :data:`PNG_COLOURS` (Pillow, matplotlib's own
+    image library: octree quantisation, which on these pictures compresses a quarter better than
+    median cut, then zlib at its best compression)."""
+    from PIL import Image
+
+    with Image.open(io.BytesIO(data)) as image:
+        image.convert("RGB").quantize(colors=PNG_COLOURS, method=Image.Quantize.FASTOCTREE,
+                                      dither=Image.Dither.NONE).save(path, format="PNG", optimize=True)
 
 
 def write_figures(report, directory) -> list[Figure]:

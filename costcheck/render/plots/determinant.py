@@ -22,13 +22,9 @@ from pathlib import Path
 
 import numpy as np
 
-from . import Figure, pyplot, save_figure
+from . import Figure, pyplot, rounding, save_figure
 
 GRID = 121
-
-#: |det M| / S^n below this is float rounding, not a sign: drawn as exactly 0 (a cost whose
-#: det M vanishes identically, such as |x - y|, would otherwise show noise of size 1e-16)
-ROUNDING = 1e-10
 
 
 def _marked_point(report):
@@ -48,6 +44,11 @@ def _marked_point(report):
 
 def scaled_determinant(cost, xs, ys, scale):
     """``det M / S^n`` at each pair, NaN outside the domain or where ``M`` is not finite."""
+    return determinant_with_rounding(cost, xs, ys, scale)[0]
+
+
+def determinant_with_rounding(cost, xs, ys, scale):
+    """:func:`scaled_determinant` and the largest rounding level among its finite values."""
     d = cost.derivatives(backend="sympy", order=2)(xs, ys)
     with np.errstate(all="ignore"):
         det = np.linalg.det(np.nan_to_num(d.dxy, nan=0.0, posinf=0.0, neginf=0.0))
@@ -56,9 +57,14 @@ def scaled_determinant(cost, xs, ys, scale):
             sigma = np.linalg.norm(np.nan_to_num(d.dxy), ord=2, axis=(1, 2))
             scale = float(np.median(sigma[~bad])) if np.any(~bad) else 1.0
         out = det / scale**cost.n
-    out[np.abs(out) < ROUNDING] = 0.0
+        # det M by LU is exact for M + E with |E| of order eps · |M|, so its rounding is of order
+        # eps · σ_max(M)^n at that pair (a cost whose det M vanishes identically, such as |x - y|,
+        # shows noise of that size): scaled by S^n like the value
+        level = rounding.rounding_level((np.linalg.norm(np.nan_to_num(d.dxy), ord=2, axis=(1, 2)) / scale)**cost.n)
+    out = rounding.snap_to_zero(out, level)
     out[bad] = np.nan
-    return out
+    used = level[np.isfinite(out)]
+    return out, float(used.max()) if used.size else 0.0
 
 
 def _norm(*arrays):
@@ -82,9 +88,14 @@ def _norm(*arrays):
     return TwoSlopeNorm(vmin=-span, vcenter=0.0, vmax=span), ""
 
 
-def _panel(ax, grid_u, grid_v, values, names, mark, mark_label, norm):
+def _panel(ax, grid_u, grid_v, values, names, mark, mark_label, norm, level, what="det"):
     if not np.any(np.isfinite(values)):
         ax.text(0.5, 0.5, "M not finite on this slice", ha="center", va="center", transform=ax.transAxes)
+        return None
+    if rounding.identically_zero(values):
+        rounding.flat_zero_panel(ax, np.isfinite(values), (grid_u[0, 0], grid_u[0, -1], grid_v[0, 0], grid_v[-1, 0]),
+                                 what, level)
+        _mark(ax, names, mark, mark_label)
         return None
     ax.set_facecolor("0.8")  # cells outside the domain are NaN, transparent: they show this grey
     # an image, not a mesh of 14 641 quads: fast to draw and a single raster inside the SVG
@@ -95,16 +106,16 @@ def _panel(ax, grid_u, grid_v, values, names, mark, mark_label, norm):
                     colors="none", hatches=["\\\\"])
     if np.nanmin(values) < 0 < np.nanmax(values):
         ax.contour(grid_u, grid_v, values, levels=[0.0], colors="black", linewidths=1.6)
-    finite = values[np.isfinite(values)]
-    if np.all(finite == 0):
-        ax.text(0.5, 0.5, "det = 0 on the whole slice\n(to float precision)", ha="center", va="center",
-                transform=ax.transAxes, fontsize=11, bbox={"facecolor": "white", "edgecolor": "black"})
+    _mark(ax, names, mark, mark_label)
+    return image
+
+
+def _mark(ax, names, mark, mark_label):
     ax.plot([mark[0]], [mark[1]], marker="o", markersize=9, markerfacecolor="white", markeredgecolor="black",
             markeredgewidth=1.8, linestyle="none", label=mark_label, clip_on=False, zorder=5)
     ax.set_xlabel(names[0])
     ax.set_ylabel(names[1])
     ax.legend(loc="best", fontsize=8, framealpha=0.9)  # "best" keeps clear of the marked point
-    return image
 
 
 def _grid(lo, hi):
@@ -129,15 +140,19 @@ def _draw(report, directory: Path, plt) -> list[Figure]:
     scale = verdict.evidence.details.get("scale_S") if verdict is not None else None
     x0, y0, mark_label = _marked_point(report)
     note = ("Blue: det > 0, red and hatched: det < 0, black line: det = 0; plain grey: outside the domain. "
-            f"Values below {ROUNDING:g} in size are drawn as 0 (float rounding cannot be told from 0 there). "
+            f"Values with |det M| ≤ {rounding.ROUNDING_MULTIPLE}·eps·σ_max(M)^n, the rounding level of det M at "
+            "that pair, are drawn as 0 (float rounding cannot be told from 0 there); a panel where every value is "
+            "within it is drawn flat, with no colour map. "
             "Drawn on a grid: a zero between grid points can be missed, so no contour is no proof.")
     if cost.n == 1:
         gx, gy = _grid(np.r_[cost.domain.x.bounds()[0], cost.domain.y.bounds()[0]],
                        np.r_[cost.domain.x.bounds()[1], cost.domain.y.bounds()[1]])
-        values = scaled_determinant(cost, gx.reshape(-1, 1), gy.reshape(-1, 1), scale).reshape(gx.shape)
+        values, level = determinant_with_rounding(cost, gx.reshape(-1, 1), gy.reshape(-1, 1), scale)
+        values = values.reshape(gx.shape)
         fig, ax = plt.subplots(figsize=(5.4, 4.4))
         norm, scale_note = _norm(values)
-        image = _panel(ax, gx, gy, values, (cost.x_names[0], cost.y_names[0]), (x0[0], y0[0]), mark_label, norm)
+        image = _panel(ax, gx, gy, values, (cost.x_names[0], cost.y_names[0]), (x0[0], y0[0]), mark_label, norm,
+                       level, "c_xy")
         if image is not None:
             fig.colorbar(image, ax=ax, label="c_xy / S")
         ax.set_title(f"{cost.id}: mixed derivative c_xy over (x, y)", fontsize=10)
@@ -154,11 +169,12 @@ def _draw(report, directory: Path, plt) -> list[Figure]:
         xs = np.column_stack([gx1.ravel(), gx2.ravel()])
         slices.append((axes[1], gx1, gx2, xs, np.tile(y0, (len(xs), 1)), cost.x_names, x0,
                        "y fixed at (" + ", ".join(f"{n}={v:.3g}" for n, v in zip(cost.y_names, y0)) + ")"))
-        values = [scaled_determinant(cost, px, py, scale).reshape(gu.shape) for _, gu, _, px, py, *_ in slices]
+        results = [determinant_with_rounding(cost, px, py, scale) for _, gu, _, px, py, *_ in slices]
+        values = [v.reshape(s[1].shape) for (v, _), s in zip(results, slices)]
         norm, scale_note = _norm(*values)
         image = None
-        for (ax, gu, gv, _, _, names, mark, title), vals in zip(slices, values):
-            image = _panel(ax, gu, gv, vals, names, mark, mark_label, norm) or image
+        for (ax, gu, gv, _, _, names, mark, title), vals, (_, level) in zip(slices, values, results):
+            image = _panel(ax, gu, gv, vals, names, mark, mark_label, norm, level) or image
             ax.set_title(title, fontsize=10)
         if image is not None:
             fig.colorbar(image, ax=list(axes), label="det D²_xy c / S²")

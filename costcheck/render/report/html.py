@@ -20,14 +20,24 @@ h3 { font-size: 1.05rem; margin: 1.4rem 0 .4rem; }
 table { border-collapse: collapse; margin: .5rem 0 1rem; }
 th, td { border: 1px solid #bbb; padding: .3rem .6rem; text-align: left; vertical-align: top; }
 th { background: #eee; }
-td.cell { white-space: nowrap; }
+/* every table sits in its own scroll box: if one is still wider than the page (a very narrow
+   window), it scrolls by itself and the page keeps its width */
+.scroll { max-width: 100%; overflow-x: auto; }
+/* the summary shares the page width among its columns (fixed layout) and wraps inside a cell,
+   breaking a long code anywhere, rather than growing past the right edge (issue 21: at 1280 px
+   it pushed columns off-screen) */
+table.summary { table-layout: fixed; width: 100%; font-size: .85rem; }
+table.summary th, table.summary td { padding: .25rem .4rem; overflow-wrap: anywhere; }
+table.summary th:first-child { width: 9rem; }
+table.summary .kind { font-size: .78rem; }
+td.coords { font-size: .8rem; overflow-wrap: anywhere; font-variant-numeric: tabular-nums; }
 .v { font-weight: 600; }
 .v-holds, .v-strong { background: #dff2df; } .v-weak { background: #fdf0d0; }
 .v-fails { background: #f6d4d4; } .v-undecided, .v-not-applicable { background: #eeeeee; }
 .miss { color: #8b1a1a; font-weight: 700; }
 .kind { color: #444; font-size: .85rem; } abbr { text-decoration: underline dotted; }
 .meaning { font-size: .92rem; }
-math[display="block"] { font-size: 1.25rem; margin: .6rem 0; }
+math[display="block"] { font-size: 1.25rem; margin: .6rem 0; max-width: 100%; overflow-x: auto; }
 figure { margin: 1rem 0; } figure img { max-width: 100%; height: auto; border: 1px solid #ddd; }
 figcaption { font-size: .88rem; color: #333; max-width: 60rem; }
 code { background: #f3f3f3; padding: 0 .2rem; }
@@ -63,8 +73,14 @@ def _verdict_cell(row: VerdictRow | None) -> str:
 
 
 def _code(row: VerdictRow) -> str:
-    """The code, its meaning shown on hovering (the verdict list below says it in full)."""
-    return f'<abbr title="{escape(row.meaning)}">{escape(row.code)}</abbr>' if row.meaning else escape(row.code)
+    """The code, its meaning shown on hovering (the verdict list below says it in full); it may
+    break after its separators, so a narrow column wraps it between words."""
+    code = breakable(row.code)
+    return f'<abbr title="{escape(row.meaning)}">{code}</abbr>' if row.meaning else code
+
+
+def breakable(code: str) -> str:
+    return escape(code).replace("_", "_<wbr>").replace("-", "-<wbr>")
 
 
 def _summary_table(model: ReportModel) -> str:
@@ -74,7 +90,8 @@ def _summary_table(model: ReportModel) -> str:
         cells = "".join(_verdict_cell(model.cell(s, c)) for c in model.conditions)
         rows.append(f'<tr><td><a href="#{escape(s.id)}">{escape(s.id)}</a><br>'
                     f'<span class="dim">{escape(s.title)}</span></td>{cells}</tr>')
-    return f"<table><thead><tr><th>cost</th>{head}</tr></thead><tbody>{''.join(rows)}</tbody></table>"
+    return (f'<div class="scroll"><table class="summary"><thead><tr><th>cost</th>{head}</tr></thead>'
+            f"<tbody>{''.join(rows)}</tbody></table></div>")
 
 
 def _verdicts(section: CostSection) -> str:
@@ -98,11 +115,12 @@ def _verdicts(section: CostSection) -> str:
 def _witnesses(section: CostSection) -> str:
     out = []
     for w in section.witnesses:
-        rows = "".join(f"<tr><th>{escape(r.label)}</th><td>{escape(r.coordinates)}</td></tr>" for r in w.rows)
+        rows = "".join(f'<tr><th>{escape(r.label)}</th><td class="coords">{escape(r.coordinates)}</td></tr>'
+                       for r in w.rows)
         rows += f"<tr><th>value</th><td>{escape(w.value)}</td></tr>"
         if w.confirmation:
             rows += f"<tr><th>confirmed by</th><td>{escape(w.confirmation)}</td></tr>"
-        out.append(f"<h3>Witness for {escape(condition_name(w.condition))}</h3><table>{rows}</table>")
+        out.append(f'<h3>Witness for {escape(condition_name(w.condition))}</h3><div class="scroll"><table>{rows}</table></div>')
     return "".join(out)
 
 
