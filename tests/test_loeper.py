@@ -113,6 +113,8 @@ def test_loeper_agrees_with_mtw_on_every_catalog_file_with_both():
 
     both, failing = 0, 0
     for c in json.loads(catalog_document())["costs"]:
+        if "mtw" not in c["checks"]:  # a generating function: its own five conditions
+            continue
         mtw, lp = c["checks"]["mtw"], c["checks"]["loeper"]
         if mtw["verdict"] not in ("strong", "weak", "fails") or lp["verdict"] == "not-applicable":
             continue

@@ -30,6 +30,14 @@ REGISTRY: dict[str, str] = {
 #: ordinary cost for the others
 GENERATING: tuple[str, ...] = ("z_monotone", "g_twist", "g_dual_twist", "g_nondegenerate", "g_mtw")
 
+
+
+def conditions_for(generating: bool) -> list[str]:
+    """The conditions a file is checked for, in :data:`REGISTRY` order: a generating function's
+    five, or an ordinary cost's others."""
+    return [name for name in REGISTRY if (name in GENERATING) == generating]
+
+
 #: conditions whose check reads another's verdict from the same run (``CheckContext.verdicts``);
 #: a caller that runs a subset (a sweep's bisection) includes these so the evidence is the same
 READS: dict[str, tuple[str, ...]] = {"loeper": ("mtw",)}

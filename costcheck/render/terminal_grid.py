@@ -18,7 +18,7 @@ from dataclasses import dataclass, field
 from rich.console import Console
 from rich.text import Text
 
-from ..conditions import GENERATING, REGISTRY
+from ..conditions import REGISTRY
 from ..errors import CostFileError
 from ..model.report import CostReport
 from .terminal import WIDTH, summary_line, verdict_style
@@ -32,8 +32,8 @@ HEADS = {"twist": "twist", "nondegenerate": "ndeg", "mtw": "mtw", "nncc": "nncc"
 WORDS = {"holds": "hold", "strong": "strg", "weak": "weak", "fails": "FAIL", "undecided": "undc",
          "not-applicable": "·", "error": "err"}
 CERTIFIED = {"proved", "refuted"}
-#: column order: the registry's (the order of docs/conditions.md), then a generating function's
-ORDER = {name: i for i, name in enumerate(list(REGISTRY) + list(GENERATING))}
+#: column order: the registry's (the order of docs/conditions.md; a generating function's five last)
+ORDER = {name: i for i, name in enumerate(REGISTRY)}
 CELL = 5  # four letters and the evidence mark
 LEGEND = ("* proved, or refuted by a certified witness; unmarked: sampled (evidence, not proof); "
           "undc undecided, · not applicable. --verbose: witnesses and evidence")

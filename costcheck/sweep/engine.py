@@ -110,12 +110,12 @@ def run_sweep(path, axes: list[Axis], *, budget: int, seed: int, conditions: Seq
     ``prove``: check each point as plain ``check`` does (its default proofs); False as ``check --quick``.
     """
     from ..api import load
-    from ..conditions import REGISTRY
+    from ..conditions import conditions_for
 
     if tolerance <= 0:
         raise SweepSpecError(f"--tolerance must be positive, got {tolerance}")
-    names = list(conditions or REGISTRY)
     base = load(path)                      # raises CostFileError for a bad file
+    names = list(conditions or conditions_for(getattr(base, "generating", None) is not None))
     for a in axes:
         if a.name not in base.params:
             known = ", ".join(base.params) or "none"

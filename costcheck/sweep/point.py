@@ -36,24 +36,27 @@ def evaluate_point(path: str, params: dict, budget: int, seed: int, conditions: 
     ``check`` on a file with these parameter values).  ``prove=False`` checks the point as
     ``check --quick`` does (sampling only); by default as plain ``check`` (its default proof budget).
     """
-    from ..conditions import REGISTRY
+    from ..conditions import conditions_for
     from ..defaults import DEFAULT_PROOF_CELLS, DEFAULT_PROOF_SECONDS
     from ..errors import CostcheckError, CostFileError
     from ..run.batch import check_one
     from ..run.cache import ResultCache
     from ..spec.reading import read_cost_data
 
-    names = list(conditions or REGISTRY)
+    names = list(conditions or conditions_for(False))  # what an error is reported for
     try:
         cache = ResultCache(cache_dir) if cache_dir is not None else None
         data = read_cost_data(path)
+        names = list(conditions or conditions_for("generating" in data))
         unknown = sorted(set(params) - set(data.get("params") or {}))
         if unknown:
             raise CostFileError(f"no parameter named '{unknown[0]}' (parameters: "
                                 f"{', '.join(data.get('params') or {}) or 'none'})", file=str(path), field="params")
         data = {**data, "params": {**(data.get("params") or {}), **params}}
         # the evidence of `check`: the same proof attempt too (its default budget), or of `check --quick`
-        options = {"budget": budget, "seed": seed, "backend": "sympy", "conditions": names,
+        # conditions as `check` passes them (None: all of the file's kind), so the cache key is check's
+        options = {"budget": budget, "seed": seed, "backend": "sympy",
+                   "conditions": list(conditions) if conditions else None,
                    "prove": {"seconds": DEFAULT_PROOF_SECONDS, "cells": DEFAULT_PROOF_CELLS} if prove else None}
         report, _ = check_one(data, str(path), options, cache=cache)
         cost = report.cost
