@@ -45,7 +45,8 @@ def gram_matrix(T: dict, reduce) -> sp.Matrix | None:
     G = sp.zeros(4, 4)
     for a, (i, k) in enumerate(PRODUCTS):
         for b, (j, l) in enumerate(PRODUCTS):
-            value = reduce(sp.sympify(t(i, j, k, l)))
+            entry = t(i, j, k, l)  # a sympy expression, or a plain 0 for an entry never formed
+            value = reduce(entry if isinstance(entry, sp.Basic) else sp.Rational(entry))
             if value is None:
                 return None
             G[a, b] = value

@@ -106,7 +106,7 @@ def _composed(expr, xs, ys, order):
     if order >= 4:
         out["dxxyy"] = [[[[derivative(xs[i], xs[j], ys[k], ys[l]) for l in range(m)] for k in range(m)]
                          for j in range(n)] for i in range(n)]
-    if any(sp.sympify(e).has(sp.Derivative) for e in _flat(out)):
+    if any(isinstance(e, sp.Basic) and e.has(sp.Derivative) for e in _flat(out)):
         return symbolic_derivatives(expr, xs, ys, order)  # something F's chain rule left unevaluated
     return out
 
