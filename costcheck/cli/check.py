@@ -95,13 +95,14 @@ def run_options(args) -> dict:
     return options
 
 
-def checked(args, err: Console, *, full_costs: bool = False, on_report=None):
-    """Find and check ``args.paths`` (through the cache unless ``--no-cache``); ``None`` if no files."""
+def checked(args, err: Console, *, full_costs: bool = False, on_report=None, files=None):
+    """Find (unless ``files`` are given) and check ``args.paths`` (through the cache unless
+    ``--no-cache``); ``None`` if no files."""
     from ..run.batch import check_files
     from ..run.cache import ResultCache
     from ..spec.reading import find_cost_files
 
-    files = find_cost_files(args.paths)
+    files = find_cost_files(args.paths) if files is None else files
     if not files:
         error_line(f"no cost files (*.yaml, *.yml) under {' '.join(args.paths)}")
         return None
@@ -136,7 +137,8 @@ def cmd_check(args, out: Console, err: Console) -> int:
     from ..render.terminal import TerminalView
     from ..spec.reading import find_cost_files
 
-    if len(find_cost_files(args.paths)) > 1 and not args.verbose:
+    files = find_cost_files(args.paths)
+    if len(files) > 1 and not args.verbose:
         from ..render.terminal_grid import GridView  # many files: one line per cost
 
         view = GridView(out, failures=args.failures, width=view_width(out))
@@ -149,7 +151,7 @@ def cmd_check(args, out: Console, err: Console) -> int:
         if args.plots:
             write_plots(report, args.plots, err)
 
-    result = checked(args, err, full_costs=bool(args.plots), on_report=show)
+    result = checked(args, err, full_costs=bool(args.plots), on_report=show, files=files)
     if result is None:
         return EXIT_BAD_INPUT
     code = exit_code(result)

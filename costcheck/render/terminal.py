@@ -125,18 +125,7 @@ class TerminalView:
             self._condition_line(name, v, cost.expect.get(name))
             if self.verbose:
                 self._details(v, cost)
-        where = cost.file or cost.id
-        not_run = [mm.condition for mm in report.mismatches if mm.got == "not run"]
-        for mm in report.mismatches:
-            if mm.got != "not run":
-                line = Text("  ✗ ", style="bold red")
-                line.append(f"{where}: {mm.condition}: expected {mm.expected}, got {mm.got}")
-                self._print(line)
-        if not_run:  # conditions left out (--only): one line for all, not one per condition
-            line = Text("  ✗ ", style="bold red")
-            text = f"expected, not run: {', '.join(not_run)}"
-            room = self.width - 4
-            line.append(text if len(text) <= room else text[:room - 1] + "…")
+        for line in mismatch_lines(report, self.width, "  ✗ "):
             self._print(line)
 
     def _condition_line(self, name: str, v: Verdict, expected: str | None) -> None:
@@ -185,6 +174,23 @@ class TerminalView:
         if reports:
             hint = "costcheck explain NAME: what a word means"
             self._print(hint if self.verbose else "--verbose: evidence, witnesses, notes; " + hint, "dim")
+
+
+def mismatch_lines(report: CostReport, width: int, mark: str = "✗ ") -> list[Text]:
+    """One line per missed expectation naming the file; the conditions left out (``--only``) in one
+    line for the cost, within ``width``, not one line each."""
+    cost = report.cost
+    lines = []
+    not_run = [mm.condition for mm in report.mismatches if mm.got == "not run"]
+    for mm in report.mismatches:
+        if mm.got != "not run":
+            lines.append(Text(mark, style="bold red")
+                         + Text(f"{cost.file or cost.id}: {mm.condition}: expected {mm.expected}, got {mm.got}"))
+    if not_run:
+        text = f"{cost.id}: expected, not run: {', '.join(not_run)}"
+        room = width - len(mark)
+        lines.append(Text(mark, style="bold red") + Text(text if len(text) <= room else text[:room - 1] + "…"))
+    return lines
 
 
 def summary_line(reports: list[CostReport], errors: list[CostFileError]) -> str:

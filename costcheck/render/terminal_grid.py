@@ -21,7 +21,7 @@ from rich.text import Text
 from ..conditions import REGISTRY
 from ..errors import CostFileError
 from ..model.report import CostReport
-from .terminal import WIDTH, summary_line, verdict_style
+from .terminal import WIDTH, mismatch_lines, summary_line, verdict_style
 
 #: column headings, at most five letters
 HEADS = {"twist": "twist", "nondegenerate": "ndeg", "mtw": "mtw", "nncc": "nncc", "target_c_convex": "tcc",
@@ -97,16 +97,8 @@ class GridView:
         for section in sections.values():
             self._section(section)
         for r in self.reports:
-            where = r.cost.file or r.cost.id
-            not_run = [mm.condition for mm in r.mismatches if mm.got == "not run"]
-            for mm in r.mismatches:
-                if mm.got != "not run":
-                    self._print(Text("✗ ", style="bold red") + Text(f"{where}: {mm.condition}: expected "
-                                                                     f"{mm.expected}, got {mm.got}"))
-            if not_run:  # left out by --only: one line for the cost, within the width
-                text = f"{r.cost.id}: expected, not run: {', '.join(not_run)}"
-                room = self.width - 2
-                self._print(Text("✗ ", style="bold red") + Text(text if len(text) <= room else text[:room - 1] + "…"))
+            for line in mismatch_lines(r, self.width):
+                self._print(line)
         self._print(summary_line(reports, errors),
                     "bold red" if errors or any(r.mismatches for r in reports) else "bold")
         for piece in textwrap.wrap(LEGEND, self.width):
