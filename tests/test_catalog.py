@@ -6,8 +6,8 @@ Three groups of tests:
 (a) every catalog file loads through the ordinary loader, its ``id`` is its file name and
     is unique, and it carries ``title``, ``source``, ``notes`` and a non-empty ``expect``;
 (b) every ``(file, condition)`` pair in a file's ``expect`` is its own test case (ids like
-    ``euclidean/sq-euclid.yaml::mtw``) that runs the condition check and compares the
-    verdict with the expectation;
+    ``euclidean/sq-euclid.yaml::mtw``) that compares the verdict ``costcheck check catalog``
+    gives (its JSON document, computed once for the suite) with the expectation;
 (c) the catalog covers every row of the check-value table (``docs/check-values.md``, which
     ``tests/test_docs.py`` keeps equal to it): :data:`REFERENCE_ROWS` maps each row to the
     files that exercise it, and each such file's ``expect`` must agree with the row and
@@ -33,9 +33,6 @@ from costcheck.spec.schema import VERDICT_WORDS
 CATALOG = Path(__file__).resolve().parent.parent / "catalog"
 SUBFOLDERS = ("euclidean", "sphere", "hyperbolic", "economics", "degenerate", "generating")
 
-#: sampled pairs per check: enough for the catalog's 1-D to 3-D costs, small enough that the
-#: whole of group (b) runs in a few minutes
-BUDGET = 1024
 
 FILES = find_cost_files([CATALOG]) if CATALOG.is_dir() else []
 
@@ -104,27 +101,35 @@ def test_economics_files_are_surpluses():
 CASES = [(rel(path), condition) for path in FILES for condition in load(rel(path)).expect]
 
 
+@lru_cache(maxsize=1)
+def _catalog_entries() -> dict:
+    """``{relpath: entry}`` of the catalog's ``check --json`` document (one run for the whole
+    suite: ``catalog_snapshot.catalog_json``, which the snapshot and schema tests read too)."""
+    from catalog_snapshot import catalog_json
+
+    return {Path(entry["file"]).relative_to("catalog").as_posix(): entry for entry in catalog_json()["costs"]}
+
+
 @pytest.mark.parametrize(("relpath", "condition"), CASES, ids=[f"{r}::{c}" for r, c in CASES])
 def test_published_verdict(relpath, condition):
     # The source of each case is the file's `source` field (the paper and year, as the
     # check-value table names it; "computed here" / "(from memory)" where the table says so).
     # It is repeated in every assertion message, so a failing case names the published
-    # result it disagrees with.
-    from costcheck.run.runner import run_checks
-
+    # result it disagrees with.  The verdict is the one `costcheck check catalog` gives (at
+    # the snapshot's budget, default proofs on), read from its JSON document.
     cost = load(relpath)
     expected = cost.expect[condition]
-    report = run_checks(cost, conditions=[condition], budget=BUDGET)
-    verdict = report.verdicts[condition]
-    detail = f"{verdict.evidence.kind}: {verdict.evidence.summary}"
-    if verdict.witness is not None:
-        w = verdict.witness
-        detail += f"; witness x={list(w.x)}, y={list(w.y)}, value={w.value}, vectors={dict(w.vectors)}"
-    if verdict.value is not None:
-        detail += f"; value={verdict.value} ({verdict.value_meaning})"
-    assert verdict.verdict == expected, (
+    entry = _catalog_entries()[relpath]
+    assert condition in entry["checks"], f"{relpath}::{condition}: expected {expected!r}, but it was not checked"
+    verdict = entry["checks"][condition]
+    detail = f"{verdict['evidence']['kind']}: {verdict['evidence'].get('summary')}"
+    if verdict.get("witness") is not None:
+        detail += f"; witness {verdict['witness']}"
+    if verdict.get("value") is not None:
+        detail += f"; value={verdict['value']}"
+    assert verdict["verdict"] == expected, (
         f"{relpath}::{condition}: expected {expected!r} (source: {cost.source}), "
-        f"the checker says {verdict.verdict!r} [{detail}]"
+        f"the checker says {verdict['verdict']!r} [{detail}]"
     )
 
 

@@ -54,7 +54,7 @@ def test_inner_expression_is_the_smallest_common_argument():
 def _values(fields, cost, xs, ys):
     """Every entry of every field (rows), at every point (columns)."""
     flat, layout = distinct_entries(fields, FIELDS)
-    fn = sp.lambdify(list(cost.x_symbols) + list(cost.y_symbols), flat, modules=LAMBDIFY_MODULES)
+    fn = sp.lambdify(list(cost.x_symbols) + list(cost.y_symbols), flat, modules=LAMBDIFY_MODULES, cse=True)
     columns = np.array([np.broadcast_to(np.asarray(c, float), xs.shape[:1]) for c in fn(*xs.T, *ys.T)])
     return np.concatenate([columns[layout[name].reshape(-1)] for name in FIELDS])
 

@@ -97,6 +97,15 @@ def test_a_derivative_stage_past_its_bound_makes_every_verdict_undecided(tmp_pat
 
 
 def test_a_condition_past_its_bound_is_undecided_and_says_so(tmp_path, monkeypatch):
+    import importlib
+
+    from costcheck.conditions import REGISTRY
+
+    # the line's checks can finish inside the timer's 1 ms floor (the sample and derivatives
+    # are computed before the bound): make each take 50 ms, in an interruptible sleep
+    for name in ("twist", "nondegenerate"):
+        module = importlib.import_module(f"costcheck.conditions.{REGISTRY[name]}")
+        monkeypatch.setattr(module, "check", lambda ctx, check=module.check: (time.sleep(0.05), check(ctx))[1])
     report = _check(tmp_path, monkeypatch, CONDITION_SECONDS=1e-6)
     for v in report.verdicts.values():
         assert v.verdict == "undecided"

@@ -72,7 +72,41 @@ def _child(argv: list[str], cwd: str, out_path: str, err_path: str, bounds: dict
             os._exit(code)
 
 
+#: children at once: the machine's cores (each case is one process on one core)
+PARALLEL = max(1, min(2, os.cpu_count() or 1))
+
+
+def _start(case: dict, scratch: str, index: int) -> tuple[int, dict]:
+    out_path, err_path = (os.path.join(scratch, f"{index}.{kind}") for kind in ("out", "err"))
+    for path in (out_path, err_path):
+        open(path, "w").close()
+    sys.stdout.flush()
+    sys.stderr.flush()
+    started = time.perf_counter()
+    pid = os.fork()
+    if pid == 0:
+        _child(case["argv"], case.get("cwd", "."), out_path, err_path, case.get("bounds", {}))
+    return pid, {"case": case, "out": out_path, "err": err_path, "started": started}
+
+
+def _result(job: dict, status: int, usage) -> dict:
+    with open(job["out"], encoding="utf-8", errors="replace") as handle:
+        stdout = handle.read()
+    with open(job["err"], encoding="utf-8", errors="replace") as handle:
+        stderr = handle.read()
+    return {
+        "name": job["case"]["name"],
+        "status": os.waitstatus_to_exitcode(status) if os.WIFEXITED(status) else None,
+        "signal": os.WTERMSIG(status) if os.WIFSIGNALED(status) else None,
+        "stdout": stdout[-4000:],
+        "stderr": stderr[-4000:],
+        "seconds": round(time.perf_counter() - job["started"], 3),
+        "peak_mb": round(usage.ru_maxrss / 1024, 1),
+    }
+
+
 def run(cases: list[dict]) -> list[dict]:
+    """Every case in its own forked child, :data:`PARALLEL` at a time; results in the cases' order."""
     # what every child uses, loaded once here (not JAX: it starts threads a fork would copy badly)
     import costcheck.cli  # noqa: F401
     import costcheck.conditions.context  # noqa: F401
@@ -80,34 +114,19 @@ def run(cases: list[dict]) -> list[dict]:
     import costcheck.run.runner  # noqa: F401
     import costcheck.spec.loader  # noqa: F401
 
-    results = []
+    results: dict[str, dict] = {}
+    running: dict[int, dict] = {}
+    pending = list(enumerate(cases))
     with tempfile.TemporaryDirectory(prefix="costcheck-hostile-") as scratch:
-        out_path, err_path = os.path.join(scratch, "out"), os.path.join(scratch, "err")
-        for case in cases:
-            for path in (out_path, err_path):
-                open(path, "w").close()
-            sys.stdout.flush()
-            sys.stderr.flush()
-            started = time.perf_counter()
-            pid = os.fork()
-            if pid == 0:
-                _child(case["argv"], case.get("cwd", "."), out_path, err_path, case.get("bounds", {}))
-            _, status, usage = os.wait4(pid, 0)
-            seconds = time.perf_counter() - started
-            with open(out_path, encoding="utf-8", errors="replace") as handle:
-                stdout = handle.read()
-            with open(err_path, encoding="utf-8", errors="replace") as handle:
-                stderr = handle.read()
-            results.append({
-                "name": case["name"],
-                "status": os.waitstatus_to_exitcode(status) if os.WIFEXITED(status) else None,
-                "signal": os.WTERMSIG(status) if os.WIFSIGNALED(status) else None,
-                "stdout": stdout[-4000:],
-                "stderr": stderr[-4000:],
-                "seconds": round(seconds, 3),
-                "peak_mb": round(usage.ru_maxrss / 1024, 1),
-            })
-    return results
+        while pending or running:
+            while pending and len(running) < PARALLEL:
+                index, case = pending.pop(0)
+                pid, job = _start(case, scratch, index)
+                running[pid] = job
+            pid, status, usage = os.wait4(-1, 0)
+            job = running.pop(pid)
+            results[job["case"]["name"]] = _result(job, status, usage)
+    return [results[case["name"]] for case in cases]
 
 
 if __name__ == "__main__":
