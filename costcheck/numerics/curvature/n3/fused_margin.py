@@ -21,7 +21,12 @@ converged are redone on the host by the per-pair route
 local minimum to rounding, found from seeds of the same 96-direction scan; the tests hold the
 two routes together on random pairs.
 
-Compilation takes seconds: worth it for large budgets, not for one small check (:func:`worthwhile`).
+**Status (measured by the bench, issue 23).**  The kernel gives the per-pair route's minima, but
+ran at about 0.6× its speed on power-0.5-3d (32k and 50k pairs/s against 53k on a loaded machine):
+the derivative-and-tensor program is fast, the Newton programs are not (XLA's CPU compiler splits
+an iteration into many loops over memory; ``DEVELOPERS.md`` has the figures).  So the checks do
+not use it; ``python -m costcheck.bench`` measures it beside the per-pair route
+(``margin.<cost>.n3_fused``).  Compilation takes about a minute on a cold cache.
 """
 
 from __future__ import annotations
@@ -41,21 +46,12 @@ DIRECTIONS = biquadratic.DEFAULT_DIRECTIONS
 #: Newton iterations from each of the two seeds, and in all from the better one
 SEED_ITERATIONS = 2
 ITERATIONS = 5
-#: from this many sampled pairs on, the MTW search uses the kernel (as for n = 2: compilation
-#: takes seconds when JAX's persistent cache is cold, and the check's sample already has its
-#: derivatives from the sympy backend)
-WORTHWHILE_PAIRS = 1 << 22
-
 FIELDS = ("dxy", "dxxy", "dxyy", "dxxyy")
 
 
 def applicable(cost) -> bool:
     """A symbolic cost with n = m = 3 (a Python-function cost has no symbolic derivatives)."""
     return cost.expr is not None and cost.n == 3 and cost.m == 3
-
-
-def worthwhile(cost, pairs: int) -> bool:
-    return applicable(cost) and pairs >= WORTHWHILE_PAIRS
 
 
 @lru_cache(maxsize=16)
