@@ -409,7 +409,9 @@ LIMITS = {
                       "dependent chain); the lambdified derivatives, ~1 us; the compiled tensor "
                       "algebra, ~0.5 us; the float32 BLAS scan, ~0.2 us; two threads give 1.5-1.8x. "
                       "The fused kernel (margin.<cost>.n3_fused) is slower still: see n3_fused_ratio",
-    "n3_fused_ratio": "the fused kernel's Newton programs (margin.<cost>.n3_fused.stage_pairs_per_s): "
+    "n3_fused_ratio": "the fused kernel's scan and Newton programs (margin.<cost>.n3_fused.stage_pairs_per_s, "
+                      "each ~1-3e5 pairs/s). Scan: a (288, 36) float32 product per pair and reductions over "
+                      "96 directions. Newton: "
                       "XLA's CPU compiler splits one Newton iteration into ~67 loops, each reading "
                       "~15 and writing 1-3 N-long columns, and copies the shared model (B, Q, the "
                       "mixed block) into several of them (~1,350 multiplications a step against ~500 "

@@ -22,8 +22,9 @@ local minimum to rounding, found from seeds of the same 96-direction scan; the t
 two routes together on random pairs.
 
 **Status (measured by the bench, issue 23).**  The kernel gives the per-pair route's minima, but
-ran at about 0.6× its speed on power-0.5-3d (32k and 50k pairs/s against 53k on a loaded machine):
-the derivative-and-tensor program is fast, the Newton programs are not (XLA's CPU compiler splits
+ran at 0.6× its speed on power-0.5-3d (81k against 129k pairs/s, 50,000 pairs, interleaved runs)
+and 0.2× on sq-euclid-3d (106k against 498k: the per-pair route skips the Newton loop where
+``G = 0``): the derivative-and-tensor program is fast, the scan and Newton programs are not (XLA's CPU compiler splits
 an iteration into many loops over memory; ``DEVELOPERS.md`` has the figures).  So the checks do
 not use it; ``python -m costcheck.bench`` measures it beside the per-pair route
 (``margin.<cost>.n3_fused``).  Compilation takes about a minute on a cold cache.
