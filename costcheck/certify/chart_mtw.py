@@ -46,7 +46,7 @@ def rational_frame(cost, frame: RadialFrame, fields=None):
     rational there (:mod:`.rational_forms`).  ``fields``: the distinct tensor-field entries already rewritten
     into the frame (a chart space's :attr:`~.enclosures.FieldEnclosures.entries`), else formed here."""
     if fields is None:
-        fields, _, _ = flat_fields(cost, TENSOR_FIELDS, frame.to_axis, frame.rewrite)
+        fields, _, _ = flat_fields(cost, TENSOR_FIELDS, frame.to_axis, frame.rewrite, frame.composed)
     forms = RationalForms(frame.r, fields)
     if not all(forms.reduce(e) is not None for e in fields):
         return None
@@ -90,7 +90,8 @@ def chart_strong(cost, space: ProofSpace, budget: Budget) -> Outcome | None:
     operations = space.enclosures.function.operations
     if operations > MAX_RATIONAL_OPERATIONS:
         return None
-    frame = RadialFrame(s, to_normal, space.lo, space.hi, space.classify, space.description, rewrite)
+    frame = RadialFrame(s, to_normal, space.lo, space.hi, space.classify, space.description, rewrite,
+                        composed=space.enclosures.composed)
     status, coefficients = within(SYMBOLIC_SECONDS, "the chart's quartic", _simplified, cost, frame,
                                   operations <= MAX_OPERATIONS, _tensor_entries(space))
     if status != "ok" or coefficients is None or any(e.free_symbols - {s} for e in coefficients):

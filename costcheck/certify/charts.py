@@ -224,7 +224,7 @@ def chart_space(cost, fields: Sequence[str], prep=None) -> ProofSpace | None:
     if forms is None:
         return None
     enclosures = FieldEnclosures(cost, fields, substitution=forms.to_normal, symbols=(forms.s,),
-                                 rewrite=forms.rewrite)
+                                 rewrite=forms.rewrite, composed=True)
     if not enclosures.free_of_others:
         return None
     space = ProofSpace(forms.description, ["s"], np.array([forms.start]), np.array([forms.far]), enclosures,

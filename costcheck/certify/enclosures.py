@@ -68,6 +68,7 @@ class FieldEnclosures:
         ``rewrite`` then applies identities that hold where the fields are enclosed (:mod:`.range_identities`);
         ``composed`` as for :func:`flat_fields`."""
         self.fields = tuple(fields)
+        self.composed = composed
         flat, self._layout, self._shapes = flat_fields(cost, self.fields, substitution, rewrite, composed)
         #: the distinct rewritten derivative entries compiled (callers must not modify the list)
         self.entries = flat

@@ -17,6 +17,7 @@ import itertools
 
 import sympy as sp
 
+from ..derivatives.composition import composed_derivatives
 from ..derivatives.sympy_backend import symbolic_derivatives
 from . import quantities
 from .arb_eval import compile_exprs
@@ -38,7 +39,8 @@ def _form(T: dict, inv, xi, eta) -> sp.Expr:
 def axis_tensor(cost, frame: RadialFrame):
     """``(T, M⁻¹)`` in sympy at ``x − y = (r, 0, …)``, or None if the rewrite keeps other symbols."""
     n = cost.n
-    sym = symbolic_derivatives(cost.expr, cost.x_symbols, cost.y_symbols, 4)
+    derive = composed_derivatives if frame.composed else symbolic_derivatives
+    sym = derive(cost.expr, cost.x_symbols, cost.y_symbols, 4)
     to_axis = as_substitution(frame.to_axis)  # one for all four fields: shared subexpressions rewritten once
     on_axis = {name: _rewrite(sym[name], to_axis, frame.rewrite) for name in ("dxy", "dxxy", "dxyy", "dxxyy")}
     M = sp.Matrix(on_axis["dxy"])
