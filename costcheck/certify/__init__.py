@@ -20,6 +20,7 @@ from ..defaults import DEFAULT_PROOF_CELLS, DEFAULT_PROOF_SECONDS
 from ..model.verdict import Evidence, Verdict
 from . import identity, proofs
 from .branch_bound import Budget
+from .preparation import ProofPreparation
 from .witnesses import certify_refutation
 
 __all__ = ["ProofOptions", "certify_refutation", "strengthen"]
@@ -50,21 +51,22 @@ _WHAT = {
 }
 
 
-def _attempt(cost, condition, verdict_word, options: ProofOptions, derivs):
-    """``(outcome or None, method, reason)`` for the proof that fits this verdict."""
+def _attempt(cost, condition, verdict_word, options: ProofOptions, derivs, prep: ProofPreparation | None = None):
+    """``(outcome or None, method, reason)`` for the proof that fits this verdict; ``prep`` shares the proof
+    spaces between the conditions of one cost."""
     budget = options.budget()
     if condition == "nondegenerate" and verdict_word == "holds":
-        return (*proofs.nondegenerate(cost, budget), "branch and bound")
+        return (*proofs.nondegenerate(cost, budget, prep), "branch and bound")
     if condition == "twist" and verdict_word == "holds":
-        return (*proofs.twist(cost, budget), "branch and bound")
+        return (*proofs.twist(cost, budget, prep), "branch and bound")
     if condition == "mtw" and verdict_word == "strong":
-        return (*proofs.mtw_strong(cost, budget), "branch and bound")
+        return (*proofs.mtw_strong(cost, budget, prep), "branch and bound")
     if (condition == "mtw" and verdict_word == "weak") or (condition == "nncc" and verdict_word == "holds"):
         ok, text = identity.tensor_vanishes(cost, options.identity_seconds, derivs)
         if ok:
             return "identity", text, "identity"
         if condition == "nncc":
-            outcome, why = proofs.nncc_positive(cost, budget)
+            outcome, why = proofs.nncc_positive(cost, budget, prep)
             return outcome, why or text, "branch and bound"
         return None, text, "identity"
     return None, "", ""
@@ -79,7 +81,8 @@ def strengthen(ctx, verdict: Verdict, options: ProofOptions) -> Verdict:
     if verdict.evidence.kind != "sampled" or verdict.verdict in ("fails", "undecided", "not-applicable"):
         return verdict
     derivs = ctx.derivs if ctx.cost.n == ctx.cost.m and ctx.order >= 4 else None
-    outcome, reason, method = _attempt(ctx.cost, verdict.condition, verdict.verdict, options, derivs)
+    outcome, reason, method = _attempt(ctx.cost, verdict.condition, verdict.verdict, options, derivs,
+                                       ctx.proof_preparation)
     old = verdict.evidence
     if outcome == "identity":
         summary = (f"proved by identity: {reason}, so S(ξ, η) = 0 for all ξ, η wherever M is invertible "

@@ -41,20 +41,23 @@ MAX_RATIONAL_OPERATIONS = 1000
 SYMBOLIC_SECONDS = 120.0
 
 
-def rational_frame(cost, frame: RadialFrame):
+def rational_frame(cost, frame: RadialFrame, fields=None):
     """``(frame whose rewrite also reduces each field in Q(s, atoms), the forms)``, or None when a field is not
-    rational there (:mod:`.rational_forms`)."""
-    fields, _, _ = flat_fields(cost, TENSOR_FIELDS, frame.to_axis, frame.rewrite)
+    rational there (:mod:`.rational_forms`).  ``fields``: the distinct tensor-field entries already rewritten
+    into the frame (a chart space's :attr:`~.enclosures.FieldEnclosures.entries`), else formed here."""
+    if fields is None:
+        fields, _, _ = flat_fields(cost, TENSOR_FIELDS, frame.to_axis, frame.rewrite, frame.composed)
     forms = RationalForms(frame.r, fields)
     if not all(forms.reduce(e) is not None for e in fields):
         return None
     return dataclasses.replace(frame, rewrite=lambda e: forms.reduce(frame.rewrite(e))), forms
 
 
-def _simplified(cost, frame: RadialFrame, may_simplify: bool):
+def _simplified(cost, frame: RadialFrame, may_simplify: bool, fields=None):
     """The quartic's coefficients in ``s``: by exact cancellation in ``Q(s, atoms)`` when every field is rational
-    there (:mod:`.rational_forms`), else by ``sympy.simplify`` if allowed; None when neither applies."""
-    built = rational_frame(cost, frame)
+    there (:mod:`.rational_forms`), else by ``sympy.simplify`` if allowed; None when neither applies.
+    ``fields`` as for :func:`rational_frame`."""
+    built = rational_frame(cost, frame, fields)
     if built is not None:
         reduced, forms = built
         coefficients = radial.circle_coefficients(cost, reduced)
@@ -75,15 +78,22 @@ def fields_defined(fields, a, b) -> bool:
     return at_cell is not None and balls.excludes_zero(quantities.det(at_cell["dxy"]))
 
 
+def _tensor_entries(space: ProofSpace):
+    """The space's rewritten entries when it encloses exactly the tensor fields (in their order), else None."""
+    enclosures = space.enclosures
+    return enclosures.entries if tuple(enclosures.fields) == tuple(TENSOR_FIELDS) else None
+
+
 def chart_strong(cost, space: ProofSpace, budget: Budget) -> Outcome | None:
     """Branch and bound over ``s``; None when the fields are too large for the route or sympy fails."""
     s, to_normal, rewrite = space.normal_form
     operations = space.enclosures.function.operations
     if operations > MAX_RATIONAL_OPERATIONS:
         return None
-    frame = RadialFrame(s, to_normal, space.lo, space.hi, space.classify, space.description, rewrite)
+    frame = RadialFrame(s, to_normal, space.lo, space.hi, space.classify, space.description, rewrite,
+                        composed=space.enclosures.composed)
     status, coefficients = within(SYMBOLIC_SECONDS, "the chart's quartic", _simplified, cost, frame,
-                                  operations <= MAX_OPERATIONS)
+                                  operations <= MAX_OPERATIONS, _tensor_entries(space))
     if status != "ok" or coefficients is None or any(e.free_symbols - {s} for e in coefficients):
         return None
     function = compile_exprs(tuple(coefficients), (s,))

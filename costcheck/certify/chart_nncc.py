@@ -104,7 +104,8 @@ def chart_nncc(cost, space: ProofSpace, budget: Budget) -> Outcome | None:
     s, to_normal, rewrite = space.normal_form
     if space.enclosures.function.operations > chart_mtw.MAX_RATIONAL_OPERATIONS:
         return None
-    frame = RadialFrame(s, to_normal, space.lo, space.hi, space.classify, space.description, rewrite)
+    frame = RadialFrame(s, to_normal, space.lo, space.hi, space.classify, space.description, rewrite,
+                        composed=space.enclosures.composed)
     status, built = within(chart_mtw.SYMBOLIC_SECONDS, "the chart's Gram matrix", _minors, cost, frame)
     if status != "ok" or built is None or any(m.free_symbols - {s} for m in built[0]):
         return None

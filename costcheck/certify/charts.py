@@ -42,6 +42,7 @@ from .interval_eval import compile_interval_exprs
 from .range_identities import RangeRewriter
 from .region import bounding_box
 from .space import ConstraintLocator, ProofSpace
+from .substitution import Substitution
 
 #: cells per side of the grid the pairing is enclosed on first, and the most cells enclosed in all
 GRID, MAX_CELLS = 8, 400_000
@@ -160,8 +161,22 @@ def _far_end(sigma_at, chart: Chart, L: float, U: float) -> float | None:
     return far
 
 
-def chart_space(cost, fields: Sequence[str]) -> ProofSpace | None:
-    """The one-dimensional proof space over normal-form pairs, or None when no chart is recognised."""
+@dataclass(frozen=True)
+class NormalForms:
+    """What a chart's proofs share whatever fields they enclose: the cover of ``s``, its constraint tests,
+    the rewrite of ``x, y`` into the normal forms (one :class:`.substitution.Substitution` for every field)
+    and the identities proved on the cover."""
+    s: sp.Symbol
+    to_normal: Substitution
+    rewrite: RangeRewriter
+    start: float
+    far: float
+    classify: Callable
+    description: str
+
+
+def normal_forms(cost) -> NormalForms | None:
+    """The normal forms of the first chart the cost is recognised in, or None."""
     if cost.expr is None or cost.n != 2 or cost.m != 2:
         return None
     x, y = tuple(cost.x_symbols), tuple(cost.y_symbols)
@@ -192,17 +207,28 @@ def chart_space(cost, fields: Sequence[str]) -> ProofSpace | None:
             g = through_pairing(c.inequality.g, x, y, chart, t)
             if g is not None:
                 tests.append((compile_exprs((g.xreplace({t: sigma_at}),), (s,)), c.inequality.strict))
-        rewrite = RangeRewriter(s, chart.start, far)
-        enclosures = FieldEnclosures(cost, fields, substitution=to_normal, symbols=(s,), rewrite=rewrite)
-        if not enclosures.free_of_others:
-            return None
         description = (f"normal-form pairs of {chart.name} (the cost is F(σ), shown by exact rewriting; "
                        f"{chart.statement}; σ ∈ [{L:.6g}, {U:.6g}] on the domain, enclosed over {grid_cells} "
                        "cells; the determinant's non-vanishing and the cross-curvature's sign are kept by "
                        "that change of chart, its size is not: the lower bound is the normal forms')")
-        space = ProofSpace(description, ["s"], np.array([chart.start]), np.array([far]), enclosures,
-                           ConstraintLocator(tests).classify)
-        # for .chart_mtw: the rewrite of x, y into the normal forms, and the identities proved on the cover
-        space.normal_form = (s, to_normal, rewrite)
-        return space
+        return NormalForms(s, Substitution(to_normal), RangeRewriter(s, chart.start, far), chart.start, far,
+                           ConstraintLocator(tests).classify, description)
     return None
+
+
+def chart_space(cost, fields: Sequence[str], prep=None) -> ProofSpace | None:
+    """The one-dimensional proof space over normal-form pairs, or None when no chart is recognised.
+
+    ``prep`` (a :class:`.preparation.ProofPreparation`) shares the normal forms between the fields asked for."""
+    forms = prep.once(("normal forms",), lambda: normal_forms(cost)) if prep is not None else normal_forms(cost)
+    if forms is None:
+        return None
+    enclosures = FieldEnclosures(cost, fields, substitution=forms.to_normal, symbols=(forms.s,),
+                                 rewrite=forms.rewrite, composed=True)
+    if not enclosures.free_of_others:
+        return None
+    space = ProofSpace(forms.description, ["s"], np.array([forms.start]), np.array([forms.far]), enclosures,
+                       forms.classify)
+    # for .chart_mtw: the rewrite of x, y into the normal forms, and the identities proved on the cover
+    space.normal_form = (forms.s, forms.to_normal, forms.rewrite)
+    return space

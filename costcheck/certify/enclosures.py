@@ -14,16 +14,19 @@ from ..derivatives.fields import ORDER_FIELDS
 from ..derivatives.composition import composed_derivatives
 from ..derivatives.sympy_backend import symbolic_derivatives
 from .arb_eval import compile_exprs
+from .substitution import Substitution, as_substitution
 
 #: the derivative fields the MTW tensor is built from
 TENSOR_FIELDS = ("dxy", "dxxy", "dxyy", "dxxyy")
 
 
-def flat_fields(cost, fields: Sequence[str], substitution: dict | None = None, rewrite: Callable | None = None,
-                composed: bool = False):
+def flat_fields(cost, fields: Sequence[str], substitution: dict | Substitution | None = None,
+                rewrite: Callable | None = None, composed: bool = False):
     """``(distinct entries, layout, shapes)`` of the named derivative fields: ``layout[name]`` lists the
     position in the entries of each element of the field (row-major), ``shapes[name]`` its shape.
     ``rewrite`` (after ``substitution``) maps each entry to an expression equal to it where it is used.
+    ``substitution`` is a mapping for ``xreplace`` or a :class:`~.substitution.Substitution` of one (shared
+    by the callers that rewrite into the same variables, so each subexpression is rewritten once).
 
     ``composed``: the derivatives by Faà di Bruno's formula where the cost is ``F(t)``
     (:mod:`costcheck.derivatives.composition`), the same functions formed far faster on the charts;
@@ -35,6 +38,8 @@ def flat_fields(cost, fields: Sequence[str], substitution: dict | None = None, r
     else:
         derive = composed_derivatives if composed else symbolic_derivatives
         sym = derive(cost.expr, cost.x_symbols, cost.y_symbols, order)
+    if substitution is not None:
+        substitution = as_substitution(substitution)  # one for every entry: shared subexpressions once
     shapes, layout = {}, {}
     flat, position = [], {}
     for name in fields:
@@ -42,8 +47,8 @@ def flat_fields(cost, fields: Sequence[str], substitution: dict | None = None, r
         shapes[name] = arr.shape
         idx = []
         for e in arr.reshape(-1):
-            if substitution:
-                e = e.xreplace(substitution)
+            if substitution is not None:
+                e = substitution(e)
             if rewrite is not None:
                 e = rewrite(e)
             if e not in position:
@@ -57,13 +62,16 @@ def flat_fields(cost, fields: Sequence[str], substitution: dict | None = None, r
 class FieldEnclosures:
     """``enclose(cell) -> {field: nested lists of balls}`` for the named derivative fields."""
 
-    def __init__(self, cost, fields: Sequence[str], substitution: dict | None = None,
+    def __init__(self, cost, fields: Sequence[str], substitution: dict | Substitution | None = None,
                  symbols: Sequence | None = None, rewrite: Callable | None = None, composed: bool = False):
         """``substitution`` rewrites the derivatives into other variables ``symbols`` (default: x, then y);
         ``rewrite`` then applies identities that hold where the fields are enclosed (:mod:`.range_identities`);
         ``composed`` as for :func:`flat_fields`."""
         self.fields = tuple(fields)
+        self.composed = composed
         flat, self._layout, self._shapes = flat_fields(cost, self.fields, substitution, rewrite, composed)
+        #: the distinct rewritten derivative entries compiled (callers must not modify the list)
+        self.entries = flat
         variables = tuple(symbols) if symbols is not None else tuple(cost.x_symbols) + tuple(cost.y_symbols)
         #: every rewritten derivative is a function of ``symbols`` alone (else nothing is compiled)
         self.free_of_others = all(e.free_symbols <= set(variables) for e in flat)

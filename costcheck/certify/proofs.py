@@ -43,18 +43,19 @@ from . import balls, chart_mtw, chart_nncc, quantities, radial
 from .branch_bound import Budget, Outcome, branch_and_bound
 from .dual import Dual, tighten
 from .enclosures import TENSOR_FIELDS
-from .charts import chart_space
-from .space import radial_frame, radial_space, space_for
+from .preparation import ProofPreparation, chart_space_of, space_of
+from .space import radial_frame, radial_space
 
 
-def _run(cost, fields, coefficients, decide, budget: Budget, space=None, proved: list | None = None) -> Outcome:
+def _run(cost, fields, coefficients, decide, budget: Budget, space=None, proved: list | None = None,
+         prep: ProofPreparation | None = None) -> Outcome:
     """Branch and bound where a cell is proved when ``decide(coefficients(fields on cell))`` is a number.
 
     ``coefficients`` is the condition's algebra from the derivative fields to a few numbers
     (a determinant, a quartic's coefficients); it runs on dual numbers over the cell and on
     balls at the cell's middle, and each number is enclosed by the mean-value form.
     """
-    space = space or space_for(cost, fields)
+    space = space or space_of(cost, fields, prep)
 
     def decide_cell(a, b):
         value = decide_tight(a, b)
@@ -96,7 +97,7 @@ def _needs_symbols(cost) -> str | None:
     return None
 
 
-def nondegenerate(cost, budget: Budget):
+def nondegenerate(cost, budget: Budget, prep: ProofPreparation | None = None):
     if (why := _needs_symbols(cost)) is not None:
         return None, why
     if max(cost.n, cost.m) > 3 and cost.n == cost.m or min(cost.n, cost.m) > 3:
@@ -104,7 +105,7 @@ def nondegenerate(cost, budget: Budget):
     def coefficients(f):
         return [quantities.rank_determinant(f["dxy"])]
 
-    return _run(cost, ("dxy",), coefficients, _nonzero, budget, space=_chart_first(cost, ("dxy",))), ""
+    return _run(cost, ("dxy",), coefficients, _nonzero, budget, space=_chart_first(cost, ("dxy",), prep=prep)), ""
 
 
 #: the least budget (s) for which the MTW tensor is proved over a chart's normal forms: on the 2-core
@@ -112,11 +113,12 @@ def nondegenerate(cost, budget: Budget):
 CHART_TENSOR_SECONDS = 20.0
 
 
-def _chart_first(cost, fields, budget: Budget | None = None):
-    """The normal forms of a recognised chart (:mod:`.charts`) when there is one, else the usual space."""
+def _chart_first(cost, fields, budget: Budget | None = None, prep: ProofPreparation | None = None):
+    """The normal forms of a recognised chart (:mod:`.charts`) when there is one, else the usual space
+    (through ``prep``, the cost's shared preparation, when given)."""
     if budget is not None and budget.seconds < CHART_TENSOR_SECONDS:
-        return space_for(cost, fields)
-    return chart_space(cost, fields) or space_for(cost, fields)
+        return space_of(cost, fields, prep)
+    return chart_space_of(cost, fields, prep) or space_of(cost, fields, prep)
 
 
 def _slices_convex(cost) -> bool:
@@ -144,7 +146,7 @@ def _radial_twist(cost, budget: Budget, space):
     return outcome, ""
 
 
-def twist(cost, budget: Budget):
+def twist(cost, budget: Budget, prep: ProofPreparation | None = None):
     if (why := _needs_symbols(cost)) is not None:
         return None, why
     if cost.n != cost.m:
@@ -165,7 +167,7 @@ def twist(cost, budget: Budget):
             return None
         return min(_nonzero([d]) for d in minors)
 
-    return _run(cost, ("dxy",), coefficients, decide, budget), ""
+    return _run(cost, ("dxy",), coefficients, decide, budget, prep=prep), ""
 
 
 def _tensor_on(f):
@@ -184,7 +186,7 @@ def _plane_only(cost, what: str) -> str | None:
     return None
 
 
-def mtw_strong(cost, budget: Budget):
+def mtw_strong(cost, budget: Budget, prep: ProofPreparation | None = None):
     if (why := _needs_symbols(cost)) is None and cost.n == cost.m >= 2:
         frame = radial_frame(cost)
         outcome = radial.radial_strong(cost, frame, budget) if frame is not None else None
@@ -192,7 +194,7 @@ def mtw_strong(cost, budget: Budget):
             return outcome, ""
     if (why := _plane_only(cost, "MTW")) is not None:
         return None, why
-    chart = chart_space(cost, TENSOR_FIELDS)
+    chart = chart_space_of(cost, TENSOR_FIELDS, prep)
     if chart is not None and (outcome := chart_mtw.chart_strong(cost, chart, budget)) is not None:
         return outcome, ""
 
@@ -201,15 +203,15 @@ def mtw_strong(cost, budget: Budget):
         return None if T is None else quantities.orthogonal_quartic(T, inv)
 
     return _run(cost, TENSOR_FIELDS, coefficients, quantities.circle_lower_bound, budget,
-                space=_chart_first(cost, TENSOR_FIELDS, budget)), ""
+                space=_chart_first(cost, TENSOR_FIELDS, budget, prep)), ""
 
 
-def nncc_positive(cost, budget: Budget):
+def nncc_positive(cost, budget: Budget, prep: ProofPreparation | None = None):
     if (why := _plane_only(cost, "NNCC")) is not None:
         return None, why
     # the Gram route costs about 100 s of sympy on the sphere's squared distance and does not finish there
     # (cells near the diagonal stay undecided): only for a long budget, never in a default check
-    chart = chart_space(cost, TENSOR_FIELDS) if budget.seconds >= CHART_TENSOR_SECONDS else None
+    chart = chart_space_of(cost, TENSOR_FIELDS, prep) if budget.seconds >= CHART_TENSOR_SECONDS else None
     if chart is not None and (outcome := chart_nncc.chart_nncc(cost, chart, budget)) is not None:
         return outcome, ""
 
@@ -227,4 +229,5 @@ def nncc_positive(cost, budget: Budget):
         second = quantities.circle_lower_bound(values[3:])
         return None if second is None else min(first, second)
 
-    return _run(cost, TENSOR_FIELDS, coefficients, decide, budget, space=_chart_first(cost, TENSOR_FIELDS, budget)), ""
+    return _run(cost, TENSOR_FIELDS, coefficients, decide, budget,
+                space=_chart_first(cost, TENSOR_FIELDS, budget, prep)), ""

@@ -17,11 +17,13 @@ import itertools
 
 import sympy as sp
 
+from ..derivatives.composition import composed_derivatives
 from ..derivatives.sympy_backend import symbolic_derivatives
 from . import quantities
 from .arb_eval import compile_exprs
 from .branch_bound import Budget, Outcome, branch_and_bound
 from .space import RadialFrame
+from .substitution import as_substitution
 
 
 def _form(T: dict, inv, xi, eta) -> sp.Expr:
@@ -37,8 +39,10 @@ def _form(T: dict, inv, xi, eta) -> sp.Expr:
 def axis_tensor(cost, frame: RadialFrame):
     """``(T, M⁻¹)`` in sympy at ``x − y = (r, 0, …)``, or None if the rewrite keeps other symbols."""
     n = cost.n
-    sym = symbolic_derivatives(cost.expr, cost.x_symbols, cost.y_symbols, 4)
-    on_axis = {name: _rewrite(sym[name], frame.to_axis, frame.rewrite) for name in ("dxy", "dxxy", "dxyy", "dxxyy")}
+    derive = composed_derivatives if frame.composed else symbolic_derivatives
+    sym = derive(cost.expr, cost.x_symbols, cost.y_symbols, 4)
+    to_axis = as_substitution(frame.to_axis)  # one for all four fields: shared subexpressions rewritten once
+    on_axis = {name: _rewrite(sym[name], to_axis, frame.rewrite) for name in ("dxy", "dxxy", "dxyy", "dxxyy")}
     M = sp.Matrix(on_axis["dxy"])
     if M.free_symbols - {frame.r} or M.det() == 0:
         return None
@@ -97,9 +101,11 @@ def _only_in(frame: RadialFrame, expressions: list):
 
 
 def _rewrite(entries, substitution, identities=None):
+    """``substitution``: a mapping for ``xreplace`` or a :class:`~.substitution.Substitution`."""
+    substitution = as_substitution(substitution)  # one for all the entries: shared subexpressions once
     if isinstance(entries, list):
         return [_rewrite(e, substitution, identities) for e in entries]
-    entry = entries.xreplace(substitution)
+    entry = substitution(entries)
     return identities(entry) if identities is not None else entry
 
 

@@ -46,8 +46,10 @@ class ProofSpace:
 
 def pair_space(cost, fields: Sequence[str]) -> ProofSpace:
     lo, hi = bounding_box(cost.domain)
+    # composed: the derivatives the sampled checks already formed (Faà di Bruno's formula where the cost is
+    # F(t)); differentiating a chart cost plainly four times took most of a default check on the sphere
     return ProofSpace("pairs (x, y)", list(cost.x_names) + list(cost.y_names), lo, hi,
-                      FieldEnclosures(cost, fields), Locator(cost.domain, cost.n).classify)
+                      FieldEnclosures(cost, fields, composed=True), Locator(cost.domain, cost.n).classify)
 
 
 def _difference_substitution(cost):
@@ -123,6 +125,9 @@ class RadialFrame:
                         "carry every pair to z = (r, 0))")
     #: identities applied to the derivatives once rewritten (:mod:`.range_identities`), or None
     rewrite: Callable | None = None
+    #: the derivatives by Faà di Bruno's formula (:mod:`costcheck.derivatives.composition`), as a chart's
+    #: space encloses them, instead of differentiated plainly
+    composed: bool = False
 
 
 def radial_frame(cost) -> RadialFrame | None:

@@ -14,6 +14,7 @@ import numpy as np
 from ..defaults import DEFAULT_LEVELS
 from ..derivatives.fields import Derivatives, Evaluator
 from ..derivatives.mp_backend import HighPrecision, high_precision
+from ..certify.preparation import ProofPreparation
 from ..model.cost import Cost
 from ..numerics import precision
 from ..numerics.sampling import PairSample, sample_pairs
@@ -85,6 +86,11 @@ class CheckContext:
             self._usable_hp[order] = precision.usable_high_precision(self.cost, order, self.sample.xs[i],
                                                                      self.sample.ys[i])
         return self._usable_hp[order]
+
+    @cached_property
+    def proof_preparation(self) -> ProofPreparation:
+        """The proof spaces the conditions of this cost share (built on first use, dropped with the run)."""
+        return ProofPreparation(self.cost)
 
     @cached_property
     def high_precision(self) -> HighPrecision | None:

@@ -13,6 +13,7 @@ from dataclasses import dataclass
 import numpy as np
 
 from ..model.domain import Domain
+from . import sobol_points
 
 _MAX_ROUNDS = 8
 
@@ -34,15 +35,12 @@ class PairSample:
 
 
 def _draw(dim: int, count: int, seed: np.random.Generator | int, lower, upper) -> np.ndarray:
-    # SciPy's qmc module imports all of scipy.stats (about a second): loaded on the first draw
-    # (then kept by the import system), so commands that sample nothing never pay for it
-    from scipy.stats import qmc
-
-    sobol = qmc.Sobol(d=dim, scramble=True, seed=seed)
+    # SciPy's Sobol points; its qmc module imports all of scipy.stats (about a second), so a draw
+    # already made is read back from the point store (.sobol_points) and nothing of SciPy is loaded
     # Sobol balance properties need a power of two
     exponent = max(1, int(np.ceil(np.log2(max(count, 2)))))
-    unit = sobol.random_base2(exponent)[:count]
-    return qmc.scale(unit, lower, upper) if dim else unit
+    unit = sobol_points.unit_points(dim, exponent, seed)[:count]
+    return sobol_points.scaled(unit, lower, upper) if dim else unit
 
 
 def sample_pairs(domain: Domain, n: int, m: int, count: int, seed: int) -> PairSample:

@@ -66,21 +66,33 @@ def checked_in_worker(data: Mapping, file: str | None, run_options: Mapping):
     return ("report", verdicts, report.seconds, report.options)
 
 
+def expected_work(data: Mapping) -> tuple[int, int]:
+    """A rough, file-only guess of how long a cost takes, for ordering only: the dimension of the
+    pairs first (a 3-D cost's searches and proofs take several times a 2-D one's), then the length of
+    its formula (a chart's long expression has long derivatives)."""
+    dimension = len(data.get("x") or ()) + len(data.get("y") or ())
+    text = str(data.get("expr") or "") + "".join(str(v) for v in (data.get("define") or {}).values())
+    return dimension, len(text)
+
+
 def check_concurrently(
     jobs: Sequence[tuple[Mapping, str | None]], run_options: Mapping, workers: int,
 ) -> Iterator[tuple[int, object]]:
     """``(index, outcome of checked_in_worker)`` for each ``(data, file)`` job, in job order.
 
-    Work starts on every job at once; the answers are handed out in order, so what the
-    caller prints does not depend on which worker finished first.
+    Work starts on every job at once, the longest expected first (:func:`expected_work`: a long
+    job started last would leave the other workers idle at the end); the answers are handed out in
+    job order, so what the caller prints does not depend on which worker finished first.
     """
     context = multiprocessing.get_context("spawn")
     with ProcessPoolExecutor(max_workers=workers, mp_context=context) as pool:
-        futures: list[Future] = [pool.submit(checked_in_worker, data, file, dict(run_options))
-                                 for data, file in jobs]
+        # the pool starts jobs in the order they are submitted; sorted() is stable, so ties keep file order
+        order = sorted(range(len(jobs)), key=lambda i: expected_work(jobs[i][0]), reverse=True)
+        futures: dict[int, Future] = {i: pool.submit(checked_in_worker, jobs[i][0], jobs[i][1], dict(run_options))
+                                      for i in order}
         try:
-            for index, future in enumerate(futures):
-                yield index, future.result()
+            for index in range(len(jobs)):
+                yield index, futures[index].result()
         finally:
-            for future in futures:
+            for future in futures.values():
                 future.cancel()
