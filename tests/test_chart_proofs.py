@@ -8,13 +8,11 @@ equal those at its normal form (mpmath derivative fields at both pairs, no reduc
 
 from __future__ import annotations
 
-import os
 from functools import lru_cache
 from pathlib import Path
 
 import mpmath
 import numpy as np
-import pytest
 import sympy as sp
 from hypothesis import given, settings, strategies as st
 
@@ -130,8 +128,6 @@ def test_chart_mtw_proof_agrees_with_dense_sampling():
 
 
 
-@pytest.mark.skipif(not os.environ.get("COSTCHECK_TEST_LONG_PROOFS"),
-                    reason="about 35 s (the sphere's fourth derivatives, then the proof): set COSTCHECK_TEST_LONG_PROOFS=1")
 def test_chart_nncc_proof_agrees_with_dense_sampling():
     # the round sphere's d²/2 has non-negative cross-curvature (Kim and McCann, J. reine angew. Math. 664,
     # 2012), zero along the geodesic, so only the semidefinite Gram certificate can prove it (with a long
