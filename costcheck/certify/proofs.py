@@ -209,8 +209,9 @@ def mtw_strong(cost, budget: Budget, prep: ProofPreparation | None = None):
 def nncc_positive(cost, budget: Budget, prep: ProofPreparation | None = None):
     if (why := _plane_only(cost, "NNCC")) is not None:
         return None, why
-    # the Gram route costs about 100 s of sympy on the sphere's squared distance and does not finish there
-    # (cells near the diagonal stay undecided): only for a long budget, never in a default check
+    # the Gram route (chart_nncc) proves the sphere's squared distance, but its sympy preparation
+    # alone is a few seconds (8 s for the whole NNCC check with --prove, measured 2026-12-04 on a
+    # loaded 2-core machine), more than the default budget: only for a long budget
     chart = chart_space_of(cost, TENSOR_FIELDS, prep) if budget.seconds >= CHART_TENSOR_SECONDS else None
     if chart is not None and (outcome := chart_nncc.chart_nncc(cost, chart, budget)) is not None:
         return outcome, ""
