@@ -142,3 +142,17 @@ def test_chart_nncc_proof_agrees_with_dense_sampling():
     keep = cost.domain.contains_pairs(xs, ys)
     scaled = margins.nncc_margin(cost.derivatives(order=4)(xs[keep], ys[keep])).rel
     assert np.nanmin(scaled) > -1e-7
+
+
+def test_nncc_positive_minimum_route_is_not_run_where_the_sampled_minimum_is_zero():
+    # the same sphere (cross-curvature zero along the geodesic, Kim and McCann 2012 as above): with a
+    # short budget the Gram route is out, and a sampled margin within the tolerance of 0 means no
+    # positive lower bound exists, so nothing is attempted and the reason says so; a margin above the
+    # tolerance still runs the branch and bound (the radial 1-D cover of sqrt(1 - |x - y|^2), whose
+    # proof the catalog run reports)
+    short = Budget(seconds=1.0, cells=2000)
+    outcome, why = proofs.nncc_positive(_cost("sphere/sphere-dist-sq.yaml"), short, sampled_margin=(-2.9e-13, 1e-7))
+    assert outcome is None and "cannot succeed" in why and "-2.9e-13" in why and "Gram route" in why
+    outcome, why = proofs.nncc_positive(_cost("euclidean/sqrt-one-minus.yaml"), Budget(seconds=4.0, cells=20000),
+                                        sampled_margin=(0.0188, 1e-7))
+    assert outcome is not None and outcome.proved and why == ""

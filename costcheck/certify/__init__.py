@@ -51,10 +51,11 @@ _WHAT = {
 }
 
 
-def _attempt(cost, condition, verdict_word, options: ProofOptions, derivs, prep: ProofPreparation | None = None):
+def _attempt(cost, verdict: Verdict, options: ProofOptions, derivs, prep: ProofPreparation | None = None):
     """``(outcome or None, method, reason)`` for the proof that fits this verdict; ``prep`` shares the proof
     spaces between the conditions of one cost."""
     budget = options.budget()
+    condition, verdict_word = verdict.condition, verdict.verdict
     if condition == "nondegenerate" and verdict_word == "holds":
         return (*proofs.nondegenerate(cost, budget, prep), "branch and bound")
     if condition == "twist" and verdict_word == "holds":
@@ -66,10 +67,18 @@ def _attempt(cost, condition, verdict_word, options: ProofOptions, derivs, prep:
         if ok:
             return "identity", text, "identity"
         if condition == "nncc":
-            outcome, why = proofs.nncc_positive(cost, budget, prep)
+            outcome, why = proofs.nncc_positive(cost, budget, prep, sampled_margin=_sampled_margin(verdict))
             return outcome, why or text, "branch and bound"
         return None, text, "identity"
     return None, "", ""
+
+
+def _sampled_margin(verdict: Verdict) -> tuple[float, float] | None:
+    """``(smallest scale-free margin found, the check's tolerance)`` of a sampled verdict, when it has them."""
+    tolerance = verdict.evidence.details.get("tolerance")
+    if verdict.value is None or tolerance is None:
+        return None
+    return float(verdict.value), float(tolerance)
 
 
 def _names(cost):
@@ -81,8 +90,7 @@ def strengthen(ctx, verdict: Verdict, options: ProofOptions) -> Verdict:
     if verdict.evidence.kind != "sampled" or verdict.verdict in ("fails", "undecided", "not-applicable"):
         return verdict
     derivs = ctx.derivs if ctx.cost.n == ctx.cost.m and ctx.order >= 4 else None
-    outcome, reason, method = _attempt(ctx.cost, verdict.condition, verdict.verdict, options, derivs,
-                                       ctx.proof_preparation)
+    outcome, reason, method = _attempt(ctx.cost, verdict, options, derivs, ctx.proof_preparation)
     old = verdict.evidence
     if outcome == "identity":
         summary = (f"proved by identity: {reason}, so S(ξ, η) = 0 for all ξ, η wherever M is invertible "
