@@ -130,11 +130,13 @@ def test_chart_mtw_proof_agrees_with_dense_sampling():
 
 def test_chart_nncc_proof_agrees_with_dense_sampling():
     # the round sphere's d²/2 has non-negative cross-curvature (Kim and McCann, J. reine angew. Math. 664,
-    # 2012), zero along the geodesic, so only the semidefinite Gram certificate can prove it (with a long
-    # budget); the scale-free margin is ≥ −1e-7 at every one of 3000 sampled pairs (floats, no reduction)
+    # 2012), zero along the geodesic, so only the semidefinite Gram certificate can prove it (within the
+    # default budget: ~1 s); the scale-free margin is ≥ −1e-7 at every one of 3000 sampled
+    # pairs (floats, no reduction)
+    from costcheck.defaults import DEFAULT_PROOF_CELLS, DEFAULT_PROOF_SECONDS
     from costcheck.numerics.curvature import margins
     cost = _cost("sphere/sphere-dist-sq.yaml")
-    outcome, _ = proofs.nncc_positive(cost, Budget(seconds=proofs.CHART_TENSOR_SECONDS, cells=20000))
+    outcome, _ = proofs.nncc_positive(cost, Budget(seconds=DEFAULT_PROOF_SECONDS, cells=DEFAULT_PROOF_CELLS))
     assert outcome.proved and "normal-form" in outcome.space
     assert "wᵀ G w" in outcome.what and outcome.bound == 0.0
     rng = np.random.default_rng(6)
@@ -145,14 +147,13 @@ def test_chart_nncc_proof_agrees_with_dense_sampling():
 
 
 def test_nncc_positive_minimum_route_is_not_run_where_the_sampled_minimum_is_zero():
-    # the same sphere (cross-curvature zero along the geodesic, Kim and McCann 2012 as above): with a
-    # short budget the Gram route is out, and a sampled margin within the tolerance of 0 means no
-    # positive lower bound exists, so nothing is attempted and the reason says so; a margin above the
-    # tolerance still runs the branch and bound (the radial 1-D cover of sqrt(1 - |x - y|^2), whose
-    # proof the catalog run reports)
-    short = Budget(seconds=1.0, cells=2000)
-    outcome, why = proofs.nncc_positive(_cost("sphere/sphere-dist-sq.yaml"), short, sampled_margin=(-2.9e-13, 1e-7))
-    assert outcome is None and "cannot succeed" in why and "-2.9e-13" in why and "Gram route" in why
+    # a sampled margin within the tolerance of 0 means no positive lower bound exists on every cell
+    # (elementary: a bound > 0 on a cover would put every value above it), so off a chart nothing
+    # is attempted and the reason says so; a margin above the tolerance still runs the branch and
+    # bound (the radial cover of sqrt(1 - |x - y|^2), whose proof the catalog run reports)
+    outcome, why = proofs.nncc_positive(_cost("euclidean/power-0.5.yaml"), Budget(seconds=4.0, cells=20000),
+                                        sampled_margin=(-2.9e-13, 1e-7))
+    assert outcome is None and "cannot succeed" in why and "-2.9e-13" in why and "not written in one" in why
     outcome, why = proofs.nncc_positive(_cost("euclidean/sqrt-one-minus.yaml"), Budget(seconds=4.0, cells=20000),
                                         sampled_margin=(0.0188, 1e-7))
     assert outcome is not None and outcome.proved and why == ""
