@@ -184,3 +184,25 @@ def test_a_twist_collision_is_found_and_left_undecided():
     assert np.allclose(first[:2], second[:2]) and np.allclose(first[3:], second[3:])  # same x, y2, z
     assert first[2] == pytest.approx(-second[2], abs=1e-8) and abs(first[2]) > 1e-3  # y1 and -y1
     assert verdicts["g_dual_twist"].verdict == "holds" and verdicts["g_dual_twist"].evidence.kind == "sampled"
+
+
+def test_income_effect_matching_utility_has_the_hand_derived_fields_and_verdicts():
+    # G = s w, s = 1 + x·y, w = B - z (catalog/generating/income-effect-matching.yaml; the utility
+    # form after Nöldeke–Samuelson 2018 and McCann–Zhang 2019, recalled from memory). Elementary
+    # calculus: E = G_xy - G_xz ⊗ G_y / G_z = w (I - y xᵀ / s), det E = w² / s; G is linear in x,
+    # so every field with two x-derivatives (Trudinger's A = G_xx and its p-derivatives) is 0
+    cost = costcheck.load(ROOT / "catalog" / "generating" / "income-effect-matching.yaml")
+    x1, x2 = cost.x_symbols
+    y1, y2, z = cost.y_symbols
+    s, w = 1 + x1 * y1 + x2 * y2, 2 - z
+    fields = symbolic_derivatives(cost.expr, cost.x_symbols, cost.y_symbols, 4, True)
+    E = sp.Matrix(2, 2, lambda i, k: -fields["dxy"][i][k])
+    assert sp.simplify(E - w * (sp.eye(2) - sp.Matrix([y1, y2]) * sp.Matrix([[x1, x2]]) / s)) == sp.zeros(2, 2)
+    assert sp.simplify(E.det() - w**2 / s) == 0
+    assert all(sp.simplify(v) == 0 for v in np.array(fields["dxxyy"], dtype=object).ravel())
+    assert all(sp.simplify(v) == 0 for v in np.array(fields["dxxy"], dtype=object).ravel())
+    verdicts = costcheck.check(cost, budget=128, seed=3, prove=False).verdicts
+    got = {name: v.verdict for name, v in verdicts.items()}
+    assert got == {"z_monotone": "holds", "g_twist": "holds", "g_dual_twist": "holds",
+                   "g_nondegenerate": "holds", "g_mtw": "weak"}, got
+    assert all(v.evidence.kind == "sampled" for v in verdicts.values())  # evidence, never "proved"
