@@ -1,5 +1,5 @@
 """Generating functions G(x, y, z): the reduction of an ordinary cost, bad ``generating:`` blocks,
-and the monotonicity condition's witness.
+the monotonicity condition's witness, certified twist collisions and a matching utility derived by hand.
 
 An ordinary cost c (minimised) is the generating function G(x, y, z) = -c(x, y) - z (Trudinger,
 "On the local theory of prescribed Jacobian equations", DCDS-A 34, 2014 — cited from memory; the

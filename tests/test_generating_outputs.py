@@ -45,6 +45,10 @@ def test_json_is_valid_against_the_shipped_schema_and_json_and_junit_agree(tmp_p
     assert entry["generating"] == {"z": "z"} and entry["m"] == 3  # the target side (y, z)
     # a witness's y carries z by name (g_mtw reports the point of its smallest margin)
     assert "z" in entry["checks"]["g_mtw"]["witness"]["y"]
+    # the cached path (no sympy: the header read from the file) writes the same entry
+    assert main(["check", FILE, *SMALL, "--json"]) == 0
+    [cached] = json.loads(capsys.readouterr().out)["costs"]
+    assert {k: v for k, v in cached.items() if k != "seconds"} == {k: v for k, v in entry.items() if k != "seconds"}
 
     xml = JUnitXml.fromfile(str(junit))
     cases = {case.name: case for suite in xml for case in suite}

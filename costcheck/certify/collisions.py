@@ -62,7 +62,7 @@ def certify_collision(domain, n: int, exprs, variables, free, first, second):
             return None, "the map has no enclosure at the first point"
         centre = _polish(fn, first, free, second, target)
         if centre is None:
-            return None, "the map's Jacobian is singular at the second point"
+            return None, "Newton's method from the second point failed (the map's Jacobian singular or undefined there)"
         distance = float(np.max(np.abs(second[free] - first[free])))
         for rel in RELATIVE_RADII:
             found = _krawczyk(fn, locator, first, free, centre, rel * distance, target)
