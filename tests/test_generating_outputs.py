@@ -84,3 +84,38 @@ def test_sweep_of_a_generating_file_tabulates_its_conditions(capsys):
     assert main([*argv, "--quiet", "--json"]) == 0
     document = json.loads(capsys.readouterr().out)
     assert json.dumps(document).count("g_dual_twist") >= 2  # one verdict per value
+
+
+BEND = """\
+id: bend
+title: a twist that folds past a = 1/2
+x: [x1, x2]
+y: [y1, y2]
+params:
+  a: 0.2
+generating:
+  expr: x1*(y1 + a*y1**2) + x2*y2 - z
+  z: z
+  range: [-1, 1]
+domain:
+  x: {box: [[0.5, 1], [0.5, 1]]}
+  y: {box: [[-1, 1], [-1, 1]]}
+"""
+
+
+def test_sweep_bisects_a_generating_twist_to_its_hand_derived_boundary(tmp_path, capsys):
+    # At fixed x, (G_x, G) = (y1 + a y1², y2, ...) fixes y2 and then z once y1 + a y1² does; that
+    # is one-to-one on y1 in [-1, 1] exactly when 1 + 2 a y1 > 0 there, i.e. a ≤ 1/2 (elementary
+    # calculus). So the twist holds for a ≤ 1/2 and fails (certified collisions) beyond
+    path = tmp_path / "bend.yaml"
+    path.write_text(BEND, encoding="utf-8")
+    argv = ["sweep", str(path), "--vary", "a=0.2,0.8", "--only", "g_twist", "--budget", "128", "--quick",
+            "--workers", "1", "--tolerance", "0.02", "--json", "--quiet"]
+    assert main(argv) == 0
+    [boundary] = json.loads(capsys.readouterr().out)["boundaries"]
+    low, high = boundary["interval"]
+    assert (boundary["from"], boundary["to"]) == ("holds", "fails") and boundary["right"]["kind"] == "refuted"
+    assert high > 0.5 and low < 0.6  # no certified collision can exist at a ≤ 1/2
+    a, w = boundary["right"]["param"], boundary["right"]["witness"]
+    t, t2 = w["y"]["y1"], w["y_prime"]["y1"]
+    assert abs((t + a * t * t) - (t2 + a * t2 * t2)) < 1e-12 and abs(t - t2) > 1e-3
