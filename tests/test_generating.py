@@ -94,6 +94,9 @@ PAIRS = {"twist": "g_twist", "nondegenerate": "g_nondegenerate", "mtw": "g_mtw"}
     # the power cost -(1/p)|x - y|^p with p = 4 on disjoint squares: A3w fails for p > 1, p ≠ 2
     # (Loeper, Acta Math. 202, 2009 — recalled from memory): a certified failure on both sides
     (f"-{R2}**2 / 4", ("nondegenerate", "mtw")),
+    # -x1 cos(2 (y1 - 2)) - x2 y2: D_x c = -(cos(2 (y1 - 2)), y2) is even in y1 - 2, so twist fails
+    # (elementary calculus); a certified collision on both sides (Krawczyk's test)
+    ("-(x1*cos(2*(y1 - 2)) + x2*y2)", ("twist",)),
 ])
 def test_reduced_cost_reproduces_the_ordinary_verdicts(expr, conditions):
     cost = costcheck.from_expression(expr, x=["x1", "x2"], y=["y1", "y2"], domain=BOX)
