@@ -1,5 +1,5 @@
 """Generating functions G(x, y, z): the reduction of an ordinary cost, bad ``generating:`` blocks,
-and the monotonicity condition's witness.
+the monotonicity condition's witness, certified twist collisions and a matching utility derived by hand.
 
 An ordinary cost c (minimised) is the generating function G(x, y, z) = -c(x, y) - z (Trudinger,
 "On the local theory of prescribed Jacobian equations", DCDS-A 34, 2014 — cited from memory; the
@@ -94,6 +94,9 @@ PAIRS = {"twist": "g_twist", "nondegenerate": "g_nondegenerate", "mtw": "g_mtw"}
     # the power cost -(1/p)|x - y|^p with p = 4 on disjoint squares: A3w fails for p > 1, p ≠ 2
     # (Loeper, Acta Math. 202, 2009 — recalled from memory): a certified failure on both sides
     (f"-{R2}**2 / 4", ("nondegenerate", "mtw")),
+    # -x1 cos(2 (y1 - 2)) - x2 y2: D_x c = -(cos(2 (y1 - 2)), y2) is even in y1 - 2, so twist fails
+    # (elementary calculus); a certified collision on both sides (Krawczyk's test)
+    ("-(x1*cos(2*(y1 - 2)) + x2*y2)", ("twist",)),
 ])
 def test_reduced_cost_reproduces_the_ordinary_verdicts(expr, conditions):
     cost = costcheck.from_expression(expr, x=["x1", "x2"], y=["y1", "y2"], domain=BOX)
@@ -170,17 +173,78 @@ def test_expr_and_generating_exactly_one(tmp_path, capsys, text, phrase):
     assert code == 2 and len(err) == 1 and str(path) in err[0] and phrase in err[0], err
 
 
-def test_a_twist_collision_is_found_and_left_undecided():
+def test_a_twist_collision_is_certified_with_both_points_as_witness():
     # G = x1 cos(y1) + x2 y2 - z: G_x = (cos y1, y2) and G take the same values at y1 and -y1
     # (cos is even), so (y, z) ↦ (G_x, G) is not one-to-one on y1 in [-2, 2]; at fixed (y, z),
-    # G_y / G_z = (x1 sin y1, -x2) is one-to-one in x where sin y1 ≠ 0 (elementary calculus)
+    # G_y / G_z = (x1 sin y1, -x2) is one-to-one in x where sin y1 ≠ 0 (elementary calculus).
+    # The collision is proved by Krawczyk's test (Krawczyk 1969; Moore 1977 — recalled from memory)
     data = {"id": "fold", "x": ["x1", "x2"], "y": ["y1", "y2"],
             "domain": {"x": {"box": [[0.5, 1], [0.5, 1]]}, "y": {"box": [[-2, 2], [-1, 1]]}},
             "generating": {"expr": "x1*cos(y1) + x2*y2 - z", "z": "z", "range": [-1, 1]}}
     verdicts = costcheck.check(build_cost(data), budget=128, seed=4, conditions=["g_twist", "g_dual_twist"]).verdicts
     twist = verdicts["g_twist"]
-    assert twist.verdict == "undecided" and twist.value == 0.0  # a float collision, not certified
-    first, second = np.array(twist.evidence.details["first"]), np.array(twist.evidence.details["second"])
-    assert np.allclose(first[:2], second[:2]) and np.allclose(first[3:], second[3:])  # same x, y2, z
-    assert first[2] == pytest.approx(-second[2], abs=1e-8) and abs(first[2]) > 1e-3  # y1 and -y1
+    assert twist.verdict == "fails" and twist.evidence.kind == "refuted" and twist.value == 0.0
+    w = twist.witness
+    first, second = np.array(w.y), np.array(w.vectors["y_prime"])
+    assert np.allclose(first[1:], second[1:])  # same y2 and z
+    assert first[0] == pytest.approx(-second[0], abs=1e-12) and abs(first[0]) > 1e-3  # y1 and -y1
+    # the exact partner is -y1 (cos is even): the certified bound must contain it
+    bound = float(w.confirmation.split("within ")[1].split(" ")[0])
+    assert abs(second[0] + first[0]) <= bound and "Krawczyk" in w.confirmation and "excludes w₁" in w.confirmation
     assert verdicts["g_dual_twist"].verdict == "holds" and verdicts["g_dual_twist"].evidence.kind == "sampled"
+
+
+def test_a_dual_twist_collision_is_certified():
+    # G = cos(x1) y1 + x2 y2 - z: G_y / G_z = -(cos x1, x2) takes the same value at x1 and -x1
+    # (elementary calculus), so x ↦ G_y / G_z is not one-to-one on x1 in [-2, 2]
+    data = {"id": "dual-fold", "x": ["x1", "x2"], "y": ["y1", "y2"],
+            "domain": {"x": {"box": [[-2, 2], [-1, 1]]}, "y": {"box": [[0.5, 1], [0.5, 1]]}},
+            "generating": {"expr": "cos(x1)*y1 + x2*y2 - z", "z": "z", "range": [-1, 1]}}
+    dual = costcheck.check(build_cost(data), budget=128, seed=4, conditions=["g_dual_twist"]).verdicts["g_dual_twist"]
+    assert dual.verdict == "fails" and dual.evidence.kind == "refuted", dual.evidence.summary
+    w = dual.witness
+    first, second = np.array(w.x), np.array(w.vectors["x_prime"])
+    assert first[0] == pytest.approx(-second[0], abs=1e-12) and abs(first[0]) > 1e-3  # x1 and -x1
+    assert first[1] == pytest.approx(second[1], abs=1e-12) and "Krawczyk" in w.confirmation
+
+
+def test_the_collision_certificate_refuses_what_it_cannot_prove():
+    # Krawczyk's test needs a square system (three equations in two unknowns are refused), and a
+    # one-to-one map has no partner to isolate: Newton from the "second point" of the identity map
+    # returns to the first, and a box that may hold the first point proves nothing (elementary)
+    from costcheck.certify.collisions import certify_collision
+    from costcheck.spec.loader import build_cost as build
+    cost = build({"id": "fold", "x": ["x1", "x2"], "y": ["y1", "y2"],
+                  "domain": {"x": {"box": [[0.5, 1], [0.5, 1]]}, "y": {"box": [[-2, 2], [-1, 1]]}},
+                  "generating": {"expr": "x1*cos(y1) + x2*y2 - z", "z": "z", "range": [-1, 1]}})
+    x1, x2 = cost.x_symbols
+    y1, y2, z = cost.y_symbols
+    variables = (x1, x2, y1, y2, z)
+    found, why = certify_collision(cost.domain, 2, [sp.cos(y1), y2, z], variables, [2, 3],
+                                   [0.7, 0.7, 1.0, 0.2, 0.1], [0.7, 0.7, -1.0, 0.2, 0.1])
+    assert found is None and "as many equations as unknowns" in why
+    found, why = certify_collision(cost.domain, 2, [y1, y2, z], variables, [2, 3, 4],
+                                   [0.7, 0.7, 1.0, 0.2, 0.1], [0.7, 0.7, -1.0, 0.2, 0.1])
+    assert found is None and "no box" in why, why
+
+
+def test_income_effect_matching_utility_has_the_hand_derived_fields_and_verdicts():
+    # G = s w, s = 1 + x·y, w = B - z (catalog/generating/income-effect-matching.yaml; the utility
+    # form after Nöldeke–Samuelson 2018 and McCann–Zhang 2019, recalled from memory). Elementary
+    # calculus: E = G_xy - G_xz ⊗ G_y / G_z = w (I - y xᵀ / s), det E = w² / s; G is linear in x,
+    # so every field with two x-derivatives (Trudinger's A = G_xx and its p-derivatives) is 0
+    cost = costcheck.load(ROOT / "catalog" / "generating" / "income-effect-matching.yaml")
+    x1, x2 = cost.x_symbols
+    y1, y2, z = cost.y_symbols
+    s, w = 1 + x1 * y1 + x2 * y2, 2 - z
+    fields = symbolic_derivatives(cost.expr, cost.x_symbols, cost.y_symbols, 4, True)
+    E = sp.Matrix(2, 2, lambda i, k: -fields["dxy"][i][k])
+    assert sp.simplify(E - w * (sp.eye(2) - sp.Matrix([y1, y2]) * sp.Matrix([[x1, x2]]) / s)) == sp.zeros(2, 2)
+    assert sp.simplify(E.det() - w**2 / s) == 0
+    assert all(sp.simplify(v) == 0 for v in np.array(fields["dxxyy"], dtype=object).ravel())
+    assert all(sp.simplify(v) == 0 for v in np.array(fields["dxxy"], dtype=object).ravel())
+    verdicts = costcheck.check(cost, budget=128, seed=3, prove=False).verdicts
+    got = {name: v.verdict for name, v in verdicts.items()}
+    assert got == {"z_monotone": "holds", "g_twist": "holds", "g_dual_twist": "holds",
+                   "g_nondegenerate": "holds", "g_mtw": "weak"}, got
+    assert all(v.evidence.kind == "sampled" for v in verdicts.values())  # evidence, never "proved"

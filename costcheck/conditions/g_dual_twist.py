@@ -9,7 +9,8 @@ the condition is the ordinary dual twist, ``x ↦ c_y(x, y)`` one-to-one.
 
 How the verdict is reached: :mod:`.engines.collision` at 16 sampled ``(y, z)`` with 512 Sobol
 points ``x`` each, as for :mod:`.g_twist`: no collision → **holds** (sampled evidence, not proof);
-a floating-point collision → **undecided** (not certified).
+a collision certified by Krawczyk's test (:mod:`costcheck.certify.collisions`) → **fails**
+(refuted, the partner as ``x_prime``); one it cannot certify → **undecided**.
 """
 
 from __future__ import annotations
@@ -31,4 +32,4 @@ def check(ctx) -> Verdict:
     cost = ctx.cost
     exprs = dual_map(cost.expr, tuple(cost.y_symbols))
     free = list(range(cost.n))
-    return verdict_of(ctx, CONDITION, search(ctx, exprs, free, _SALT), "x ↦ G_y / G_z at fixed (y, z)")
+    return verdict_of(ctx, CONDITION, search(ctx, exprs, free, _SALT), "x ↦ G_y / G_z at fixed (y, z)", exprs, free)

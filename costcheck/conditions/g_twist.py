@@ -11,8 +11,9 @@ is monotonicity with G2; this check looks for global collisions.
 
 How the verdict is reached: :mod:`.engines.collision` at 16 sampled ``x`` with 512 Sobol points
 ``(y, z)`` each: nearest images, refined by bounded least squares.  No collision → **holds**,
-sampled evidence, not proof.  A floating-point collision → **undecided** (strong evidence of
-failure, but no interval existence test certifies an exact collision yet).
+sampled evidence, not proof.  A floating-point collision is certified by Krawczyk's test in ball
+arithmetic (:mod:`costcheck.certify.collisions`) → **fails**, evidence refuted, both points in the
+witness; one the test cannot certify → **undecided**.
 """
 
 from __future__ import annotations
@@ -34,4 +35,4 @@ def check(ctx) -> Verdict:
     cost = ctx.cost
     exprs = joint_map(cost.expr, tuple(cost.x_symbols), tuple(cost.y_symbols))
     free = list(range(cost.n, cost.n + cost.m))
-    return verdict_of(ctx, CONDITION, search(ctx, exprs, free, _SALT), "(y, z) ↦ (G_x, G) at fixed x")
+    return verdict_of(ctx, CONDITION, search(ctx, exprs, free, _SALT), "(y, z) ↦ (G_x, G) at fixed x", exprs, free)

@@ -46,6 +46,7 @@ class CostReport:
     def to_dict(self) -> dict:
         """The cost's entry of the JSON document (``costcheck check --json``), as Python values."""
         cost = self.cost
+        generating = getattr(cost, "generating", None)  # a Cost's spec or a cached header's label: both name z
         return {
             "id": cost.id,
             "file": cost.file,
@@ -53,6 +54,7 @@ class CostReport:
             "sense": cost.sense,
             "n": cost.n,
             "m": cost.m,
+            **({"generating": {"z": generating.z}} if generating is not None else {}),
             "seconds": round(self.seconds, 3),
             "checks": {name: v.to_json(cost.x_names, cost.y_names) for name, v in self.verdicts.items()},
             "expect": dict(cost.expect),

@@ -200,7 +200,12 @@ def _cost() -> dict:
             "sense": {"enum": ["cost", "surplus"],
                       "description": "as the file declares it; a surplus s is checked as the cost c = -s"},
             "n": {"type": "integer", "minimum": 1, "description": "dimension of x"},
-            "m": {"type": "integer", "minimum": 1, "description": "dimension of y"},
+            "m": {"type": "integer", "minimum": 1,
+                  "description": "dimension of y; for a generating function, of the target side (y, z)"},
+            "generating": {"type": "object", "required": ["z"], "additionalProperties": False,
+                           "description": "present for a generating function G(x, y, z) (a file with 'generating:'): "
+                                          "its verdicts are those of its own conditions, and z ends every y witness",
+                           "properties": {"z": {"type": "string", "description": "the name of the third variable"}}},
             "seconds": {"type": "number", "minimum": 0, "description": "time the checks took"},
             "checks": {"type": "object", "description": "one verdict per condition run, in the order reports show",
                        "properties": {name: {"$ref": f"#/$defs/{name}"} for name in REGISTRY},

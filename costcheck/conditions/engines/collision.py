@@ -8,7 +8,8 @@ image (coordinates scaled by their spread) that are far apart in the argument ar
 all are refined together by a batched, bounded Levenberg–Marquardt iteration on
 ``F(w') = F(w)`` from the neighbour (:func:`costcheck.numerics.search.batched_least_squares`).  A
 refined pair with image distance at rounding level and argument distance well above it is a
-collision *in floating point*: this module does not prove that an exact collision exists.
+collision *in floating point*: this module does not prove that an exact collision exists
+(:mod:`costcheck.certify.collisions` does, or leaves the verdict undecided).
 """
 
 from __future__ import annotations

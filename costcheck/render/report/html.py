@@ -7,7 +7,7 @@ import base64
 from html import escape
 from pathlib import Path
 
-from .model import CAUTION, CostSection, ReportModel, VerdictRow, condition_name
+from .model import CAUTION, GENERATING_NOTE, CostSection, ReportModel, VerdictRow, condition_name
 
 CSS = """
 body { font: 15px/1.5 system-ui, -apple-system, "Segoe UI", sans-serif; color: #1a1a1a; margin: 0 auto;
@@ -54,11 +54,14 @@ def _math(section: CostSection) -> str:
     # they hold: around a fraction or a power browsers draw them several lines tall
     body = (mathml(section.written_expr, printer="presentation")
             .replace("<mo>(</mo>", '<mo stretchy="false">(</mo>').replace("<mo>)</mo>", '<mo stretchy="false">)</mo>'))
-    lhs = "s" if section.sense == "surplus" else "c"
-    formula = (f'<math display="block" xmlns="http://www.w3.org/1998/Math/MathML"><mrow><mi>{lhs}</mi>'
-               f'<mo stretchy="false">(</mo><mi>x</mi><mo>,</mo><mi>y</mi><mo stretchy="false">)</mo><mo>=</mo>{body}'
+    name, args = section.formula_lhs
+    arguments = "<mo>,</mo>".join(f"<mi>{escape(a)}</mi>" for a in args)
+    formula = (f'<math display="block" xmlns="http://www.w3.org/1998/Math/MathML"><mrow><mi>{name}</mi>'
+               f'<mo stretchy="false">(</mo>{arguments}<mo stretchy="false">)</mo><mo>=</mo>{body}'
                "</mrow></math>")
-    if section.sense == "surplus":
+    if section.z is not None:
+        formula += f"<p class=dim>{escape(GENERATING_NOTE)}</p>"
+    elif section.sense == "surplus":
         formula += "<p class=dim>A surplus, maximised; every condition is checked on the cost c = −s.</p>"
     return formula
 
@@ -143,7 +146,7 @@ def _section(s: CostSection, root: Path) -> str:
     notes = f"<h3>Notes</h3><p>{escape(s.notes)}</p>" if s.notes else ""
     figures = _figures(s, root)
     return (f'<section id="{escape(s.id)}"><h2>{escape(s.id)} — {escape(s.title)}</h2>'
-            f'<p class="meta">{escape(s.file)} · n = {s.n}, m = {s.m} · checked in {s.seconds:.1f} s</p>'
+            f'<p class="meta">{escape(s.file)} · {escape(s.dimensions)} · checked in {s.seconds:.1f} s</p>'
             f"{_math(s)}<h3>Domain</h3><ul>{domain}</ul>{params}"
             f"<h3>Verdicts</h3>{_verdicts(s)}{_witnesses(s)}"
             f"{'<h3>Pictures</h3>' + figures if figures else ''}{source}{notes}</section>")

@@ -3,7 +3,7 @@ which common Markdown viewers typeset) and pictures as files beside it."""
 
 from __future__ import annotations
 
-from .model import CAUTION, CostSection, ReportModel, condition_name
+from .model import CAUTION, GENERATING_NOTE, CostSection, ReportModel, condition_name
 
 
 # Every character that can start Markdown or HTML structure.  A title such as
@@ -60,9 +60,11 @@ def _math(s: CostSection) -> list[str]:
         return ["The cost is given as a Python function; there is no formula to show.", ""]
     import sympy as sp
 
-    lhs = "s" if s.sense == "surplus" else "c"
-    out = [f"$$ {lhs}(x, y) = {sp.latex(s.written_expr)} $$", ""]
-    if s.sense == "surplus":
+    name, args = s.formula_lhs
+    out = [f"$$ {name}({', '.join(args)}) = {sp.latex(s.written_expr)} $$", ""]
+    if s.z is not None:
+        out += [GENERATING_NOTE, ""]
+    elif s.sense == "surplus":
         out += ["A surplus, maximised; every condition is checked on the cost c = −s.", ""]
     return out
 
@@ -78,7 +80,7 @@ def _cell(model: ReportModel, s: CostSection, condition: str) -> str:
 def _section(s: CostSection) -> list[str]:
     # an explicit anchor: viewers derive heading anchors differently, the summary table links to this
     out = [f'<a id="{_anchor(s.id)}"></a>', "", f"## {_text(s.id)} — {_text(s.title)}", "",
-           f"{_text(s.file)} · n = {s.n}, m = {s.m} · checked in {s.seconds:.1f} s", ""]
+           f"{_text(s.file)} · {s.dimensions} · checked in {s.seconds:.1f} s", ""]
     out += _math(s)
     out += ["### Domain", ""] + [f"- {_text(d)}" for d in s.domain] + [""]
     if s.params:

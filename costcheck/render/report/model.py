@@ -44,6 +44,10 @@ def condition_name(condition: str) -> str:
 #: extra vectors of a witness, as a reader names them
 VECTOR_LABELS = {"y_prime": "y′", "xi": "ξ", "eta": "η"}
 
+#: said under a generating function's formula (docs/conditions.md#generating-functions)
+GENERATING_NOTE = ("A generating function, decreasing in its third variable; it is checked for its own five "
+                   "conditions, on the effective cost −G(x, y, ζ(y)) along its level sets.")
+
 CAUTION = ("A verdict whose evidence is “sampled” means that no counterexample was found among the "
            "sampled points at the stated resolution. That is evidence, not proof: a condition can fail "
            "between the samples. Only “proved” covers the whole domain, and “refuted” rests on a witness "
@@ -144,6 +148,23 @@ class CostSection:
     source: str | None = None
     notes: str | None = None
     seconds: float = 0.0
+    #: the third variable's name for a generating function G(x, y, z) (then ``written_expr`` is G
+    #: and ``m`` counts z), else None
+    z: str | None = None
+
+    @property
+    def dimensions(self) -> str:
+        """``n = 2, m = 2`` (for a generating function ``n = 2, m = 2 and z``)."""
+        if self.z is None:
+            return f"n = {self.n}, m = {self.m}"
+        return f"n = {self.n}, m = {self.m - 1} and {self.z}"
+
+    @property
+    def formula_lhs(self) -> tuple[str, tuple[str, ...]]:
+        """The name and arguments the formula is written with: ``c(x, y)``, ``s(x, y)`` or ``G(x, y, z)``."""
+        if self.z is not None:
+            return "G", ("x", "y", self.z)
+        return ("s" if self.sense == "surplus" else "c"), ("x", "y")
 
 
 def verdict_rows(report) -> list[VerdictRow]:
@@ -177,6 +198,7 @@ def cost_section(report, figures: list[FigureRef]) -> CostSection:
         witnesses=[witness_table(name, v.witness, cost.x_names, cost.y_names)
                    for name, v in report.verdicts.items() if v.witness is not None],
         figures=figures, source=cost.source, notes=raw.get("notes"), seconds=report.seconds,
+        z=cost.generating.z if getattr(cost, "generating", None) is not None else None,
     )
 
 
