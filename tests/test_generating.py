@@ -248,3 +248,26 @@ def test_income_effect_matching_utility_has_the_hand_derived_fields_and_verdicts
     assert got == {"z_monotone": "holds", "g_twist": "holds", "g_dual_twist": "holds",
                    "g_nondegenerate": "holds", "g_mtw": "weak"}, got
     assert all(v.evidence.kind == "sampled" for v in verdicts.values())  # evidence, never "proved"
+
+
+@pytest.mark.parametrize("path", sorted((ROOT / "catalog" / "generating").glob("*.yaml")), ids=lambda p: p.stem)
+def test_jax_implicit_function_route_agrees_with_the_sympy_level_set_formula(path):
+    # two routes to the same fields (costcheck.derivatives.jax_generating): JAX differentiates the
+    # implicit function ζ(y) of G(x₀, y, ζ) = G(x₀, y₀, z₀) through its implicit-function-theorem
+    # derivative; sympy applies the total derivative D_k = ∂_{y_k} − (G_{y_k}/G_z) ∂_z symbolically.
+    # Their agreement to rounding at sampled points of the domain checks both (common practice for
+    # automatic against symbolic differentiation)
+    from costcheck.derivatives import make_evaluator
+    from costcheck.numerics.sampling import sample_side
+
+    cost = load_cost(path)
+    xs = sample_side(cost.domain, "x", cost.n, 24, 5)
+    ws = sample_side(cost.domain, "y", cost.m, 24, 6)
+    count = min(len(xs), len(ws))
+    a = make_evaluator(cost, "sympy", 4)(xs[:count], ws[:count])
+    b = make_evaluator(cost, "jax", 4)(xs[:count], ws[:count])
+    for name in fields_up_to(4):
+        u, v = getattr(a, name), getattr(b, name)
+        assert u.shape == v.shape, name
+        assert np.all(np.isfinite(u)), name
+        assert np.max(np.abs(u - v) / (1 + np.abs(u))) < 1e-10, name

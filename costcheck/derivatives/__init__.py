@@ -40,7 +40,10 @@ def make_evaluator(cost, backend: str = "sympy", order: int = 4) -> Evaluator:
                          build(cost.expr, cost.x_symbols, cost.y_symbols, order, getattr(cost, "family", None),
                                derive=generating_derivatives if generating else composed_derivatives))
     if backend == "jax" and generating:
-        raise UsageError(f"'{cost.id}' is a generating function: its checks use the sympy backend")
+        # the implicit function ζ(y) differentiated by JAX: a route independent of the sympy one
+        from .jax_generating import build_generating
+
+        return Evaluator(cost.n, cost.m, order, backend, build_generating(cost, order))
     if backend == "jax":
         from .jax_backend import build_from_cost
 
