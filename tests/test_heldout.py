@@ -36,7 +36,7 @@ import pytest
 
 import costcheck
 from costcheck.model.domain import Ball
-from costcheck.run.heldout import outcome, score
+from costcheck.model.heldout import outcome, score
 from costcheck.spec.loader import find_cost_files, read_yaml
 
 ROOT = Path(__file__).resolve().parent.parent
@@ -160,7 +160,7 @@ def _check(verdict: str, kind: str) -> dict:
 
 
 def test_the_score_counts_each_outcome():
-    # a hand-made document: one expectation of each outcome (the definitions of costcheck.run.heldout)
+    # a hand-made document: one expectation of each outcome (the definitions of costcheck.model.heldout)
     document = {"costs": [
         {"file": "a.yaml", "expect": {"mtw": "strong", "twist": "holds", "nncc": "fails"},
          "checks": {"mtw": _check("strong", "proved"), "twist": _check("holds", "sampled"),
