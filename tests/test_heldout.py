@@ -176,5 +176,10 @@ def test_the_score_counts_each_outcome():
     assert s["by_condition"]["mtw"] == {"true_verdicts": 2, "proved": 1}
     assert "NOT met" in s["line"] and "1 proved wrongly" in s["line"]
     assert len(s["wrong_cases"]) == 2 and len(s["not_proved"]) == 3
+    attempt = {"verdict": "strong", "evidence": {"kind": "sampled", "proof_attempt": {
+        "coverage": 0.5, "stopped_by": "time budget (4 s)"}}}
+    half = score({"costs": [{"file": "d.yaml", "expect": {"mtw": "strong"}, "checks": {"mtw": attempt}}]})
+    assert half["not_proved"] == ["d.yaml::mtw: expected strong, got strong (sampled); proof covered 50.0 % "
+                                  "of the domain, stopped by time budget (4 s)"]
     everything = {"costs": [{"file": "c.yaml", "expect": {"mtw": "strong"}, "checks": {"mtw": _check("strong", "proved")}}]}
     assert score(everything)["target"]["met"] and "target met" in score(everything)["line"]

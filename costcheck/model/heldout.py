@@ -43,6 +43,20 @@ def outcome(expected: str, check: dict | None) -> str:
     return "proved_wrong" if rigorous else "wrong"
 
 
+def why_not_proved(check: dict | None) -> str:
+    """What the evidence's ``proof_attempt`` says stopped the proof (``""`` when it has none):
+    the reason it was skipped, or the share of the domain covered and what stopped it."""
+    attempt = (check or {}).get("evidence", {}).get("proof_attempt")
+    if not attempt:
+        return ""
+    if attempt.get("skipped"):
+        return f"; no proof attempted: {attempt['skipped']}"
+    stopped = attempt.get("stopped_by") or "cells left undecided"
+    coverage = attempt.get("coverage", 0.0)
+    share = "over 99.9" if 0.999 < coverage < 1 else f"{100 * coverage:.1f}"  # never rounded up to 100
+    return f"; proof covered {share} % of the domain, stopped by {stopped}"
+
+
 def score(document: dict) -> dict:
     """The held-out figures of one ``check --json`` document (its costs' ``expect`` and ``checks``)."""
     counts = {"proved": 0, "sampled": 0, "unanswered": 0, "wrong": 0, "proved_wrong": 0}
@@ -59,7 +73,7 @@ def score(document: dict) -> dict:
             if kind == "proved":
                 continue
             said = "not checked" if check is None else f"{check['verdict']} ({check['evidence']['kind']})"
-            case = f"{cost['file']}::{condition}: expected {expected}, got {said}"
+            case = f"{cost['file']}::{condition}: expected {expected}, got {said}{why_not_proved(check)}"
             (wrong if kind in ("wrong", "proved_wrong") else not_proved).append(case)
     true_verdicts = sum(counts.values())
     fraction = counts["proved"] / true_verdicts if true_verdicts else 0.0
