@@ -37,7 +37,16 @@ Every figure is measured in the same run (nothing is copied from earlier runs):
   :data:`CERTIFY_COST`, in cells per second: ``arb`` (today's engine, ball arithmetic one cell at
   a time, ``FieldEnclosures.duals_on_cell``) and ``vectorised`` (IEEE 1788 interval arrays, all
   cells at once, ``CellFieldEnclosures.duals_on_cells``), and ``speedup``, their ratio; the two are
-  timed in interleaved rounds and each reports its best round.
+  timed in interleaved rounds and each reports its best round;
+* ``heldout``: the default ``costcheck check`` (proof attempts on, an empty result cache) on a
+  held-out corpus — cost files kept outside the catalog, each ``expect`` verdict from a published
+  result (``--heldout DIR``, default ``tests/heldout/`` when the source checkout has it; skipped,
+  and said so, when there is no such folder, as in an installed package): ``true_verdicts`` (the
+  expectations counted), ``proved`` (equal to the expectation on rigorous evidence: proved, or
+  refuted by a certified witness), ``proved_fraction``, ``sampled``, ``unanswered``, ``wrong`` (any
+  contradiction), ``proved_wrong`` (a contradiction on rigorous evidence), per condition, the
+  expectations not proved, and ``line``: whether the target (proved_fraction >= 0.90,
+  proved_wrong = 0) is met (:mod:`costcheck.model.heldout` defines the counts).
 
 Progress goes to stderr; stdout carries only the JSON object.
 """
@@ -85,6 +94,8 @@ TARGETS = {"n2_pairs_per_s": 2e6, "n2_speedup_vs_naive": 200.0, "n3_pairs_per_s"
 #: box's (after four halvings of every axis, where branch and bound spends most of its cells)
 CERTIFY_COST = "euclidean/power-0.5.yaml"
 CERTIFY_CELL_SIDE = 1 / 16
+#: the held-out corpus of a source checkout (an installed package has none)
+HELDOUT = ROOT / "tests" / "heldout"
 
 
 def _log(message: str) -> None:
@@ -503,6 +514,47 @@ def _command_times(result: dict, cfg: dict, skip_catalog: bool) -> None:
             result["cli"]["catalog_prove"] = _run_cli(["catalog/", "--prove"], os.path.join(scratch, "catalog-prove"))
 
 
+def heldout_section(folder, budget: int | None = None) -> dict:
+    """The ``heldout`` figures: ``costcheck check FOLDER --json`` in a fresh interpreter with an empty
+    result cache (the default proof attempts; ``budget`` sampled pairs, else the default), scored by
+    :func:`costcheck.model.heldout.score`. A missing folder gives ``{"skipped": why}``, never an error."""
+    from .model.heldout import TARGET_FRACTION, score
+
+    if folder is None or not Path(folder).is_dir():
+        return {"folder": None if folder is None else str(folder), "target_fraction": TARGET_FRACTION,
+                "skipped": "no held-out corpus folder (a source checkout has tests/heldout/; --heldout DIR names one)"}
+    folder = Path(folder).resolve()
+    args = ["check", str(folder), "--json"] + (["--budget", str(budget)] if budget else [])
+    with tempfile.TemporaryDirectory(prefix="costcheck-bench-heldout-") as scratch:
+        t0 = time.perf_counter()
+        proc = subprocess.run([sys.executable, "-m", "costcheck", *args], cwd=ROOT, capture_output=True, text=True,
+                              env={**os.environ, "COSTCHECK_CACHE_DIR": scratch})
+        seconds = time.perf_counter() - t0
+    try:
+        document = json.loads(proc.stdout)
+    except json.JSONDecodeError:
+        return {"folder": str(folder), "exit_code": proc.returncode, "seconds": seconds,
+                "skipped": "the check printed no JSON document: " + proc.stderr.strip()[-600:]}
+    return {"folder": str(folder), "command": "costcheck " + " ".join(args), "exit_code": proc.returncode,
+            "seconds": seconds, "load_average": os.getloadavg()[0], **score(document)}
+
+
+def _heldout(result: dict, folder, cfg: dict) -> None:
+    _log(f"held-out corpus {folder} (costcheck check --json, an empty result cache)")
+    section = result["heldout"] = heldout_section(folder, cfg["single_budget"])
+    if "skipped" in section:
+        _log(f"held-out corpus skipped: {section['skipped']}")
+        return
+    _log(section["line"])
+    fraction = result["targets"]["heldout_proved_fraction"] = {"measured": section["proved_fraction"],
+                                                               "target": section["target"]["proved_fraction"]}
+    if section["proved_fraction"] < fraction["target"]:  # what is not proved, condition by condition
+        fraction["bottleneck"] = "; ".join(f"{name}: {row['proved']}/{row['true_verdicts']} proved"
+                                           for name, row in sorted(section["by_condition"].items()))
+    result["targets"]["heldout_proved_wrong"] = {"measured": section["proved_wrong"], "target": 0,
+                                                 "lower_is_better": True}
+
+
 def _best_wall(argv: list[str], repeats: int, env: dict | None = None) -> tuple[float, list[float], int, float]:
     """``(best, all runs, exit code of the last, least CPU seconds)`` of ``argv`` in a fresh process.
 
@@ -590,16 +642,20 @@ def _targets(result: dict, per_n: dict, skip_catalog: bool) -> None:
         v["met"] = bool(v["measured"] <= v["target"]) if v.get("lower_is_better") else bool(v["measured"] >= v["target"])
 
 
-def run(size: str = "default", backends=("sympy", "jax"), skip_catalog: bool = False) -> dict:
+def run(size: str = "default", backends=("sympy", "jax"), skip_catalog: bool = False,
+        heldout=HELDOUT) -> dict:
     cfg = SIZES[size]
     result: dict = {"tool": "costcheck.bench", "size": size, "backends": list(backends),
                     "machine": {"cpus": os.cpu_count(), "python": platform.python_version(),
                                 "numpy": np.__version__, "platform": platform.platform()},
-                    "margin": {}, "naive": {}, "cli": {}, "startup": {}, "certify": {}, "targets": {}}
+                    "margin": {}, "naive": {}, "cli": {}, "startup": {}, "certify": {}, "heldout": {},
+                    "targets": {}}
     per_n = _margins(result, cfg, size, backends)
     _certify(result, cfg)
     _command_times(result, cfg, skip_catalog)
     _startup(result, cfg, size)
+    if heldout is not None:
+        _heldout(result, heldout, cfg)
     _targets(result, per_n, skip_catalog)
     if size != "default":
         result["note"] = "tiny sizes: a smoke test, not comparable with the targets"
@@ -611,12 +667,16 @@ def main(argv=None) -> int:
     parser.add_argument("--size", choices=sorted(SIZES), default="default")
     parser.add_argument("--backends", default="sympy,jax", help="comma-separated (default sympy,jax)")
     parser.add_argument("--skip-catalog", action="store_true", help="do not time `costcheck check catalog/`")
+    parser.add_argument("--heldout", metavar="DIR", default=str(HELDOUT),
+                        help="the held-out corpus folder (default tests/heldout/ of the checkout; "
+                             "skipped when the folder is missing)")
+    parser.add_argument("--skip-heldout", action="store_true", help="do not check the held-out corpus")
     args = parser.parse_args(argv)
     backends = tuple(b for b in args.backends.split(",") if b)
     for b in backends:
         if b not in ("sympy", "jax"):
             parser.error(f"unknown backend {b!r}")
-    result = run(args.size, backends, args.skip_catalog)
+    result = run(args.size, backends, args.skip_catalog, None if args.skip_heldout else args.heldout)
     print(json.dumps(result, indent=1))
     return 0
 

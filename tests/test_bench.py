@@ -1,6 +1,7 @@
 """The benchmark runs at its tiny size and prints one JSON object of positive figures (no timed assertions)."""
 
 import json
+import shutil
 import subprocess
 import sys
 from pathlib import Path
@@ -10,7 +11,7 @@ ROOT = Path(__file__).resolve().parent.parent
 
 def test_bench_small_prints_one_json_object_with_positive_figures():
     proc = subprocess.run([sys.executable, "-m", "costcheck.bench", "--size", "small", "--skip-catalog",
-                           "--backends", "sympy"], cwd=ROOT, capture_output=True, text=True, timeout=300)
+                           "--skip-heldout", "--backends", "sympy"], cwd=ROOT, capture_output=True, text=True, timeout=300)
     assert proc.returncode == 0, proc.stderr
     out = json.loads(proc.stdout)  # stdout is exactly one JSON document
     assert {"margin", "naive", "cli", "startup", "certify", "targets", "size", "machine"} <= set(out)
@@ -37,3 +38,19 @@ def test_bench_small_prints_one_json_object_with_positive_figures():
     for name in ("n2_pairs_per_s", "n3_pairs_per_s", "n2_speedup_vs_naive", "single_cost_check_s", "certify_speedup",
                  "check_2d_startup_s"):
         assert out["targets"][name]["measured"] > 0 and isinstance(out["targets"][name]["met"], bool)
+
+
+def test_heldout_section_scores_a_corpus_and_skips_a_missing_one(tmp_path):
+    from costcheck.bench import heldout_section
+
+    missing = heldout_section(tmp_path / "absent")  # an installed package has no tests/heldout/
+    assert "skipped" in missing and missing["target_fraction"] == 0.9
+    corpus = tmp_path / "corpus"
+    corpus.mkdir()
+    for name in ("quartic-1d.yaml", "bilinear-twisted.yaml"):  # two quick held-out files: 6 expectations
+        shutil.copy(ROOT / "tests" / "heldout" / name, corpus / name)
+    section = heldout_section(corpus, budget=256)
+    assert section["exit_code"] == 0 and section["files"] == 2 and section["true_verdicts"] == 6
+    assert section["proved"] + section["sampled"] + section["unanswered"] + section["wrong"] == 6
+    assert section["proved_fraction"] == section["proved"] / 6 and section["proved_wrong"] == 0
+    assert section["line"].startswith("held-out target ") and isinstance(section["target"]["met"], bool)

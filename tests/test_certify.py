@@ -187,6 +187,24 @@ def test_a_proved_strong_mtw_bound_is_below_every_sampled_margin():
     assert outcome.bound > 0 and np.all(minimum >= outcome.bound - 1e-12)
 
 
+def test_a_proved_one_dimensional_nncc_bound_is_below_the_cross_curvature():
+    # c = -cos(x - y), n = 1, |x - y| <= 1.2 < pi/2: the one entry of the form is
+    # (c_xxy c_xyy / c_xy - c_xxyy) = sin²u / cos u + cos u = 1 / cos u with u = x - y (elementary calculus,
+    # with MTW 2005's formula), so NNCC holds; the certified bound must lie below it at every sampled pair
+    short = costcheck.from_expression("-cos(x - y)", x=["x"], y=["y"],
+                                      domain={"x": {"box": [[0, 1]]}, "y": {"box": [[0.2, 1.2]]}})
+    outcome, why = proofs.nncc_positive(short, Budget(seconds=30, cells=3000))
+    assert why == "" and outcome.proved and outcome.coverage == 1.0
+    rng = np.random.default_rng(3)
+    us = rng.uniform(0, 1, 400) - rng.uniform(0.2, 1.2, 400)
+    assert 0 < outcome.bound <= min(1 / mpmath.cos(mpmath.mpf(float(u))) for u in us)
+    # on an interval longer than pi, c_xy = -cos u vanishes and 1 / cos u changes sign: never proved
+    long = costcheck.from_expression("-cos(x - y)", x=["x"], y=["y"],
+                                     domain={"x": {"box": [[0, 4]]}, "y": {"box": [[0, 4]]}})
+    outcome, _ = proofs.nncc_positive(long, Budget(seconds=5, cells=3000))
+    assert not outcome.proved
+
+
 def test_vanishing_tensor_is_proved_by_identity_and_a_non_vanishing_one_is_not():
     # |x - y|²/2 + separable terms: T ≡ 0 (Kim–McCann 2010; invariances, docs/conditions.md#mtw)
     ok, text = identity.tensor_vanishes(_sq_euclid_plus("sin(x1) + exp(y2)"), 20)

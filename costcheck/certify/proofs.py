@@ -29,7 +29,7 @@ without an implemented certificate, a domain the sufficient condition does not c
   ``B = b²`` ranging over the triangle ``A, B ≥ 0``, ``A + B ≤ 1``.  The four coefficients come from
   ``S`` at four orthonormal pairs, and a bilinear function's minimum on the triangle lies on its
   edges: two linear, one quadratic in ``A`` (bounded on ``A``-intervals).
-- **NNCC with a positive minimum** for ``n = 2``: ``A(ξ)`` positive definite for all unit ``ξ``; over a
+- **NNCC with a positive minimum** for ``n = 1``: the one entry ``T₀₀₀₀`` positive on every cell; for ``n = 2``: ``A(ξ)`` positive definite for all unit ``ξ``; over a
   chart's normal forms, ``Q ≥ 0`` by a semidefinite Gram matrix instead
   (:mod:`.chart_nncc`), which also covers forms that vanish along a direction.
 """
@@ -206,10 +206,28 @@ def mtw_strong(cost, budget: Budget, prep: ProofPreparation | None = None):
                 space=_chart_first(cost, TENSOR_FIELDS, budget, prep)), ""
 
 
+def _line_nncc(cost, budget: Budget, prep: ProofPreparation | None = None):
+    """NNCC for ``n = m = 1``: ``S(ξ, η) = T₀₀₀₀ ξ² (η / c_xy)²``, so ``T₀₀₀₀ > 0`` on every cell."""
+
+    def coefficients(f):
+        T, _ = _tensor_on(f)
+        return None if T is None else [T[(0, 0, 0, 0)]]
+
+    def decide(values):
+        return balls.lower(values[0]) if balls.positive(values[0]) else None
+
+    outcome = _run(cost, TENSOR_FIELDS, coefficients, decide, budget, prep=prep)
+    outcome.what = ("the cross-curvature (c_xxy c_xyy / c_xy − c_xxyy) / c_xy², the one entry of the form for "
+                    "n = m = 1, is enclosed above a positive κ on every cell")
+    return outcome, ""
+
+
 def nncc_positive(cost, budget: Budget, prep: ProofPreparation | None = None,
                   sampled_margin: tuple[float, float] | None = None):
     """NNCC proved over the domain; ``sampled_margin`` is ``(smallest scale-free margin the sampled
     check found, its tolerance)``, when known."""
+    if _needs_symbols(cost) is None and cost.n == cost.m == 1:
+        return _line_nncc(cost, budget, prep)
     if (why := _plane_only(cost, "NNCC")) is not None:
         return None, why
     # the Gram route (chart_nncc) proves the sphere's squared distance in about a second (0.98 s
