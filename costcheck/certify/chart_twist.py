@@ -115,6 +115,10 @@ def chart_twist(cost, budget: Budget, prep: ProofPreparation | None = None) -> t
 
     lo, hi = np.array([built.lo]), np.array([built.hi])
     outcome = branch_and_bound(lo, hi, _locator(cost, forms.chart, built.t).classify, decide, budget)
+    outcome.space = (f"σ ∈ [{built.lo:.6g}, {built.hi:.6g}], the pairing of {forms.chart.name} enclosed over the "
+                     "domain and cut by the 'pairs' constraints that are functions of σ (the cost is F(σ), shown "
+                     "by exact rewriting)")
+    outcome.names = ["sigma"]
     if not outcome.proved:
         return outcome, ""
     if len(signs) != 1 or not connected(cells):
@@ -135,8 +139,4 @@ def chart_twist(cost, budget: Budget, prep: ProofPreparation | None = None) -> t
                     f"(dg/dσ {'> 0' if dh_positive else '< 0'}) on every cell of a connected cover of "
                     f"σ ∈ [{first:.6g}, {last:.6g}], so D_x c fixes d, then q_t, the partner point q and y; "
                     "the bound is min(|g|, |dg/dσ|)")
-    outcome.space = (f"σ ∈ [{built.lo:.6g}, {built.hi:.6g}], the pairing of {forms.chart.name} enclosed over the "
-                     "domain and cut by the 'pairs' constraints that are functions of σ (the cost is F(σ), shown "
-                     "by exact rewriting)")
-    outcome.names = ["sigma"]
     return outcome, ""
