@@ -91,7 +91,13 @@ def _locator(cost, forms_chart, t):
         g = through_pairing(c.inequality.g, x, y, forms_chart, t)
         if g is not None:
             tests.append((compile_exprs((g,), (t,)), c.inequality.strict))
-    return ConstraintLocator(tests)
+    return ConstraintLocator(tests), len(tests)
+
+
+def _shown(built: Profile) -> str:
+    """``g`` as a formula in σ when it is short enough to read (the sphere's d²/2: ``-acos(σ)``)."""
+    text = str(built.h.xreplace({built.t: sp.Symbol("σ")}))
+    return f" (here g = {text})" if len(text) <= 60 else ""
 
 
 def chart_twist(cost, budget: Budget, prep: ProofPreparation | None = None) -> tuple[Outcome | None, str]:
@@ -114,10 +120,12 @@ def chart_twist(cost, budget: Budget, prep: ProofPreparation | None = None) -> t
         return min(balls.lower(balls.ball_abs(h)), balls.lower(balls.ball_abs(dh)))
 
     lo, hi = np.array([built.lo]), np.array([built.hi])
-    outcome = branch_and_bound(lo, hi, _locator(cost, forms.chart, built.t).classify, decide, budget)
+    locator, constraints = _locator(cost, forms.chart, built.t)
+    outcome = branch_and_bound(lo, hi, locator.classify, decide, budget)
+    cut = (f" and cut by the {constraints} 'pairs' constraint{'s' if constraints > 1 else ''} written in σ"
+           if constraints else "")
     outcome.space = (f"σ ∈ [{built.lo:.6g}, {built.hi:.6g}], the pairing of {forms.chart.name} enclosed over the "
-                     "domain and cut by the 'pairs' constraints that are functions of σ (the cost is F(σ), shown "
-                     "by exact rewriting)")
+                     f"domain{cut} (the cost is F(σ), shown by exact rewriting)")
     outcome.names = ["sigma"]
     if not outcome.proved:
         return outcome, ""
@@ -134,7 +142,7 @@ def chart_twist(cost, budget: Budget, prep: ProofPreparation | None = None) -> t
     formula = ("D_x c = F'(σ) Jᵀ q_t, q_t = q − σ p" if built.sphere else
                "D_x c = −2 F'(σ) Jᵀη q_t, q_t = q + ⟨p, q⟩ p (Minkowski)")
     outcome.what = (f"twist: {formula} tangent at p, fixes the tangent vector F'(σ) q_t and "
-                    f"its length |g(d)|, g(d) = {name}; g is enclosed {'positive' if h_positive else 'negative'} "
+                    f"its length |g(d)|, g(d) = {name}{_shown(built)}; g is enclosed {'positive' if h_positive else 'negative'} "
                     f"and strictly {'increasing' if dh_positive != built.sphere else 'decreasing'} in d "
                     f"(dg/dσ {'> 0' if dh_positive else '< 0'}) on every cell of a connected cover of "
                     f"σ ∈ [{first:.6g}, {last:.6g}], so D_x c fixes d, then q_t, the partner point q and y; "
