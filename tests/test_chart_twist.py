@@ -146,3 +146,17 @@ def test_proved_profiles_are_monotone_and_one_signed_at_many_points(rel):
     assert all(v > 0 for v in values) or all(v < 0 for v in values)
     steps = [b - a for a, b in zip(values, values[1:])]
     assert all(s > 0 for s in steps) or all(s < 0 for s in steps)
+
+
+def test_a_profile_monotone_on_two_separate_ranges_is_not_proved():
+    # the same turning profile with the σ around its turning point (≈ 0.593) cut out by a pairs constraint:
+    # dg/dσ ≠ 0 on each of the two remaining intervals, but g takes equal values on both (it rises then
+    # falls in d), so twist fails and the proved cells, which do not join, must not make a proof (pairs at
+    # distance < 0.15 are left out too, where g → 0 and nothing can be proved)
+    cut = f"({DOT} - 0.55) * ({DOT} - 0.65) >= 0"
+    cost = costcheck.from_expression(f"({DOT} + 0.5)**2 / 2", x=["u1", "u2"], y=["v1", "v2"],
+                                     domain={**SPHERE_BOX, "pairs": [cut, f"{DOT} <= cos(0.15)"]})
+    outcome, why = chart_twist.chart_twist(cost, Budget(seconds=2))
+    assert outcome is None and "several intervals" in why
+    outcome, _ = proofs.twist(cost, Budget(seconds=2))
+    assert outcome is None or not outcome.proved
