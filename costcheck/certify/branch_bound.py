@@ -99,6 +99,12 @@ def branch_and_bound(lo: np.ndarray, hi: np.ndarray, classify: Callable[[np.ndar
                     started, bound)
 
 
+def connected(cells: list) -> bool:
+    """The one-dimensional cells ``(lo, hi)`` (from bisection, so they share exact ends) make one interval."""
+    cells = sorted(cells)
+    return all(a == b_prev for (_, b_prev), (a, _) in zip(cells, cells[1:]))
+
+
 def bisect_widest(a: np.ndarray, b: np.ndarray, width0: np.ndarray, min_width: float):
     """The two halves of ``[a, b]`` across its relatively widest side, or None when even that side
     is below ``min_width`` of the starting box (the cell is *stuck*)."""

@@ -22,7 +22,8 @@ and on all pairs (NNCC) is kept.  A proof over the normal forms for every ``s`` 
 in an enclosure of ``σ`` over the domain therefore proves the condition on the domain.  The
 enclosure ``[L, U]`` comes from interval arithmetic over a grid of cells covering the domain
 (cells shown outside it dropped); ``pairs`` constraints that are functions of ``σ`` cut the normal
-forms as well.  Twist is global and is not reduced this way.
+forms as well.  Twist is global and is not reduced this way: :mod:`.chart_twist` proves it from
+the same recognition and enclosure of ``σ`` by a one-dimensional argument along the distance.
 """
 
 from __future__ import annotations
@@ -173,6 +174,9 @@ class NormalForms:
     far: float
     classify: Callable
     description: str
+    #: the chart recognised, and the enclosure ``L ≤ σ ≤ U`` of its pairing over the domain
+    chart: Chart | None = None
+    sigma_range: tuple[float, float] = (-math.inf, math.inf)
 
 
 def normal_forms(cost) -> NormalForms | None:
@@ -212,7 +216,7 @@ def normal_forms(cost) -> NormalForms | None:
                        "cells; the determinant's non-vanishing and the cross-curvature's sign are kept by "
                        "that change of chart, its size is not: the lower bound is the normal forms')")
         return NormalForms(s, Substitution(to_normal), RangeRewriter(s, chart.start, far), chart.start, far,
-                           ConstraintLocator(tests).classify, description)
+                           ConstraintLocator(tests).classify, description, chart, (L, U))
     return None
 
 
@@ -220,7 +224,7 @@ def chart_space(cost, fields: Sequence[str], prep=None) -> ProofSpace | None:
     """The one-dimensional proof space over normal-form pairs, or None when no chart is recognised.
 
     ``prep`` (a :class:`.preparation.ProofPreparation`) shares the normal forms between the fields asked for."""
-    forms = prep.once(("normal forms",), lambda: normal_forms(cost)) if prep is not None else normal_forms(cost)
+    forms = prep.normal_forms() if prep is not None else normal_forms(cost)
     if forms is None:
         return None
     enclosures = FieldEnclosures(cost, fields, substitution=forms.to_normal, symbols=(forms.s,),

@@ -34,6 +34,12 @@ class ProofPreparation:
 
         return self.once(("chart space", tuple(fields)), lambda: chart_space(self.cost, fields, self))
 
+    def normal_forms(self):
+        """:func:`.charts.normal_forms` of the cost, built once (the chart proofs all start from it)."""
+        from .charts import normal_forms
+
+        return self.once(("normal forms",), lambda: normal_forms(self.cost))
+
     def space_for(self, fields: Sequence[str]):
         """:func:`.space.space_for` of the cost for ``fields``, built once."""
         from .space import space_for
@@ -48,6 +54,15 @@ def chart_space_of(cost, fields: Sequence[str], prep: ProofPreparation | None):
 
         return chart_space(cost, fields)
     return prep.chart_space(fields)
+
+
+def normal_forms_of(cost, prep: ProofPreparation | None):
+    """The chart's normal forms through ``prep`` when there is one, else built afresh."""
+    if prep is None:
+        from .charts import normal_forms
+
+        return normal_forms(cost)
+    return prep.normal_forms()
 
 
 def space_of(cost, fields: Sequence[str], prep: ProofPreparation | None):

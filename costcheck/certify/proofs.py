@@ -18,6 +18,10 @@ without an implemented certificate, a domain the sufficient condition does not c
   (along ``z``) and ``f(r)/r`` (across, ``n − 1`` times).  ``det D²_xy c ≠ 0`` on a connected
   cover of the distances keeps ``f`` of one sign and strictly monotone there, so
   ``f(r) z/r = f(r') z'/r'`` forces ``z/r = z'/r'`` and then ``r = r'``: ``y ↦ D_x c`` is injective.
+  For a cost ``F(σ)`` of a sphere or hyperbolic chart (:mod:`.charts`), again without convexity,
+  :mod:`.chart_twist`: ``D_x c`` fixes the tangent vector ``F'(σ) q_t`` at ``x`` towards ``y``, whose
+  length ``|F'(cos d) sin d|`` (resp. ``|2F'(σ) sinh d|``) fixes ``d`` when it is of one sign and
+  strictly monotone on the enclosed range of ``σ``; this is tried before the convex-slice condition.
 - **MTW strong** (A3s) for ``n = 2``: on each cell the quartic ``S(cos θ, sin θ)`` on orthogonal
   pairs is bounded below by a positive number (Fourier bound, then θ-intervals).  For
   ``n ≥ 3`` and a cost of ``|x − y|`` alone, at ``z = (r, 0, …)`` the form is invariant under the
@@ -39,8 +43,8 @@ from __future__ import annotations
 from ..model.domain import Ball, Box
 from flint import arb
 
-from . import balls, chart_mtw, chart_nncc, quantities, radial
-from .branch_bound import Budget, Outcome, branch_and_bound
+from . import balls, chart_mtw, chart_nncc, chart_twist, quantities, radial
+from .branch_bound import Budget, Outcome, branch_and_bound, connected
 from .dual import Dual, tighten
 from .enclosures import TENSOR_FIELDS
 from .preparation import ProofPreparation, chart_space_of, space_of
@@ -126,18 +130,12 @@ def _slices_convex(cost) -> bool:
     return isinstance(d.y, (Box, Ball)) and not d.where_y and not d.pairs
 
 
-def _connected(cells: list) -> bool:
-    """The one-dimensional cells (from bisection, so they share exact ends) make one interval."""
-    cells = sorted(cells)
-    return all(a == b_prev for (_, b_prev), (a, _) in zip(cells, cells[1:]))
-
-
 def _radial_twist(cost, budget: Budget, space):
     """Twist for a cost of ``|x − y|``: ``det D²_xy c ≠ 0`` on a connected cover of the distances."""
     cells: list = []
     outcome = _run(cost, ("dxy",), lambda f: [quantities.rank_determinant(f["dxy"])], _nonzero, budget,
                    space=space, proved=cells)
-    if outcome.proved and not _connected(cells):
+    if outcome.proved and not connected(cells):
         return None, ("the distances |x − y| the domain allows form several intervals; the radial twist "
                       "argument needs one")
     outcome.what = ("det D²_xy c is enclosed away from 0 on every cell of a connected cover of the distances "
@@ -153,8 +151,13 @@ def twist(cost, budget: Budget, prep: ProofPreparation | None = None):
         return None, "the sufficient conditions for twist used here need n = m"
     if cost.n >= 2 and (radial := radial_space(cost, ("dxy",))) is not None and cost.n <= 3:
         return _radial_twist(cost, budget, radial)
+    chart, chart_why = chart_twist.chart_twist(cost, budget, prep) if cost.n == 2 else (None, "")
+    if chart is not None and (chart.proved or not _slices_convex(cost)):
+        return chart, ""
     if cost.n > 3:
         return None, "definiteness certificates are implemented up to dimension 3"
+    if chart_why and not _slices_convex(cost):
+        return None, chart_why
     if not _slices_convex(cost):
         return None, ("the sufficient condition needs every y-slice of the domain convex; a 'where' on y or a "
                       "'pairs' constraint may cut it")
