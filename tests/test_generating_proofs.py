@@ -1,0 +1,113 @@
+"""Proofs for generating functions: a reduced cost G = -c - z runs c's certificates, and G_z < 0 is
+proved by identity or by branch and bound.
+
+The reduction is Trudinger's ("On the local theory of prescribed Jacobian equations", DCDS-A 34,
+2014 — cited from memory): an ordinary cost c is the generating function G(x, y, z) = -c(x, y) - z,
+whose effective cost is c, so G's twist, non-degeneracy and G3 are c's twist, non-degeneracy and
+MTW. The comparison is with the ordinary cost computed by the same program, never with a
+written-down answer.
+"""
+
+from __future__ import annotations
+
+import sympy as sp
+import pytest
+
+import costcheck
+from costcheck.certify.reduced import dual_cost, reduced_cost
+from costcheck.spec.loader import build_cost
+
+from test_generating import BOX, PAIRS, R2, reduce_file, two_dimensional_catalog
+
+#: small sample budget; the proofs get the default per-condition budget, on both sides the same
+SAMPLES = 128
+
+
+def generating(expr: str, *, rng=(-1, 1), domain=BOX, **extra):
+    data = {"id": "g", "x": ["x1", "x2"], "y": ["y1", "y2"], "domain": domain,
+            "generating": {"expr": expr, "z": "z", "range": list(rng)}, **extra}
+    return build_cost(data)
+
+
+@pytest.mark.parametrize("path", two_dimensional_catalog(), ids=lambda p: p.stem)
+def test_a_reduced_cost_gets_the_ordinary_verdict_and_evidence_kind(path):
+    # G = -c - z for every 2-D catalog cost: verdict word and evidence kind (proved, sampled,
+    # refuted, undecided) of G1, G2 and G3 equal c's twist, non-degeneracy and MTW, same seed and
+    # budget. One rule differs by design: a generating condition's failure that no enclosure
+    # certifies is undecided, where an ordinary cost's is "fails" on sampled evidence.
+    cost, reduced = reduce_file(path)
+    ordinary = costcheck.check(cost, budget=SAMPLES, seed=1, conditions=list(PAIRS)).verdicts
+    mine = costcheck.check(reduced, budget=SAMPLES, seed=1, conditions=list(PAIRS.values())).verdicts
+    for name, g_name in PAIRS.items():
+        theirs, ours = ordinary[name], mine[g_name]
+        if theirs.verdict == "fails" and theirs.evidence.kind != "refuted":
+            assert (ours.verdict, ours.evidence.kind) == ("undecided", "undecided"), (name, ours.evidence.summary)
+            continue
+        assert (ours.verdict, ours.evidence.kind) == (theirs.verdict, theirs.evidence.kind), \
+            (name, ours.evidence.summary, theirs.evidence.summary)
+        if ours.evidence.kind == "proved":  # the evidence states the reduction it rests on
+            assert "G = −c − z with c = " in ours.evidence.summary and "G_z ≡ −1 exactly" in ours.evidence.summary
+
+
+def test_reduced_cost_is_detected_exactly_and_keeps_the_domain():
+    # G = -(z + 1)²/2 + z²/2 - c: G_z = -(z + 1) + z = -1 (elementary algebra), so G = -(c + 1/2) - z
+    G = generating(f"-(z + 1)**2 / 2 + z**2 / 2 - {R2} / 2")
+    c = reduced_cost(G)
+    assert c is not None and c.y_names == ("y1", "y2") and c.domain.y.lower == (1.5, 1.5)
+    x1, x2, y1, y2 = sp.symbols("x1 x2 y1 y2", real=True)
+    assert sp.expand(c.expr - ((x1 - y1) ** 2 + (x2 - y2) ** 2) / 2 - sp.Rational(1, 2)) == 0
+    assert reduced_cost(generating(f"-{R2} / 2 - 2 * z")) is None  # G_z = -2: not the reduction G_z ≡ -1
+    assert reduced_cost(generating(f"-{R2} / 2 - z - z**2 / 100")) is None
+    # a constraint on z: the domain is not c's domain times the range of z
+    cut = {**BOX, "pairs": ["z - x1 + 1 >= 0"]}
+    assert reduced_cost(generating(f"-{R2} / 2 - z", domain=cut)) is None
+    dual = dual_cost(c)
+    assert dual.x_names == c.y_names and dual.y_names == c.x_names and dual.domain.x == c.domain.y
+
+
+def test_g_z_identically_minus_one_is_proved_by_identity():
+    G = generating(f"-{R2} / 2 - z")
+    verdict = costcheck.check(G, budget=SAMPLES, seed=1, conditions=["z_monotone"]).verdicts["z_monotone"]
+    assert verdict.verdict == "holds" and verdict.evidence.kind == "proved"
+    assert "G_z = -1 exactly" in verdict.evidence.summary
+
+
+def test_g_z_negative_but_not_constant_is_proved_by_branch_and_bound():
+    # G_z = -z² - 1 - x1² ≤ -1 on the whole box (elementary calculus)
+    G = generating(f"-{R2} / 2 - z**3 / 3 - z - x1**2 * z")
+    verdict = costcheck.check(G, budget=SAMPLES, seed=1, conditions=["z_monotone"]).verdicts["z_monotone"]
+    assert verdict.verdict == "holds" and verdict.evidence.kind == "proved", verdict.evidence.summary
+    proof = verdict.evidence.details["proof"]
+    assert proof["proved"] and proof["space"] == "triples (x, y, z)"
+    assert 0 < proof["lower_bound"] <= 1  # -G_z ≥ 1, and the certified bound is below the true minimum
+
+
+def test_g_z_touching_zero_is_never_proved():
+    # G_z = -3 z² vanishes at z = 0, inside the range: G_z < 0 fails there (elementary calculus)
+    G = generating(f"-{R2} / 2 - z**3")
+    verdict = costcheck.check(G, budget=SAMPLES, seed=1, conditions=["z_monotone"]).verdicts["z_monotone"]
+    assert verdict.evidence.kind != "proved" and verdict.verdict != "holds"
+
+
+def test_a_generating_function_that_is_not_reduced_keeps_sampled_evidence():
+    # G = -c - 2z: G_z = -2, so the conditions are c/2's, but the exact reduction G_z ≡ -1 does not
+    # apply and no cost proof is run; the monotonicity is still proved (a negative constant)
+    G = generating(f"-{R2} / 2 - 2 * z")
+    verdicts = costcheck.check(G, budget=SAMPLES, seed=1, conditions=["z_monotone", "g_twist", "g_nondegenerate"]).verdicts
+    assert verdicts["z_monotone"].evidence.kind == "proved"
+    for name in ("g_twist", "g_nondegenerate"):
+        evidence = verdicts[name].evidence
+        assert verdicts[name].verdict == "holds" and evidence.kind == "sampled"
+        assert "G = −c − z" not in evidence.summary and "proof attempt" not in evidence.summary
+        assert "proof" not in evidence.details and "proof_attempt" not in evidence.details
+
+
+def test_the_dual_twist_of_a_reduced_cost_is_the_twist_with_roles_exchanged():
+    # c = x1 y1 + x2 y2 + x1² y1 (elementary): D_x c = (y1 + 2 x1 y1, y2), whose symmetric y-Jacobian
+    # diag(1 + 2 x1, 1) is definite for x1 > -1/2; c_y = (x1 + x1², x2) at fixed y is one-to-one in x
+    # with x1 ∈ [0, 1] (x1 + x1² is increasing there): both twists hold and are proved
+    G = generating("-(x1*y1 + x2*y2 + x1**2*y1) - z")
+    verdicts = costcheck.check(G, budget=SAMPLES, seed=1, conditions=["g_twist", "g_dual_twist"]).verdicts
+    for name in ("g_twist", "g_dual_twist"):
+        assert verdicts[name].verdict == "holds" and verdicts[name].evidence.kind == "proved", name
+    assert "x and y exchanged" in verdicts["g_dual_twist"].evidence.summary
