@@ -94,7 +94,7 @@ def strengthen(ctx, verdict: Verdict, options: ProofOptions) -> Verdict:
         lead, condition = "", verdict.condition
     old = verdict.evidence
     if outcome == "identity" and condition == "z_monotone":
-        summary = f"proved by identity: {reason}, so G decreases in z on the whole domain"
+        summary = f"proved by identity: {reason}, so G decreases in z on the whole domain, wherever G is defined"
         details = {**old.details, "proof": {"method": "identity", "text": reason}}
         return dataclasses.replace(verdict, evidence=Evidence("proved", summary, old.samples, old.resolution, details))
     if outcome == "identity":
