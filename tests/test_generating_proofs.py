@@ -10,6 +10,7 @@ written-down answer.
 
 from __future__ import annotations
 
+import numpy as np
 import sympy as sp
 import pytest
 
@@ -111,3 +112,23 @@ def test_the_dual_twist_of_a_reduced_cost_is_the_twist_with_roles_exchanged():
     for name in ("g_twist", "g_dual_twist"):
         assert verdicts[name].verdict == "holds" and verdicts[name].evidence.kind == "proved", name
     assert "x and y exchanged" in verdicts["g_dual_twist"].evidence.summary
+
+
+def test_a_proved_monotonicity_agrees_with_dense_sampling():
+    # cross-examination of the branch and bound on the near-field reflector (G_z < 0 by the nesting of
+    # confocal ellipsoids: the file's notes, elementary geometry): the certificate says G_z ≤ -bound on
+    # the whole domain, so no point of a dense random sample may exceed it
+    from costcheck.derivatives.generating import z_derivative
+    from costcheck.spec.loader import load_cost
+    from test_generating import ROOT
+
+    cost = load_cost(ROOT / "catalog" / "generating" / "near-field-reflector.yaml")
+    verdict = costcheck.check(cost, budget=SAMPLES, seed=1, conditions=["z_monotone"]).verdicts["z_monotone"]
+    assert verdict.evidence.kind == "proved", verdict.evidence.summary
+    bound = verdict.evidence.details["proof"]["lower_bound"]
+    lo, hi = map(np.array, zip(*[*zip(cost.domain.x.lower, cost.domain.x.upper),
+                                 *zip(cost.domain.y.lower, cost.domain.y.upper)]))
+    points = np.random.default_rng(7).uniform(lo, hi, size=(20000, len(lo)))
+    fn = sp.lambdify(cost.x_symbols + cost.y_symbols, z_derivative(cost.expr, cost.y_symbols[-1]), "numpy")
+    values = fn(*points.T)
+    assert np.all(np.isfinite(values)) and values.max() <= -bound * (1 - 1e-9)
