@@ -132,3 +132,18 @@ def test_a_proved_monotonicity_agrees_with_dense_sampling():
     fn = sp.lambdify(cost.x_symbols + cost.y_symbols, z_derivative(cost.expr, cost.y_symbols[-1]), "numpy")
     values = fn(*points.T)
     assert np.all(np.isfinite(values)) and values.max() <= -bound * (1 - 1e-9)
+
+
+def test_a_kink_and_a_pairs_constraint_reduce_too():
+    # c = |x1 - y1|³/3 + (x2 - y2)²/2 with y1 - x1 ≥ 1 on the boxes: D²_xy c = diag(-2|x1 - y1|, -1),
+    # det ≥ 2 (elementary calculus). The constraint (true on the whole box, but a constraint) keeps the
+    # reduction (it does not mention z) and stops the twist certificate (its slices need no cut), which
+    # the evidence says. abs differentiated twice gives DiracDelta: the collision search must run too.
+    domain = {"x": {"box": [[0, 1], [0, 1]]}, "y": {"box": [[2, 3], [0, 1]]}, "pairs": ["y2 - x2 + 2 >= 0"]}
+    G = generating("-abs(x1 - y1)**3 / 3 - (x2 - y2)**2 / 2 - z", domain=domain)
+    verdicts = costcheck.check(G, budget=SAMPLES, seed=1, conditions=["g_twist", "g_nondegenerate"]).verdicts
+    nondegenerate, twist = verdicts["g_nondegenerate"], verdicts["g_twist"]
+    assert nondegenerate.verdict == "holds" and nondegenerate.evidence.kind == "proved"
+    assert 0 < nondegenerate.evidence.details["proof"]["lower_bound"] <= 2
+    assert twist.verdict == "holds" and twist.evidence.kind == "sampled"
+    assert "no proof attempted on the reduced cost c" in twist.evidence.summary
