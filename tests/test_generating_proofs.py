@@ -90,17 +90,20 @@ def test_g_z_touching_zero_is_never_proved():
     assert verdict.evidence.kind != "proved" and verdict.verdict != "holds"
 
 
-def test_a_generating_function_that_is_not_reduced_keeps_sampled_evidence():
+def test_a_generating_function_that_is_not_reduced_gets_no_cost_proof():
     # G = -c - 2z: G_z = -2, so the conditions are c/2's, but the exact reduction G_z ≡ -1 does not
-    # apply and no cost proof is run; the monotonicity is still proved (a negative constant)
+    # apply and no cost proof is run: the twist stays sampled; the monotonicity is still proved (a
+    # negative constant), and G2 by the extended-Hessian certificate, which needs no reduction
     G = generating(f"-{R2} / 2 - 2 * z")
     verdicts = costcheck.check(G, budget=SAMPLES, seed=1, conditions=["z_monotone", "g_twist", "g_nondegenerate"]).verdicts
     assert verdicts["z_monotone"].evidence.kind == "proved"
-    for name in ("g_twist", "g_nondegenerate"):
-        evidence = verdicts[name].evidence
-        assert verdicts[name].verdict == "holds" and evidence.kind == "sampled"
-        assert "G = −c − z" not in evidence.summary and "proof attempt" not in evidence.summary
-        assert "proof" not in evidence.details and "proof_attempt" not in evidence.details
+    twist = verdicts["g_twist"].evidence
+    assert verdicts["g_twist"].verdict == "holds" and twist.kind == "sampled"
+    assert "G = −c − z" not in twist.summary and "proof attempt" not in twist.summary
+    assert "proof" not in twist.details and "proof_attempt" not in twist.details
+    nondegenerate = verdicts["g_nondegenerate"].evidence
+    assert nondegenerate.kind == "proved" and "G = −c − z" not in nondegenerate.summary
+    assert nondegenerate.details["proof"]["space"] == "triples (x, y, z)"
 
 
 def test_the_dual_twist_of_a_reduced_cost_is_the_twist_with_roles_exchanged():
@@ -147,3 +150,22 @@ def test_a_kink_and_a_pairs_constraint_reduce_too():
     assert 0 < nondegenerate.evidence.details["proof"]["lower_bound"] <= 2
     assert twist.verdict == "holds" and twist.evidence.kind == "sampled"
     assert "no proof attempted on the reduced cost c" in twist.evidence.summary
+
+
+def test_extended_non_degeneracy_of_a_general_g_is_proved_and_agrees_with_dense_sampling():
+    # G = -|x - y|²/2 - z (1 + x1 y1 / 10) is not a reduced cost (G_z = -(1 + x1 y1/10), G_xz ≠ 0):
+    # the certificate encloses det E over cells of (x, y, z); cross-examined by dense sampling of det E
+    # (E = G_xy - G_xz ⊗ G_y / G_z, Trudinger 2014, recalled from memory), which must keep the
+    # certificate's sign and stay at least its bound in size
+    from costcheck.derivatives.sympy_backend import symbolic_derivatives
+
+    G = generating(f"-{R2} / 2 - z * (1 + x1 * y1 / 10)", rng=(0, 1))
+    verdict = costcheck.check(G, budget=SAMPLES, seed=1, conditions=["g_nondegenerate"]).verdicts["g_nondegenerate"]
+    assert verdict.verdict == "holds" and verdict.evidence.kind == "proved", verdict.evidence.summary
+    assert "G = −c − z" not in verdict.evidence.summary and "det E" in verdict.evidence.summary
+    bound = verdict.evidence.details["proof"]["lower_bound"]
+    M = symbolic_derivatives(G.expr, G.x_symbols, G.y_symbols, 2, True)["dxy"]
+    det = sp.lambdify(G.x_symbols + G.y_symbols, M[0][0] * M[1][1] - M[0][1] * M[1][0], "numpy")
+    lo = np.array([0, 0, 1.5, 1.5, 0])
+    values = det(*np.random.default_rng(3).uniform(lo, lo + 1, size=(20000, 5)).T)
+    assert np.all(np.isfinite(values)) and (np.all(values >= bound) or np.all(values <= -bound))

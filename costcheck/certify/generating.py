@@ -12,7 +12,11 @@ Two routes, both rigorous over the whole declared domain ``X × Y × [low, high]
   :mod:`.identity` run on ``c`` (the dual twist as the twist of ``c`` with ``x`` and ``y``
   exchanged), within the same budget as for a cost, and the evidence states the reduction.
 
-Any other generating function gets no proof attempt (its verdict stays sampled, unannotated).
+- **Extended non-degeneracy of any other G** (G2): :mod:`.effective`, ``det E`` enclosed away from 0
+  over cells of ``(x, y, z)``.
+
+Any other condition of any other generating function gets no proof attempt (its verdict stays
+sampled, unannotated).
 """
 
 from __future__ import annotations
@@ -22,7 +26,7 @@ import sympy as sp
 
 from ..derivatives.generating import z_derivative
 from ..numerics.bounded import within
-from . import balls, identity, proofs
+from . import balls, effective, identity, proofs
 from .arb_eval import compile_exprs
 from .branch_bound import Budget, branch_and_bound
 from .preparation import ProofPreparation
@@ -105,6 +109,9 @@ def attempt(ctx, condition: str, word: str, budget: Budget, identity_seconds: fl
         outcome, reason = monotone(cost, budget)
         return outcome, reason, "identity" if outcome == "identity" else "branch and bound", "", condition
     found = reduction(ctx.proof_preparation)
+    if found is None and condition == "g_nondegenerate" and word == "holds":
+        outcome, reason = effective.nondegenerate(cost, budget)
+        return outcome, reason, "branch and bound", "", "nondegenerate"
     if found is None or condition not in REDUCED:
         return None, "", "", "", condition
     c, prep = found
