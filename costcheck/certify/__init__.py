@@ -18,7 +18,7 @@ from dataclasses import dataclass
 
 from ..defaults import DEFAULT_PROOF_CELLS, DEFAULT_PROOF_SECONDS
 from ..model.verdict import Evidence, Verdict
-from . import identity, proofs
+from . import generating, identity, proofs
 from .branch_bound import Budget
 from .preparation import ProofPreparation
 from .witnesses import certify_refutation
@@ -81,6 +81,10 @@ def _sampled_margin(verdict: Verdict) -> tuple[float, float] | None:
     return float(verdict.value), float(tolerance)
 
 
+#: where a generating function's proof ran, when it is a reduced cost (certify.reduced)
+_OF_C = " on the reduced cost c (G = −c − z, G_z ≡ −1 exactly)"
+
+
 def _names(cost):
     return list(cost.x_names) + list(cost.y_names)
 
@@ -89,12 +93,21 @@ def strengthen(ctx, verdict: Verdict, options: ProofOptions) -> Verdict:
     """``verdict`` upgraded to proved evidence when a certificate is found; otherwise annotated."""
     if verdict.evidence.kind != "sampled" or verdict.verdict in ("fails", "undecided", "not-applicable"):
         return verdict
-    derivs = ctx.derivs if ctx.cost.n == ctx.cost.m and ctx.order >= 4 else None
-    outcome, reason, method = _attempt(ctx.cost, verdict, options, derivs, ctx.proof_preparation)
+    if verdict.condition in generating.CONDITIONS:
+        outcome, reason, method, lead, condition = generating.attempt(
+            ctx, verdict.condition, verdict.verdict, options.budget(), options.identity_seconds)
+    else:
+        derivs = ctx.derivs if ctx.cost.n == ctx.cost.m and ctx.order >= 4 else None
+        outcome, reason, method = _attempt(ctx.cost, verdict, options, derivs, ctx.proof_preparation)
+        lead, condition = "", verdict.condition
     old = verdict.evidence
+    if outcome == "identity" and condition == "z_monotone":
+        summary = f"proved by identity: {reason}, so G decreases in z on the whole domain, wherever G is defined"
+        details = {**old.details, "proof": {"method": "identity", "text": reason}}
+        return dataclasses.replace(verdict, evidence=Evidence("proved", summary, old.samples, old.resolution, details))
     if outcome == "identity":
-        summary = (f"proved by identity: {reason}, so S(ξ, η) = 0 for all ξ, η wherever M is invertible "
-                   f"({'A3w holds, A3s fails' if verdict.condition == 'mtw' else 'NNCC holds with equality'})")
+        summary = (f"{lead}proved by identity: {reason}, so S(ξ, η) = 0 for all ξ, η wherever M is invertible "
+                   f"({'A3w holds, A3s fails' if condition == 'mtw' else 'NNCC holds with equality'})")
         details = {**old.details, "proof": {"method": "identity", "text": reason}}
         return dataclasses.replace(verdict, evidence=Evidence("proved", summary, old.samples, old.resolution, details))
     if outcome is None:
@@ -102,16 +115,17 @@ def strengthen(ctx, verdict: Verdict, options: ProofOptions) -> Verdict:
             return verdict
         details = {**old.details, "proof_attempt": {"method": method or None, "skipped": reason}}
         return dataclasses.replace(verdict, evidence=dataclasses.replace(
-            old, summary=f"{old.summary}; no proof attempted: {reason}", details=details))
+            old, summary=f"{old.summary}; no proof attempted{_OF_C if lead else ''}: {reason}", details=details))
     proof = {"method": method, **outcome.to_json(_names(ctx.cost)), "budget": options.to_json()}
     if outcome.proved:
         # the time taken stays in the details: the sentence is the same on every run of a seed
-        summary = (f"proved on the whole domain: {outcome.what or _WHAT[verdict.condition]} "
+        summary = (f"{lead}proved on the whole domain: {outcome.what or _WHAT[condition]} "
                    f"({outcome.proved_cells} cells proved, {outcome.outside_cells} outside the domain, over "
                    f"{outcome.space}; ball arithmetic, arb); certified lower bound {outcome.bound:.3g}")
         return dataclasses.replace(verdict, evidence=Evidence("proved", summary, old.samples, old.resolution,
                                                               {**old.details, "proof": proof}))
-    summary = (f"{old.summary}; proof attempted: {outcome.coverage:.1%} of the domain's volume proved "
+    summary = (f"{old.summary}; proof attempted{_OF_C if lead else ''}: {outcome.coverage:.1%} of the domain's "
+               "volume proved "
                f"({outcome.cells} cells, stopped by "
                f"{outcome.exhausted or 'cells too small to decide'}); the rest is undecided, so the verdict "
                "stays sampled")

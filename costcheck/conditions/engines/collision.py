@@ -17,10 +17,10 @@ from __future__ import annotations
 from dataclasses import dataclass
 
 import numpy as np
-import sympy as sp
 from scipy.spatial import cKDTree
 from scipy.stats import qmc
 
+from ...derivatives.differentiate import diff
 from ...numerics.search import batched_least_squares
 from . import generating as gen
 
@@ -91,7 +91,7 @@ def _refine(cost, exprs, free, firsts, starts, spreads, lower, upper, width) -> 
     W, S, spread = np.array(firsts), np.array(starts), np.array(spreads)
     targets = gen.evaluate_many(cost, exprs, W)
     variables = gen.symbols(cost)
-    jacobian = tuple(sp.diff(e, variables[j]) for e in exprs for j in free)
+    jacobian = tuple(diff(e, variables[j]) for e in exprs for j in free)
     k, q = len(exprs), len(free)
 
     def model(V):

@@ -17,6 +17,7 @@ from flint import arb
 
 from ...certify import balls
 from ...certify.arb_eval import compile_exprs
+from ...derivatives.sympy_backend import LAMBDIFY_MODULES
 from ...model.verdict import not_applicable
 from ...numerics.search import batched_descent
 
@@ -35,7 +36,8 @@ def symbols(cost) -> tuple:
 
 @lru_cache(maxsize=32)
 def _float_fn(expr, variables):
-    return sp.lambdify(list(variables), expr, modules="numpy", dummify=True, cse=True)
+    # the backend's modules: a kink (abs) differentiated gives sign and DiracDelta, which plain numpy lacks
+    return sp.lambdify(list(variables), expr, modules=LAMBDIFY_MODULES, dummify=True, cse=True)
 
 
 @lru_cache(maxsize=32)
