@@ -45,7 +45,12 @@ the minimum is found numerically, in two stages with fixed work per pair:
    the shift is then three floors); only where neither holds (or a step is rejected) is
    ``λ_min`` computed, as its closed form's arc-cosine and cosine are a large part of a step
    (the power cost's Newton loop ran about 10 % faster without them).  A pair stops early once the step's predicted
-   decrease is below rounding where ``H`` is positive semi-definite (:data:`CONVERGED_DECREASE`).
+   decrease is below rounding where ``H`` is positive semi-definite (:data:`CONVERGED_DECREASE`), or
+   right after an unshifted Newton step that predicted less than :data:`SETTLED_DECREASE` (the next
+   one would only confirm it: measured on 50,000 power-0.5-3d pairs and 20,000 random tensors,
+   every value within 1.2e-13·max|G| of the iterations run without this stop).  The seed's
+   η, the restricted 2 × 2 form's smaller eigenvector, comes from the half-angle formulas, not
+   from an arc-tangent, a cosine and a sine.
 
 Like any local method this finds the global minimum only when a seed lies in its basin; the
 scan spacing (about 0.26 rad for ``D = 96``) and several seeds guard against a missed basin.
@@ -372,13 +377,12 @@ def minimise_rows(g, R, xi_d, P_d, near, seeds, iterations, seed_iterations, raw
         best_xi = best_eta = (0.0, 0.0, 0.0)
         best_settled = False
         for s in range(seeds):
-            if s > 0:  # the best direction not near an earlier seed
+            if s > 0:  # the best direction not near an earlier seed (the first of equals, as before)
+                last, e, low = e, 0, numpy.inf
                 for d in range(D):
-                    if near[e, d]:
+                    if near[last, d]:
                         lam[d] = numpy.inf
-                e, low = 0, lam[0]
-                for d in range(1, D):
-                    if lam[d] < low:
+                    elif lam[d] < low:
                         e, low = d, lam[d]
             xi = (xi_d[e, 0], xi_d[e, 1], xi_d[e, 2])
             ca, sa = _smaller_eigenvector(R[n, D + e], R[n, 2 * D + e])
