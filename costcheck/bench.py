@@ -421,10 +421,14 @@ LIMITS = {
                       "of the certified quartic grid stage; XLA runs a pure FMA chain at ~2e10 flop/s on these 2 cores, so ~3e3 flops/pair "
                       "bounds the kernel near 7e6 pairs/s; transcendental calls and selects cost "
                       "several flops each",
-    "n3_pairs_per_s": "today's n = 3 path, per pair on one core (measured on power-0.5-3d): the compiled "
-                      "Newton iterations on SO(3), ~2.8 us (about 9 model evaluations of ~600 flops, a "
-                      "dependent chain); the lambdified derivatives, ~1 us; the compiled tensor "
-                      "algebra, ~0.5 us; the float32 BLAS scan, ~0.2 us; two threads give 1.5-1.8x. "
+    "n3_pairs_per_s": "today's n = 3 path, per pair on one core (profiled on power-0.5-3d, 100,000 pairs, "
+                      "an idle machine): the compiled Newton iterations on SO(3) from two seeds, ~1.2-1.4 us "
+                      "(8-9 model evaluations of ~600 flops, a dependent chain, ~75-160 ns each); the seeds' choice "
+                      "(96 restricted eigenvalues, a masked argmin), ~0.3 us; the float32 BLAS scan, "
+                      "~0.2-0.35 us; the compiled tensor algebra, ~0.5 us; the lambdified derivatives, "
+                      "~0.6 us (a gather of their whole table afterwards took as long again until the fields "
+                      "were written per chunk); two threads give 1.5-1.8x on an idle machine, nothing when "
+                      "the other sessions hold the cores. "
                       "The fused kernel (margin.<cost>.n3_fused) is slower still: see n3_fused_ratio",
     "n3_fused_ratio": "the fused kernel's scan and Newton programs (margin.<cost>.n3_fused.stage_pairs_per_s, "
                       "each ~1-3e5 pairs/s). Scan: a (288, 36) float32 product per pair and reductions over "
