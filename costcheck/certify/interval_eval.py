@@ -34,9 +34,9 @@ import sympy as sp
 from ival import Interval
 
 from . import intervals as iv
-from .interval_dual import IntervalDual, repeat_rows, tighten
+from .interval_dual import IntervalDual, intersect_forms, repeat_rows
 from .interval_ops import ONE, UNARY, ZERO, chain, ipow, rpow, step_value
-from .interval_rows import outputs, stacked_registers
+from .interval_rows import last_uses, mean_value_form, output_parts, stacked_registers
 from .program import Unsupported, build_program
 
 __all__ = ["IntervalFunction", "Unsupported", "cell_offsets", "compile_interval_exprs"]
@@ -101,6 +101,7 @@ class IntervalFunction:
         program = build_program(exprs, symbols)
         self._program = program
         self._constants = [iv.constant(c) for c in program.constants]
+        self._last_uses = last_uses(program)
         self.size = len(exprs)
         self.symbols = tuple(symbols)
 
@@ -150,15 +151,12 @@ class IntervalFunction:
         lo, hi = np.asarray(lo, dtype=np.float64), np.asarray(hi, dtype=np.float64)
         middle, offsets = cell_offsets(lo, hi)
         # one pass: every register holds its value over the cell, at the middle and its gradient (d + 2 rows)
-        registers = stacked_registers(self._program, self._constants, lo, middle=middle, hi=hi)
+        registers = stacked_registers(self._program, self._constants, lo, hi, middle, self._last_uses)
         n, d = lo.shape
-        stack = outputs(registers, self._program.outputs, n, d)
-        values = iv.make(stack.lo[:, 0], stack.hi[:, 0])
-        middles = iv.make(stack.lo[:, 1], stack.hi[:, 1])
-        grads = iv.make(stack.lo[:, 2:], stack.hi[:, 2:])
-        tight = tighten(IntervalDual(values, grads), middles, offsets)
-        duals = [IntervalDual(iv.make(tight.lo[e], tight.hi[e]), iv.make(grads.lo[e], grads.hi[e]))
-                 for e in range(self.size)]
+        values, middles, gradients, by_row = output_parts(registers, self._program.outputs, n, d)
+        del registers
+        tight = intersect_forms(values, mean_value_form(middles, by_row, offsets))
+        duals = [IntervalDual(iv.make(tight.lo[e], tight.hi[e]), g) for e, g in enumerate(gradients)]
         at_middle = [iv.make(middles.lo[e], middles.hi[e]) for e in range(self.size)]
         return duals, at_middle, offsets
 

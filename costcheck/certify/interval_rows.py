@@ -32,7 +32,7 @@ from . import intervals as iv
 from .interval_dual import repeat_rows
 from .interval_ops import UNARY, chain, ipow, real_power, rpow, step_value
 
-__all__ = ["last_uses", "outputs", "stacked_registers"]
+__all__ = ["Jet", "last_uses", "mean_value_form", "output_parts", "stacked_registers"]
 
 
 class Jet:
@@ -151,17 +151,20 @@ def _step(op: str, args: list, extra: tuple, constants: list, d: int) -> Interva
     return Jet(values, _scale(derivative, x))
 
 
-def stacked_registers(program, constants: list, lo: np.ndarray, hi: np.ndarray, middle: np.ndarray) -> list:
+def stacked_registers(program, constants: list, lo: np.ndarray, hi: np.ndarray, middle: np.ndarray,
+                      last: list | None = None) -> list:
     """Every register of ``program`` over the cells ``[lo[k], hi[k]]`` with middle points ``middle[k]``
     (arrays of shape ``(N, d)``): a ``(d + 2, N)`` interval array (value, middle value, gradient rows)
-    for a step that depends on the variables, the scalar interval of a constant."""
+    or a :class:`Jet` (the same rows in two arrays) for a step that depends on the variables, the
+    scalar interval of a constant; a register no later step reads is ``None``.  ``last`` is
+    :func:`last_uses` of the program (computed here when not given)."""
     n, d = lo.shape
     unit = np.eye(d)[:, :, None] * np.ones(n)  # unit[j] = ∇x_j, rows of shape (d, N)
     registers = []
     for j in range(d):
         registers.append(iv.make(np.concatenate((lo[None, :, j], middle[None, :, j], unit[j])),
                                  np.concatenate((hi[None, :, j], middle[None, :, j], unit[j]))))
-    last = last_uses(program)
+    last = last_uses(program) if last is None else last
     with np.errstate(invalid="ignore"):
         for s, (op, args, extra) in enumerate(program.steps):
             registers.append(_step(op, [registers[a] for a in args], extra, constants, d))
@@ -184,16 +187,33 @@ def last_uses(program) -> list[tuple]:
     return out[::-1]
 
 
-def outputs(registers: list, indices, n: int, d: int) -> Interval:
-    """The output registers as one ``(E, d + 2, N)`` interval array (a constant: its value in rows 0 and 1,
-    zero gradient)."""
-    lo, hi = np.empty((len(indices), d + 2, n)), np.empty((len(indices), d + 2, n))
+def output_parts(registers: list, indices, n: int, d: int) -> tuple:
+    """The output registers as ``(values, middles, gradients, by_row)``: the values over the cells and at
+    their middles as ``(E, N)`` interval arrays, each output's gradient as its own ``(d, N)`` interval
+    array (the register's, not copied) and all gradients again as one ``(d, E, N)`` array (row ``j`` of
+    every output contiguous, for the mean-value form).  A constant has zero gradient."""
+    e_count = len(indices)
+    v_lo, v_hi = np.empty((2, e_count, n)), np.empty((2, e_count, n))
+    g_lo, g_hi = np.empty((d, e_count, n)), np.empty((d, e_count, n))
+    gradients = []
     for e, i in enumerate(indices):
         r = registers[i]
         if _is_constant(r):
-            lo[e, :2], hi[e, :2], lo[e, 2:], hi[e, 2:] = r.lo, r.hi, 0.0, 0.0
-        elif isinstance(r, Jet):
-            lo[e, :2], hi[e, :2], lo[e, 2:], hi[e, 2:] = r.values.lo, r.values.hi, r.grad.lo, r.grad.hi
-        else:
-            lo[e], hi[e] = r.lo, r.hi
-    return iv.make(lo, hi)
+            v_lo[:, e], v_hi[:, e] = r.lo, r.hi
+            g_lo[:, e], g_hi[:, e] = 0.0, 0.0
+            gradients.append(iv.make(np.zeros((d, n)), np.zeros((d, n))))
+            continue
+        values, grad = _values(r), _grad(r)
+        v_lo[:, e], v_hi[:, e] = values.lo, values.hi
+        g_lo[:, e], g_hi[:, e] = grad.lo, grad.hi
+        gradients.append(grad)
+    return (iv.make(v_lo[0], v_hi[0]), iv.make(v_lo[1], v_hi[1]), gradients, iv.make(g_lo, g_hi))
+
+
+def mean_value_form(middles: Interval, by_row: Interval, offsets: Interval) -> Interval:
+    """``q(m) + Σ_j ∂_j q(B)·(B − m)_j`` for every output at once, summed in the order of the rows (as
+    :func:`.interval_dual.tighten` does), one ``(E, N)`` row of products at a time."""
+    total = middles
+    for j in range(np.shape(by_row.lo)[0]):
+        total = total + iv.make(by_row.lo[j], by_row.hi[j]) * iv.make(offsets.lo[j], offsets.hi[j])
+    return total
