@@ -107,7 +107,7 @@ def _product(args: list):
     for i, a in enumerate(args):
         prefix[i + 1] = _values(a) if prefix[i] is None else prefix[i] * _values(a)
     suffix = [None] * (k + 1)
-    for i in range(k - 1, 0, -1):
+    for i in range(k - 1, varying[0], -1):  # only as far down as a partial product reads them
         suffix[i] = _box(args[i]) if suffix[i + 1] is None else _box(args[i]) * suffix[i + 1]
     gradient = None
     for i in varying:
