@@ -19,7 +19,11 @@ Over a cell the natural enclosure grows with the expression's size; :meth:`Inter
 also runs the program in forward-mode differentiation (gradients as ``(d, N)`` interval
 arrays) and applies the mean-value form ``f(B) ⊂ f(m) + ∇f(B)·(B − m)`` (Moore, Kearfott and
 Cloud, *Introduction to Interval Analysis*, SIAM 2009, §6.4), intersected with the natural
-enclosure — as :meth:`.arb_eval.BallFunction.over_box` does for one box.
+enclosure — as :meth:`.arb_eval.BallFunction.over_box` does for one box.  It does so in one
+pass (:mod:`.interval_rows`: value over the cell, value at the middle and gradient of each step
+together), with the same interval operations as the three passes apart (:meth:`IntervalFunction.with_gradients`,
+:meth:`IntervalFunction.__call__` at the middles, :func:`.interval_dual.tighten`) in about half the calls.
+The operations themselves are in :mod:`.interval_ops`.
 """
 
 from __future__ import annotations
