@@ -438,7 +438,7 @@ LIMITS = {
                            "~1e2-1e3 pairs/s",
     "certify_speedup": "the vectorised engine's time is ival's per-call work (~10 us of Python and ctypes "
                        "per operation, then ~1-5 ns per interval): one pass over the program "
-                       "(interval_rows: ~680 calls for the 171 operations, ~9 ms of a ~19 ms batch of 2,000 cells; "
+                       "(interval_rows: ~600 calls for the 171 operations, ~9 ms of a ~17 ms batch of 2,000 cells; "
                        "the forward-mode gradient's (d, N) products most of the rest), then the mean-value "
                        "form on all fields at once; fresh pages for the large arrays cost a few ms a batch",
 }
