@@ -243,3 +243,58 @@ def test_one_cell_batch_agrees_with_the_ball_compiler():
     (ball,) = BallFunction([expr], (X, Y)).over_box(lo[0], hi[0])
     assert ours.lo[0] <= balls.upper(ball) and balls.lower(ball) <= ours.hi[0]
     assert ours.hi[0] - ours.lo[0] <= 1.01 * (balls.upper(ball) - balls.lower(ball))
+
+
+def _separately(fn, lo, hi):
+    """The three passes apart, as the evaluator ran them before the one-pass route: natural values and
+    gradients (``with_gradients``), the values at the middles (``__call__``), then ``tighten``."""
+    from costcheck.certify.interval_eval import cell_offsets
+
+    natural, gradients = fn.with_gradients([iv.from_bounds(lo[:, j], hi[:, j]) for j in range(lo.shape[1])])
+    middle, offsets = cell_offsets(lo, hi)
+    at_middle = fn([iv.from_bounds(middle[:, j], middle[:, j]) for j in range(lo.shape[1])])
+    tight = [tighten(IntervalDual(v, g), m, offsets) for v, g, m in zip(natural, gradients, at_middle)]
+    return tight, gradients, at_middle, middle
+
+
+def _same(a, b) -> bool:
+    return np.array_equal(a.lo, b.lo, equal_nan=True) and np.array_equal(a.hi, b.hi, equal_nan=True)
+
+
+@pytest.mark.parametrize("text", TEXTS + EXTRA, ids=str)
+def test_one_pass_route_gives_the_separate_passes_enclosures(text):
+    # the one-pass evaluator (interval_rows: value, middle value and gradient stacked) runs the same
+    # interval operations on the same operands as the three passes apart, so its enclosures are the
+    # same floats.  The one exception allowed: an integer power's choice between repeated squaring and
+    # pown is made over the whole array, so the middle values may take the other (also tight) route;
+    # there the middle value must still hold the exact value (mpmath, 40 digits).
+    expr = text if isinstance(text, sp.Expr) else parse_expression(text, {"x": X, "y": Y})
+    exprs = [expr, sp.diff(expr, X), sp.diff(expr, X, Y)]
+    fn = IntervalFunction(exprs, (X, Y))
+    lo, hi = _cells(np.random.default_rng(sum(map(ord, str(text))) + 1), 64)
+    duals, at_middle, _ = fn.duals_over_cells(lo, hi)
+    tight, gradients, middles, points = _separately(fn, lo, hi)
+    for e, expression in enumerate(exprs):
+        assert _same(duals[e].grad, iv.broadcast(gradients[e], duals[e].grad.lo.shape)), (expression, "gradient")
+        if _same(at_middle[e], middles[e]):
+            assert _same(duals[e].value, tight[e]), (expression, "value")
+            continue
+        exact = _mp(expression)
+        for k in np.flatnonzero(~((at_middle[e].lo == middles[e].lo) & (at_middle[e].hi == middles[e].hi))):
+            value = exact(points[k])
+            if iv.finite(at_middle[e])[k]:
+                assert value is not None and _contains(at_middle[e].lo[k], at_middle[e].hi[k], value), expression
+
+
+def test_one_pass_route_on_the_certify_benchmark_fields():
+    # the bench's cells (catalog/euclidean/power-0.5.yaml, TENSOR_FIELDS): every value, middle value and
+    # gradient the same floats as the separate passes
+    from costcheck.bench import certify_cells
+
+    cost = costcheck.load(CATALOG / "euclidean/power-0.5.yaml")
+    fn = CellFieldEnclosures(cost, TENSOR_FIELDS).function
+    lo, hi = certify_cells(cost, 300, seed=7)
+    duals, at_middle, _ = fn.duals_over_cells(lo, hi)
+    tight, gradients, middles, _ = _separately(fn, lo, hi)
+    assert all(_same(d.value, t) and _same(d.grad, g) and _same(a, m)
+               for d, t, g, a, m in zip(duals, tight, gradients, at_middle, middles))

@@ -117,6 +117,12 @@ def tighten(over_cells, at_middle: Interval, offsets: Interval) -> Interval:
         for j in range(rows):
             mean_value = mean_value + iv.make(np.ascontiguousarray(terms.lo[..., j, :]),
                                               np.ascontiguousarray(terms.hi[..., j, :]))
+    return intersect_forms(natural, mean_value)
+
+
+def intersect_forms(natural: Interval, mean_value: Interval) -> Interval:
+    """``natural ∩ mean_value`` where both are enclosures; the one that is where the other is not; empty
+    wherever ``natural`` is (the expression may be undefined on the cell)."""
     mean_ok = iv.finite(mean_value)
     natural_ok = iv.finite(natural)
     both = natural & mean_value

@@ -19,12 +19,15 @@ Over a cell the natural enclosure grows with the expression's size; :meth:`Inter
 also runs the program in forward-mode differentiation (gradients as ``(d, N)`` interval
 arrays) and applies the mean-value form ``f(B) ⊂ f(m) + ∇f(B)·(B − m)`` (Moore, Kearfott and
 Cloud, *Introduction to Interval Analysis*, SIAM 2009, §6.4), intersected with the natural
-enclosure — as :meth:`.arb_eval.BallFunction.over_box` does for one box.
+enclosure — as :meth:`.arb_eval.BallFunction.over_box` does for one box.  It does so in one
+pass (:mod:`.interval_rows`: value over the cell, value at the middle and gradient of each step
+together), with the same interval operations as the three passes apart (:meth:`IntervalFunction.with_gradients`,
+:meth:`IntervalFunction.__call__` at the middles, :func:`.interval_dual.tighten`) in about half the calls.
+The operations themselves are in :mod:`.interval_ops`.
 """
 
 from __future__ import annotations
 
-import operator
 from fractions import Fraction
 from functools import lru_cache
 from typing import Sequence
@@ -35,160 +38,12 @@ import sympy as sp
 from ival import Interval
 
 from . import intervals as iv
-from .interval_dual import IntervalDual, repeat_rows, tighten
+from .interval_dual import IntervalDual, intersect_forms, repeat_rows
+from .interval_ops import ONE, UNARY, ZERO, chain, ipow, rpow, step_value
+from .interval_rows import last_uses, mean_value_form, output_parts, stacked_registers
 from .program import Unsupported, build_program
 
 __all__ = ["IntervalFunction", "Unsupported", "cell_offsets", "compile_interval_exprs"]
-
-ONE = Interval(1.0)
-ZERO = Interval(0.0)
-
-
-def _pole(f):
-    return lambda x: iv.bounded_only(f(x))
-
-
-def _outside(f, bad):
-    """``f`` made empty where ``bad(x)``: the argument leaves the function's (real) domain."""
-    return lambda x: iv.undefined_where(f(x), bad(x))
-
-
-def _power_of_nonnegative(r: Interval, k: int) -> Interval:
-    """``r**k`` for ``r ≥ 0`` and ``k ≥ 1`` by repeated squaring: on ``[0, ∞)`` the product of intervals is
-    the product of their ends, rounded outward, so this stays tight (a few ulps); ival's pown, tight to
-    one rounding, costs ten times more per cell."""
-    result, square = None, r
-    while k:
-        if k & 1:
-            result = square if result is None else result * square
-        k >>= 1
-        if k:
-            square = ival.sqr(square)
-    return result
-
-
-def ipow(x: Interval, k: int) -> Interval:
-    """``x**k`` for an integer ``k`` (even powers ≥ 0, odd powers monotone, tight); a pole where ``k < 0``
-    and 0 ∈ x."""
-    if k == 0:
-        return ONE
-    if k == 1:
-        return x
-    if k == 2:
-        return ival.sqr(x)
-    if k < 0:
-        return iv.bounded_only(ival.recip(ipow(x, -k)))
-    if np.all(x.lo >= 0):
-        return _power_of_nonnegative(x, k)
-    return ival.pown(x, k)
-
-
-def _root(x: Interval, q: int) -> Interval:
-    """The real ``q``-th root of ``x ≥ 0``: repeated square roots when ``q`` is a power of two (fast and
-    tight), 1788.1's rootn otherwise."""
-    if q & (q - 1) == 0:
-        while q > 1:
-            x, q = ival.sqrt(x), q // 2
-        return x
-    return ival.rootn(x, q)
-
-
-def rpow(x: Interval, p: int, q: int) -> Interval:
-    """``x**(p/q)`` for a non-integer rational exponent on the real branch ``x ≥ 0`` (``x > 0`` when
-    ``p < 0``), as :func:`.balls.rpow`: the numeric backends give nan for a negative base."""
-    bad = (x.lo <= 0) if p < 0 else (x.lo < 0)
-    root = _root(x, q)
-    value = _power_of_nonnegative(root, abs(p))
-    if p < 0:
-        value = iv.bounded_only(ival.recip(value))
-    return iv.undefined_where(value, bad | np.isnan(x.lo))
-
-
-def real_power(base: Interval, exponent: Interval) -> Interval:
-    """``x**y = exp(y log x)`` for real ``y``, defined for ``x > 0`` (the real branch the backends take)."""
-    return iv.undefined_where(iv.bounded_only(ival.pow(base, exponent)), ~(base.lo > 0))
-
-
-def sign(x: Interval) -> Interval:
-    """sign(x): ±1 where ``x`` excludes 0, no enclosure where it may vanish (as :func:`.balls.sign`)."""
-    shape = np.shape(x.lo)
-    lo = np.where(x.lo > 0, 1.0, np.where(x.hi < 0, -1.0, np.nan))
-    return iv.make(lo, lo.copy()) if shape else Interval(float(lo))
-
-
-def point_mass(x: Interval) -> Interval:
-    """DiracDelta(x): 0 where ``x`` surely is non-zero, no enclosure where it may vanish."""
-    lo = np.where(iv.excludes_zero(x), 0.0, np.nan)
-    return iv.make(lo, lo.copy()) if np.shape(x.lo) else Interval(float(lo))
-
-
-def step(x: Interval) -> Interval:
-    """Heaviside(x), undefined at 0 (the kink semantics of the numeric backends)."""
-    lo = np.where(x.lo > 0, 1.0, np.where(x.hi < 0, 0.0, np.nan))
-    return iv.make(lo, lo.copy()) if np.shape(x.lo) else Interval(float(lo))
-
-
-def _one_over_root(x):
-    return rpow(x, -1, 2)
-
-
-def _beyond_one(x):
-    return (x.lo < -1) | (x.hi > 1) | np.isnan(x.lo)
-
-
-def _cot(x):
-    return iv.bounded_only(ival.cos(x) / ival.sin(x))
-
-
-#: operation name → (value function, derivative function (x, value) for one-argument operations)
-UNARY = {
-    "exp": (ival.exp, lambda x, v: v),
-    "log": (_outside(ival.log, lambda x: ~(x.lo > 0)), lambda x, v: ival.recip(x)),
-    "sin": (ival.sin, lambda x, v: ival.cos(x)),
-    "cos": (ival.cos, lambda x, v: -ival.sin(x)),
-    "tan": (_pole(ival.tan), lambda x, v: 1 + ival.sqr(v)),
-    "sinh": (ival.sinh, lambda x, v: ival.cosh(x)),
-    "cosh": (ival.cosh, lambda x, v: ival.sinh(x)),
-    "tanh": (ival.tanh, lambda x, v: 1 - ival.sqr(v)),
-    "asin": (_outside(ival.asin, _beyond_one), lambda x, v: _one_over_root(1 - ival.sqr(x))),
-    "acos": (_outside(ival.acos, _beyond_one), lambda x, v: -_one_over_root(1 - ival.sqr(x))),
-    "atan": (ival.atan, lambda x, v: ival.recip(1 + ival.sqr(x))),
-    "asinh": (ival.asinh, lambda x, v: _one_over_root(ival.sqr(x) + 1)),
-    "acosh": (_outside(ival.acosh, lambda x: ~(x.lo >= 1)), lambda x, v: _one_over_root((x - 1) * (x + 1))),
-    "atanh": (_outside(_pole(ival.atanh), lambda x: ~((x.lo > -1) & (x.hi < 1))),
-              lambda x, v: iv.bounded_only(ival.recip(1 - ival.sqr(x)))),
-    "sec": (_pole(lambda x: ival.recip(ival.cos(x))), lambda x, v: v * ival.tan(x)),
-    "csc": (_pole(lambda x: ival.recip(ival.sin(x))), lambda x, v: -v * _cot(x)),
-    "cot": (_cot, lambda x, v: -(1 + ival.sqr(v))),
-    "abs": (abs, lambda x, v: sign(x)),
-    "sign": (sign, lambda x, v: point_mass(x)),
-    "delta": (point_mass, lambda x, v: point_mass(x)),
-    "step": (step, lambda x, v: point_mass(x)),
-    "reciprocal": (_pole(ival.recip), lambda x, v: -ival.sqr(v)),
-}
-
-
-def _chain(items, combine):
-    total = items[0]
-    for item in items[1:]:
-        total = combine(total, item)
-    return total
-
-
-def _value(op, args, extra, K):
-    if op == "constant":
-        return K[extra[0]]
-    if op == "sum":
-        return _chain(args, operator.add)
-    if op == "product":
-        return _chain(args, operator.mul)
-    if op == "ipow":
-        return ipow(args[0], extra[0])
-    if op == "rpow":
-        return rpow(args[0], *extra)
-    if op == "power":
-        return real_power(*args)
-    return UNARY[op][0](args[0])
 
 
 def _scale(partial, grad):
@@ -226,7 +81,7 @@ def _product_gradient(args, grads):
 def _gradient(op, args, grads, extra, value):
     """The step's gradient (a ``(d, N)`` interval array, or None for zero) from its arguments'."""
     if op == "sum":
-        return _chain(grads, _add)
+        return chain(grads, _add)
     if op == "product":
         return _product_gradient(args, grads)
     if op == "ipow":
@@ -250,6 +105,7 @@ class IntervalFunction:
         program = build_program(exprs, symbols)
         self._program = program
         self._constants = [iv.constant(c) for c in program.constants]
+        self._last_uses = last_uses(program)
         self.size = len(exprs)
         self.symbols = tuple(symbols)
 
@@ -265,7 +121,7 @@ class IntervalFunction:
         registers = list(values)
         with np.errstate(invalid="ignore"):
             for op, args, extra in self._program.steps:
-                registers.append(_value(op, [registers[a] for a in args], extra, self._constants))
+                registers.append(step_value(op, [registers[a] for a in args], extra, self._constants))
         return self._outputs(registers, np.shape(values[0].lo))
 
     def with_gradients(self, values: Sequence[Interval]) -> tuple[list[Interval], list[Interval]]:
@@ -278,7 +134,7 @@ class IntervalFunction:
         with np.errstate(invalid="ignore"):
             for op, args, extra in self._program.steps:
                 arg_values = [registers[a] for a in args]
-                value = _value(op, arg_values, extra, self._constants)
+                value = step_value(op, arg_values, extra, self._constants)
                 registers.append(value)
                 if op == "constant":
                     grads.append(None)
@@ -297,23 +153,20 @@ class IntervalFunction:
         again further on (the conditions' algebra on :class:`.interval_dual.IntervalDual`).
         """
         lo, hi = np.asarray(lo, dtype=np.float64), np.asarray(hi, dtype=np.float64)
-        box = [iv.from_bounds(lo[:, j], hi[:, j]) for j in range(lo.shape[1])]
-        natural, gradients = self.with_gradients(box)
         middle, offsets = cell_offsets(lo, hi)
-        at_middle = self([iv.from_bounds(middle[:, j], middle[:, j]) for j in range(lo.shape[1])])
-        # all expressions stacked into (E, N) and (E, d, N) arrays: a few calls instead of a dozen per expression
-        values, grads, middles = _stack(natural), _stack(gradients), _stack(at_middle)
-        tight = tighten(IntervalDual(values, grads), middles, offsets)
+        # one pass: every register holds its value over the cell, at the middle and its gradient (d + 2 rows)
+        registers = stacked_registers(self._program, self._constants, lo, hi, middle, self._last_uses)
+        n, d = lo.shape
+        values, middles, gradients, by_row = output_parts(registers, self._program.outputs, n, d)
+        del registers
+        tight = intersect_forms(values, mean_value_form(middles, by_row, offsets))
         duals = [IntervalDual(iv.make(tight.lo[e], tight.hi[e]), g) for e, g in enumerate(gradients)]
+        at_middle = [iv.make(middles.lo[e], middles.hi[e]) for e in range(self.size)]
         return duals, at_middle, offsets
 
     def over_cells(self, lo: np.ndarray, hi: np.ndarray) -> list[Interval]:
         """Enclosures over the cells: natural ∩ mean-value form."""
         return [d.value for d in self.duals_over_cells(lo, hi)[0]]
-
-
-def _stack(items: list) -> Interval:
-    return iv.make(np.stack([x.lo for x in items]), np.stack([x.hi for x in items]))
 
 
 def cell_offsets(lo: np.ndarray, hi: np.ndarray) -> tuple[np.ndarray, Interval]:
