@@ -221,8 +221,13 @@ def build_scalar(f: Callable, order: int) -> Callable:
 
 def build_from_function(f: Callable, order: int) -> Callable:
     """A batched evaluator ``(xs, ys) -> Derivatives`` for a JAX-traceable scalar ``f(x, y)``."""
+    return batched_evaluator(build_scalar(f, order), order)
+
+
+def batched_evaluator(one: Callable, order: int) -> Callable:
+    """``(xs, ys) -> Derivatives`` from ``one(x, y) -> dict`` of the fields at one pair (``vmap`` + ``jit``)."""
     jax, jnp = jax_modules()
-    batched = jax.jit(jax.vmap(build_scalar(f, order)))
+    batched = jax.jit(jax.vmap(one))
     names = fields_up_to(order)
 
     def evaluate(x: np.ndarray, y: np.ndarray) -> Derivatives:

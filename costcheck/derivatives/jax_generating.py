@@ -24,10 +24,7 @@ from __future__ import annotations
 
 from typing import Callable
 
-import numpy as np
-
-from .fields import Derivatives, fields_up_to
-from .jax_backend import build_scalar, jax_modules, sympy_to_jax
+from .jax_backend import batched_evaluator, build_scalar, jax_modules, sympy_to_jax
 
 #: Newton steps of the primal ζ(y) (exact at y = y₀, the only point the fields use)
 NEWTON_STEPS = 2
@@ -65,7 +62,6 @@ def build_generating(cost, order: int) -> Callable:
     jax, jnp = jax_modules()
     g = sympy_to_jax(cost.expr, cost.x_symbols, cost.y_symbols)
     zeta = _level_function(jax, jnp, g)
-    names = fields_up_to(order)
 
     def one(x0, w0):
         y0, z0 = w0[:-1], w0[-1]
@@ -85,15 +81,4 @@ def build_generating(cost, order: int) -> Callable:
             out["dy"] = -jax.grad(level)(y0)
         return out
 
-    batched = jax.jit(jax.vmap(one))
-
-    def evaluate(x: np.ndarray, w: np.ndarray) -> Derivatives:
-        count = x.shape[0]
-        size = 1 << max(0, (count - 1).bit_length())  # power-of-two batches: few compilations
-        if size != count:
-            x = np.concatenate([x, np.repeat(x[:1], size - count, axis=0)])
-            w = np.concatenate([w, np.repeat(w[:1], size - count, axis=0)])
-        out = batched(jnp.asarray(x, dtype=jnp.float64), jnp.asarray(w, dtype=jnp.float64))
-        return Derivatives(**{name: np.asarray(out[name], dtype=float)[:count] for name in names})
-
-    return evaluate
+    return batched_evaluator(one, order)
