@@ -51,15 +51,19 @@ def _rewritten(Gz, how):
     return value if status == "ok" else None
 
 
-def _expanded_z_derivative(cost):
-    Gz = z_derivative(cost.expr, cost.y_symbols[-1])
-    return _rewritten(Gz, sp.expand)
+def _expanded_z_derivative(prep: ProofPreparation):
+    """``G_z`` expanded (bounded in time), once per run: z_monotone and the reduction both read it."""
+    def build():
+        Gz = z_derivative(prep.cost.expr, prep.cost.y_symbols[-1])
+        return _rewritten(Gz, sp.expand)
+
+    return prep.once(("G_z expanded",), build)
 
 
 def reduction(prep: ProofPreparation):
     """``(c, c's proof preparation)`` for a reduced cost, else None; found once per run."""
     def build():
-        Gz = _expanded_z_derivative(prep.cost)
+        Gz = _expanded_z_derivative(prep)
         if Gz != -1:
             return None
         c = reduced_cost(prep.cost)
@@ -68,10 +72,11 @@ def reduction(prep: ProofPreparation):
     return prep.once(("reduced cost",), build)
 
 
-def monotone(cost, budget: Budget):
-    """``(outcome, reason)`` for ``G_z < 0`` everywhere: ``("identity", text)`` for a negative constant,
-    else a branch-and-bound :class:`~.branch_bound.Outcome`."""
-    expanded = _expanded_z_derivative(cost)
+def monotone(prep: ProofPreparation, budget: Budget):
+    """``(outcome, reason)`` for ``G_z < 0`` everywhere on ``prep.cost``: ``("identity", text)`` for a
+    negative constant, else a branch-and-bound :class:`~.branch_bound.Outcome`."""
+    cost = prep.cost
+    expanded = _expanded_z_derivative(prep)
     if isinstance(expanded, sp.Number) and expanded.is_negative:
         return "identity", f"G_z = {sp.sstr(expanded)} exactly (sympy, exact arithmetic), a negative constant"
     # two forms of the same function, tried in turn on each cell until one is enclosed below 0:
@@ -106,7 +111,7 @@ def attempt(ctx, condition: str, word: str, budget: Budget, identity_seconds: fl
     if condition == "z_monotone":
         if word != "holds":
             return None, "", "", "", condition
-        outcome, reason = monotone(cost, budget)
+        outcome, reason = monotone(ctx.proof_preparation, budget)
         return outcome, reason, "identity" if outcome == "identity" else "branch and bound", "", condition
     found = reduction(ctx.proof_preparation)
     if found is None and condition == "g_nondegenerate" and word == "holds":

@@ -40,6 +40,8 @@ without an implemented certificate, a domain the sufficient condition does not c
 
 from __future__ import annotations
 
+import dataclasses
+
 from ..model.domain import Ball, Box
 from flint import arb
 
@@ -161,6 +163,9 @@ def twist(cost, budget: Budget, prep: ProofPreparation | None = None):
     if not _slices_convex(cost):
         return None, ("the sufficient condition needs every y-slice of the domain convex; a 'where' on y or a "
                       "'pairs' constraint may cut it")
+    if chart is not None:  # the chart attempt ran and did not prove it: the rest of the budget is the fallback's
+        budget = dataclasses.replace(budget, seconds=max(budget.seconds - chart.seconds, 0.0),
+                                     cells=max(budget.cells - chart.cells, 0))
 
     def coefficients(f):
         return quantities.leading_minors(quantities.symmetric_part(f["dxy"]))
